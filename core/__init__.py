@@ -1,0 +1,1 @@
+"""Loopwright's computation core: pure Python, exact arithmetic, never imports Qt."""

@@ -1,0 +1,369 @@
+"""The diagram model: plain dataclasses, changed only through :class:`Diagram` methods.
+
+Every method validates first and raises :class:`~core.errors.ModelError` (codes E3xx) before
+touching anything, so a refused edit leaves the model exactly as it was. Listeners registered
+with :meth:`Diagram.subscribe` hear ``(event, payload)`` after each change; the app turns these
+into Qt signals, core never imports Qt.
+
+>>> d = Diagram(name="demo")
+>>> _ = d.add_node(Node("r", "input"))
+>>> _ = d.add_node(Node("G", "block", num="1", den="s+1"))
+>>> _ = d.add_node(Node("y", "output"))
+>>> _ = d.connect("r", "G"); _ = d.connect("G", "y")
+>>> [w.key for w in d.wires]
+['r->G:0', 'G->y:0']
+>>> removed = d.remove_node("G")
+>>> len(d.wires), removed.index, [i for i, _ in removed.wires]
+(0, 1, [0, 1])
+"""
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field, replace
+from typing import Callable
+
+from .errors import ModelError
+
+NODE_KINDS = ("input", "output", "sum", "branch", "block")
+ROLES = ("gain", "controller", "actuator", "plant", "sensor", "other")
+DECAY_MODES = ("sigma", "half_time", "settling")
+MIN_SUM_PORTS, MAX_SUM_PORTS = 2, 4
+ID_PATTERN = re.compile(r"^[A-Za-z_][A-Za-z0-9_]{0,63}$")
+PARAMETER_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,63}$")
+
+Listener = Callable[[str, object], None]
+
+
+@dataclass
+class Node:
+    """One node of the diagram. ``num``/``den``/``role`` matter for blocks, ``signs`` for sums."""
+
+    id: str
+    kind: str
+    x: float = 0.0
+    y: float = 0.0
+    label: str = ""
+    role: str = "other"
+    num: str = "1"
+    den: str = "1"
+    signs: str = "+-"
+    flipped: bool = False
+
+    @property
+    def input_count(self) -> int:
+        """How many input ports the node has."""
+        return {"input": 0, "sum": len(self.signs)}.get(self.kind, 1)
+
+    @property
+    def has_output(self) -> bool:
+        """Whether wires may leave the node."""
+        return self.kind != "output"
+
+    @property
+    def title(self) -> str:
+        """The name shown to the user: the label, or the id when there is none."""
+        return self.label or self.id
+
+
+@dataclass
+class Wire:
+    """A wire from ``source``'s output to input ``port`` of ``target``; ``bends`` are waypoints."""
+
+    source: str
+    target: str
+    port: int = 0
+    bends: list[tuple[float, float]] = field(default_factory=list)
+
+    @property
+    def key(self) -> str:
+        """Stable identity: an input port takes at most one wire."""
+        return f"{self.source}->{self.target}:{self.port}"
+
+
+@dataclass
+class Parameter:
+    """A named parameter with its nominal value and the range the tuning slider covers."""
+
+    name: str
+    nominal: float = 1.0
+    minimum: float = 0.0
+    maximum: float = 10.0
+
+
+@dataclass
+class AnalysisSettings:
+    """Which signal is the input and the output, and the decay requirement.
+
+    ``decay_mode`` says how ``decay_value`` is read: ``sigma`` (1/s, directly), ``half_time``
+    (time to half amplitude T, sigma = ln 2 / T) or ``settling`` (2 % settling time Ts,
+    sigma ~ 4 / Ts, common practice). ``decay_value`` 0 means no requirement.
+    """
+
+    input: str | None = None
+    output: str | None = None
+    decay_mode: str = "sigma"
+    decay_value: float = 0.0
+
+
+@dataclass
+class RemovedNode:
+    """What :meth:`Diagram.remove_node` took away, enough to put it back."""
+
+    node: Node
+    index: int
+    wires: list[tuple[int, Wire]]
+
+
+class Diagram:
+    """A whole project: the loop's nodes and wires, its parameters and analysis settings."""
+
+    def __init__(self, name: str = "untitled loop", notes: str = ""):
+        self.name = name
+        self.notes = notes
+        self.nodes: dict[str, Node] = {}
+        self.wires: list[Wire] = []
+        self.parameters: dict[str, Parameter] = {}
+        self.sweep: str | None = None
+        self.analysis = AnalysisSettings()
+        self.view: dict = {}
+        self._listeners: list[Listener] = []
+
+    # -- notification -------------------------------------------------------------------------
+    def subscribe(self, listener: Listener) -> None:
+        """Call ``listener(event, payload)`` after every change."""
+        self._listeners.append(listener)
+
+    def unsubscribe(self, listener: Listener) -> None:
+        """Stop calling ``listener``."""
+        self._listeners.remove(listener)
+
+    def _emit(self, event: str, payload: object = None) -> None:
+        for listener in list(self._listeners):
+            listener(event, payload)
+
+    # -- lookup -------------------------------------------------------------------------------
+    def node(self, node_id: str) -> Node:
+        """The node with this id, or E301."""
+        try:
+            return self.nodes[node_id]
+        except KeyError:
+            raise ModelError("E301", f"there is no node '{node_id}'", where=f"node {node_id}") from None
+
+    def wire_index(self, key: str) -> int:
+        """Position of the wire with this key in :attr:`wires`, or E305."""
+        for i, w in enumerate(self.wires):
+            if w.key == key:
+                return i
+        raise ModelError("E305", f"there is no wire '{key}'", where=f"wire {key}")
+
+    def wires_of(self, node_id: str) -> list[tuple[int, Wire]]:
+        """Every wire touching the node, with its index."""
+        return [(i, w) for i, w in enumerate(self.wires) if node_id in (w.source, w.target)]
+
+    def wire_into(self, node_id: str, port: int) -> Wire | None:
+        """The wire feeding input ``port`` of the node, if any."""
+        return next((w for w in self.wires if w.target == node_id and w.port == port), None)
+
+    def unique_id(self, stem: str) -> str:
+        """A fresh node id built from ``stem`` (``G``, ``G2``, ``G3``...)."""
+        stem = re.sub(r"[^A-Za-z0-9_]", "_", stem) or "n"
+        if not stem[0].isalpha() and stem[0] != "_":
+            stem = "n" + stem
+        candidate, n = stem, 1
+        while candidate in self.nodes:
+            n += 1
+            candidate = f"{stem}{n}"
+        return candidate
+
+    # -- nodes --------------------------------------------------------------------------------
+    def add_node(self, node: Node, index: int | None = None) -> Node:
+        """Add a node (at ``index`` in the node order when restoring) after validating it."""
+        self._check_node(node)
+        if node.id in self.nodes:
+            raise ModelError("E303", f"a node called '{node.id}' already exists", where=f"node {node.id}")
+        items = list(self.nodes.items())
+        items.insert(len(items) if index is None else index, (node.id, node))
+        self.nodes = dict(items)
+        self._emit("node_added", node.id)
+        return node
+
+    def remove_node(self, node_id: str) -> RemovedNode:
+        """Remove a node and every wire touching it; return what is needed to restore them."""
+        node = self.node(node_id)
+        index = list(self.nodes).index(node_id)
+        touching = self.wires_of(node_id)
+        for i, _ in reversed(touching):
+            wire = self.wires.pop(i)
+            self._emit("wire_removed", wire.key)
+        del self.nodes[node_id]
+        self._emit("node_removed", node_id)
+        return RemovedNode(node, index, touching)
+
+    def restore_node(self, removed: RemovedNode) -> None:
+        """Undo :meth:`remove_node`: the node at its old index, then its wires at theirs."""
+        self.add_node(removed.node, removed.index)
+        for i, wire in removed.wires:
+            self.connect(wire.source, wire.target, wire.port, bends=wire.bends, index=i)
+
+    def move_node(self, node_id: str, x: float, y: float) -> None:
+        """Place the node's centre at (x, y)."""
+        node = self.node(node_id)
+        if not (math.isfinite(x) and math.isfinite(y)):
+            raise ModelError("E302", "a position must be a finite number", where=f"node {node_id}")
+        node.x, node.y = float(x), float(y)
+        self._emit("node_moved", node_id)
+
+    def update_node(self, node_id: str, **changes) -> dict:
+        """Change fields of a node (label, role, num, den, signs, flipped); return the old values.
+
+        Block texts are parsed first: text that is not a valid polynomial is refused with the
+        parser's own error (E1xx) and nothing changes. Reducing a summing junction's ports is
+        refused while a wire still feeds a port that would go away.
+        """
+        node = self.node(node_id)
+        allowed = {"label", "role", "num", "den", "signs", "flipped"}
+        unknown = set(changes) - allowed
+        if unknown:
+            raise ModelError("E302", f"cannot change {', '.join(sorted(unknown))}", where=f"node {node_id}")
+        candidate = replace(node, **changes)
+        self._check_node(candidate)
+        if "signs" in changes:
+            for w in self.wires:
+                if w.target == node_id and w.port >= len(candidate.signs):
+                    raise ModelError("E302", f"input {w.port + 1} still has a wire from '{w.source}'",
+                                     where=f"node {node_id}")
+        old = {k: getattr(node, k) for k in changes}
+        for k, v in changes.items():
+            setattr(node, k, v)
+        self._emit("node_changed", node_id)
+        return old
+
+    def _check_node(self, node: Node) -> None:
+        where = f"node {node.id}"
+        if not isinstance(node.id, str) or not ID_PATTERN.match(node.id):
+            raise ModelError("E302", f"node id {node.id!r} must be a letter or _ then letters, digits or _",
+                             where=where)
+        if node.kind not in NODE_KINDS:
+            raise ModelError("E302", f"unknown node kind '{node.kind}' (one of {', '.join(NODE_KINDS)})",
+                             where=where)
+        if not (math.isfinite(node.x) and math.isfinite(node.y)):
+            raise ModelError("E302", "a position must be a finite number", where=where)
+        if node.kind == "sum":
+            if not (MIN_SUM_PORTS <= len(node.signs) <= MAX_SUM_PORTS) or set(node.signs) - {"+", "-"}:
+                raise ModelError("E302", f"signs must be {MIN_SUM_PORTS} to {MAX_SUM_PORTS} of '+' and '-'",
+                                 where=where)
+        if node.kind == "block":
+            if node.role not in ROLES:
+                raise ModelError("E302", f"unknown role '{node.role}' (one of {', '.join(ROLES)})", where=where)
+            from .expression import block_transfer  # local: expression imports nothing from here
+            block_transfer(node.num, node.den, where=where)
+
+    # -- wires --------------------------------------------------------------------------------
+    def connect(self, source: str, target: str, port: int = 0, bends=None, index: int | None = None) -> Wire:
+        """Wire ``source``'s output to input ``port`` of ``target``."""
+        src, dst = self.node(source), self.node(target)
+        where = f"wire {source}->{target}:{port}"
+        if not src.has_output:
+            raise ModelError("E302", f"'{src.title}' is an output and has nothing to send", where=where)
+        if dst.input_count == 0:
+            raise ModelError("E302", f"'{dst.title}' is an input and takes no wire", where=where)
+        if not isinstance(port, int) or not 0 <= port < dst.input_count:
+            raise ModelError("E302", f"'{dst.title}' has no input {port + 1 if isinstance(port, int) else port}",
+                             where=where)
+        if self.wire_into(target, port) is not None:
+            raise ModelError("E302", f"input {port + 1} of '{dst.title}' already has a wire", where=where)
+        if source == target:
+            raise ModelError("E302", "a node cannot feed itself directly", where=where)
+        wire = Wire(source, target, port, [tuple(map(float, b)) for b in (bends or [])])
+        self.wires.insert(len(self.wires) if index is None else index, wire)
+        self._emit("wire_added", wire.key)
+        return wire
+
+    def disconnect(self, key: str) -> tuple[int, Wire]:
+        """Remove the wire with this key; return its index and the wire for restoring."""
+        i = self.wire_index(key)
+        wire = self.wires.pop(i)
+        self._emit("wire_removed", key)
+        return i, wire
+
+    def set_wire_bends(self, key: str, bends: list[tuple[float, float]]) -> list[tuple[float, float]]:
+        """Replace a wire's waypoints; return the old ones."""
+        wire = self.wires[self.wire_index(key)]
+        old, wire.bends = wire.bends, [tuple(map(float, b)) for b in bends]
+        self._emit("wire_changed", key)
+        return old
+
+    # -- parameters and settings --------------------------------------------------------------
+    def set_parameter(self, parameter: Parameter) -> Parameter | None:
+        """Add or replace a parameter; return the one it replaced."""
+        p = parameter
+        where = f"parameter {p.name}"
+        if not isinstance(p.name, str) or not PARAMETER_PATTERN.match(p.name) or p.name == "s":
+            raise ModelError("E304", f"{p.name!r} is not a usable parameter name", where=where)
+        values = (p.nominal, p.minimum, p.maximum)
+        if not all(isinstance(v, (int, float)) and math.isfinite(v) and abs(v) <= 1e300 for v in values):
+            raise ModelError("E304", "nominal, min and max must be finite numbers", where=where)
+        if not p.minimum < p.maximum:
+            raise ModelError("E304", "min must be below max", where=where)
+        old = self.parameters.get(p.name)
+        self.parameters[p.name] = replace(p, nominal=float(p.nominal), minimum=float(p.minimum),
+                                          maximum=float(p.maximum))
+        self._emit("parameters_changed", p.name)
+        return old
+
+    def remove_parameter(self, name: str) -> Parameter:
+        """Remove a parameter (and clear the tuning choice if it was that one)."""
+        if name not in self.parameters:
+            raise ModelError("E304", f"there is no parameter '{name}'", where=f"parameter {name}")
+        old = self.parameters.pop(name)
+        if self.sweep == name:
+            self.sweep = None
+        self._emit("parameters_changed", name)
+        return old
+
+    def set_sweep(self, name: str | None) -> str | None:
+        """Choose the tuning parameter (None for none); return the previous choice."""
+        if name is not None and name not in self.parameters:
+            raise ModelError("E304", f"there is no parameter '{name}' to tune", where=f"parameter {name}")
+        old, self.sweep = self.sweep, name
+        self._emit("settings_changed", "sweep")
+        return old
+
+    def set_analysis(self, **changes) -> dict:
+        """Change analysis settings (input, output, decay_mode, decay_value); return old values."""
+        unknown = set(changes) - {"input", "output", "decay_mode", "decay_value"}
+        if unknown:
+            raise ModelError("E302", f"no analysis setting {', '.join(sorted(unknown))}", where="analysis")
+        for key in ("input", "output"):
+            if changes.get(key) is not None:
+                node = self.node(changes[key])
+                if key == "input" and not node.has_output:
+                    raise ModelError("E302", f"'{node.title}' sends no signal", where="analysis input")
+        if "decay_mode" in changes and changes["decay_mode"] not in DECAY_MODES:
+            raise ModelError("E302", f"decay mode must be one of {', '.join(DECAY_MODES)}", where="analysis")
+        if "decay_value" in changes:
+            v = changes["decay_value"]
+            if not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
+                raise ModelError("E304", "the decay requirement must be a number >= 0", where="analysis")
+        old = {k: getattr(self.analysis, k) for k in changes}
+        for k, v in changes.items():
+            setattr(self.analysis, k, float(v) if k == "decay_value" else v)
+        self._emit("settings_changed", "analysis")
+        return old
+
+    def rename(self, name: str) -> str:
+        """Set the project's name; return the old one."""
+        old, self.name = self.name, str(name)
+        self._emit("settings_changed", "name")
+        return old
+
+    # -- derived ------------------------------------------------------------------------------
+    def parameter_names_in_blocks(self) -> set[str]:
+        """Every parameter name typed in any block's numerator or denominator."""
+        from .expression import expression_parameters
+        names: set[str] = set()
+        for node in self.nodes.values():
+            if node.kind == "block":
+                names |= expression_parameters(node.num) | expression_parameters(node.den)
+        return names

@@ -1,0 +1,244 @@
+"""The one polynomial convention of core/, and the parametric polynomial the analysis works on.
+
+Convention (stated here once): a polynomial in the Laplace variable ``s`` is a list of
+coefficients, **highest power first, leading zeros stripped**. Every coefficient is exact: a
+``flint.fmpq`` rational, or a ``flint.fmpq_poly`` in the tuning parameter. Typed decimals are exact
+(``0.1`` is 1/10). Floats appear only at the edges: roots, pole paths, plots.
+
+Diagram-wide polynomials in ``s`` and every parameter are ``flint.fmpq_mpoly`` values in the context
+returned by :func:`mpoly_context` (generators ``s`` first, then parameter names sorted).
+
+>>> p = ParametricPolynomial.from_coefficients([1, 3, 2])
+>>> p.degree, p.text()
+(2, 's^2 + 3*s + 2')
+>>> q = ParametricPolynomial.from_mpoly(mpoly_from_dict(("K",), {(3, 0): 1, (1, 0): 2, (0, 1): 1}), "K")
+>>> q.text()
+'s^3 + 2*s + K'
+>>> [str(c) for c in q.at(fmpq(1, 2))]
+['1', '0', '2', '1/2']
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Iterable, Mapping, Sequence
+
+from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz
+
+S = "s"  # the Laplace variable's name, reserved in every expression
+
+__all__ = ["S", "fmpq", "fmpq_poly", "to_fmpq", "mpoly_context", "mpoly_from_dict", "mpoly_text",
+           "poly_text", "ParametricPolynomial", "strip_leading_zeros"]
+
+
+def to_fmpq(value) -> fmpq:
+    """Exact rational from an int, Fraction, fmpq, sympy Rational, or a decimal given as str/float.
+
+    Floats go through their shortest decimal text, so ``0.1`` becomes 1/10, not a binary fraction.
+
+    >>> to_fmpq(0.1), to_fmpq("2.5e-3"), to_fmpq(Fraction(3, 4))
+    (1/10, 1/400, 3/4)
+    """
+    if isinstance(value, fmpq):
+        return value
+    if isinstance(value, (int, fmpz)):
+        return fmpq(int(value))
+    if isinstance(value, Fraction):
+        return fmpq(value.numerator, value.denominator)
+    if isinstance(value, float):
+        value = repr(value)
+    if isinstance(value, str):
+        frac = Fraction(value)
+        return fmpq(frac.numerator, frac.denominator)
+    if hasattr(value, "p") and hasattr(value, "q"):  # sympy Rational / Integer
+        return fmpq(int(value.p), int(value.q))
+    raise TypeError(f"cannot make an exact rational from {value!r}")
+
+
+def mpoly_context(parameters: Iterable[str]) -> fmpq_mpoly_ctx:
+    """The context for polynomials in ``s`` and the given parameters (``s`` first, rest sorted)."""
+    names = (S, *sorted(set(parameters) - {S}))
+    return fmpq_mpoly_ctx.get(names, "lex")
+
+
+def mpoly_from_dict(parameters: Sequence[str], terms: Mapping[tuple[int, ...], object]) -> fmpq_mpoly:
+    """Polynomial from ``{(exp_s, exp_p1, ...): coefficient}`` with parameters in sorted order."""
+    ctx = mpoly_context(parameters)
+    return ctx.from_dict({exps: to_fmpq(c) for exps, c in terms.items()})
+
+
+def _join_terms(terms: list[tuple[fmpq | str, str]]) -> str:
+    """Join (sign-carrying coefficient text, monomial text) pairs as a readable sum."""
+    out = ""
+    for coeff, mono in terms:
+        text = coeff if not mono else (mono if coeff == "1" else "-" + mono if coeff == "-1"
+                                       else f"{coeff}*{mono}")
+        if not out:
+            out = text
+        elif text.startswith("-"):
+            out += " - " + text[1:]
+        else:
+            out += " + " + text
+    return out or "0"
+
+
+def _monomial(names: Sequence[str], exps: Sequence[int]) -> str:
+    parts = [n if e == 1 else f"{n}^{e}" for n, e in zip(names, exps) if e]
+    return "*".join(parts)
+
+
+def mpoly_text(poly: fmpq_mpoly) -> str:
+    """Exact, parseable text of a polynomial in ``s`` and parameters, highest power of s first.
+
+    >>> mpoly_text(mpoly_from_dict(("K",), {(2, 0): 1, (0, 1): fmpq(-1, 2), (0, 0): 3}))
+    's^2 - 1/2*K + 3'
+    """
+    names = poly.context().names()
+    items = sorted(poly.to_dict().items(), key=lambda t: tuple(-e for e in t[0]))
+    return _join_terms([(str(c), _monomial(names, e)) for e, c in items])
+
+
+def poly_text(coeffs: Sequence, variable: str = S) -> str:
+    """Text of a polynomial given highest power first; coefficients may be fmpq or fmpq_poly.
+
+    >>> poly_text([fmpq(1), fmpq(0), fmpq(-2)])
+    's^2 - 2'
+    """
+    n = len(coeffs) - 1
+    terms = []
+    for i, c in enumerate(coeffs):
+        power = n - i
+        mono = "" if power == 0 else variable if power == 1 else f"{variable}^{power}"
+        if isinstance(c, fmpq_poly):
+            if c.is_zero():
+                continue
+            inner = _fmpq_poly_text(c)
+            terms.append((f"({inner})" if mono and c.degree() > 0 else inner, mono))
+        else:
+            if c == 0:
+                continue
+            terms.append((str(c), mono))
+    return _join_terms(terms)
+
+
+def _fmpq_poly_text(c: fmpq_poly, name: str = "k") -> str:
+    return poly_text([c[i] for i in range(c.degree(), -1, -1)], name)
+
+
+def strip_leading_zeros(coeffs: Sequence) -> list:
+    """Drop zero coefficients at the high-power end (the convention's normal form)."""
+    i = 0
+    while i < len(coeffs) - 1 and coeffs[i] == 0:
+        i += 1
+    return list(coeffs[i:])
+
+
+@dataclass(frozen=True)
+class ParametricPolynomial:
+    """A polynomial in ``s`` whose coefficients are polynomials in one tuning parameter.
+
+    ``coeffs`` are ``fmpq_poly`` values (constants when ``parameter`` is None), highest power of
+    ``s`` first. The generic degree is ``len(coeffs) - 1``; at particular parameter values the
+    leading coefficient may vanish and :meth:`at` strips it.
+    """
+
+    coeffs: tuple[fmpq_poly, ...]
+    parameter: str | None = None
+
+    def __post_init__(self):
+        coeffs = tuple(c if isinstance(c, fmpq_poly) else fmpq_poly([to_fmpq(c)]) for c in self.coeffs)
+        i = 0
+        while i < len(coeffs) - 1 and coeffs[i].is_zero():
+            i += 1
+        object.__setattr__(self, "coeffs", coeffs[i:] or (fmpq_poly([]),))
+
+    @classmethod
+    def from_coefficients(cls, coeffs: Sequence, parameter: str | None = None) -> "ParametricPolynomial":
+        """From a list (highest power first) of numbers or fmpq_poly values."""
+        return cls(tuple(coeffs), parameter)
+
+    @classmethod
+    def from_mpoly(cls, poly: fmpq_mpoly, parameter: str | None = None,
+                   values: Mapping[str, object] | None = None) -> "ParametricPolynomial":
+        """Substitute ``values`` for every parameter but ``parameter`` and collect powers of s.
+
+        Raises KeyError naming the first parameter that has neither a value nor is the tuning one.
+        """
+        names = poly.context().names()
+        values = values or {}
+        fixed = {n: to_fmpq(values[n]) for n in names[1:] if n != parameter and n in values}
+        if fixed:
+            poly = poly.subs(fixed)
+        by_power: dict[int, dict[int, fmpq]] = {}
+        k_index = names.index(parameter) if parameter in names else None
+        for exps, c in poly.to_dict().items():
+            for idx, e in enumerate(exps[1:], start=1):
+                if e and idx != k_index:
+                    raise KeyError(names[idx])
+            k_exp = exps[k_index] if k_index is not None else 0
+            by_power.setdefault(exps[0], {})
+            by_power[exps[0]][k_exp] = by_power[exps[0]].get(k_exp, 0) + c
+        degree = max(by_power, default=0)
+        coeffs = []
+        for power in range(degree, -1, -1):
+            terms = by_power.get(power, {})
+            top = max(terms, default=-1)
+            coeffs.append(fmpq_poly([terms.get(i, 0) for i in range(top + 1)]))
+        return cls(tuple(coeffs), parameter)
+
+    @property
+    def degree(self) -> int:
+        """Generic degree in s (``-1`` for the zero polynomial)."""
+        if len(self.coeffs) == 1 and self.coeffs[0].is_zero():
+            return -1
+        return len(self.coeffs) - 1
+
+    def at(self, value=None) -> list[fmpq]:
+        """Exact coefficients at a parameter value (ignored without a parameter), leading zeros stripped."""
+        v = to_fmpq(value) if value is not None else fmpq(0)
+        return strip_leading_zeros([c(v) for c in self.coeffs])
+
+    def at_float(self, value: float | None = None) -> list[float]:
+        """Float coefficients at a value (for roots and plots only)."""
+        v = 0.0 if value is None else float(value)
+        out = []
+        for c in self.coeffs:
+            acc = 0.0
+            for i in range(c.degree(), -1, -1):
+                acc = acc * v + float(c[i])
+            out.append(acc)
+        return out
+
+    def shifted(self, sigma) -> "ParametricPolynomial":
+        """The polynomial in z with s = z - sigma (roots move right by sigma).
+
+        >>> ParametricPolynomial.from_coefficients([1, 3, 2]).shifted(1).text()
+        's^2 + s'
+        """
+        sig = to_fmpq(sigma)
+        acc: list[fmpq_poly] = [fmpq_poly([])]  # Horner in (z - sigma), lowest power of z first
+        for c in self.coeffs:
+            nxt = [fmpq_poly([]) for _ in range(len(acc) + 1)]
+            for j, a in enumerate(acc):
+                nxt[j + 1] += a
+                nxt[j] -= a * sig
+            nxt[0] += c
+            acc = nxt
+        n = len(self.coeffs) - 1
+        return ParametricPolynomial(tuple(reversed(acc[: n + 1])), self.parameter)
+
+    def text(self) -> str:
+        """Exact text, highest power first, the parameter by its name."""
+        name = self.parameter or "k"
+        n = len(self.coeffs) - 1
+        terms = []
+        for i, c in enumerate(self.coeffs):
+            power = n - i
+            mono = "" if power == 0 else S if power == 1 else f"{S}^{power}"
+            if c.is_zero():
+                continue
+            inner = _fmpq_poly_text(c, name)
+            if c.degree() > 0 and mono and len([1 for j in range(c.degree() + 1) if c[j] != 0]) > 1:
+                inner = f"({inner})"
+            terms.append((inner, mono))
+        return _join_terms(terms)
