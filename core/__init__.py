@@ -1,1 +1,24 @@
-"""Loopwright's computation core: pure Python, exact arithmetic, never imports Qt."""
+"""Loopwright's computation core: pure Python, exact arithmetic, never imports Qt.
+
+The public API, loaded on first use so that ``import core.polynomial`` stays light:
+
+- :func:`check_polynomial` (text, parameter=None, at=None, decay=0.0) -> :class:`Report`
+- :func:`check_project` (diagram or path) -> :class:`Report`
+- :func:`load_project` (path) -> :class:`Diagram`, :func:`save_project` (diagram, path)
+"""
+from importlib import import_module
+
+_EXPORTS = {
+    "check_polynomial": "analysis", "check_project": "analysis", "Report": "analysis", "CAUTION": "analysis",
+    "load_project": "project_file", "save_project": "project_file",
+    "Diagram": "model", "Node": "model", "Wire": "model", "Parameter": "model",
+    "LoopwrightError": "errors",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name):
+    if name in _EXPORTS:
+        return getattr(import_module(f".{_EXPORTS[name]}", __name__), name)
+    raise AttributeError(f"module 'core' has no attribute {name!r}")

@@ -1,0 +1,319 @@
+"""The whole analysis of a loop, from a typed polynomial or a diagram, gathered in one Report.
+
+>>> r = check_polynomial("s^3 + 3s^2 + 2s + K", parameter="K", at={"K": 2})
+>>> r.stable_range.to_dict()["intervals"]
+[[0.0, 6.0]]
+>>> r.nominal.stable, r.nominal.rhp
+(True, 0)
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Mapping
+
+from flint import fmpq
+
+from .errors import AnalysisError
+from .expression import expression_parameters, parse_polynomial, to_mpoly
+from .model import Diagram
+from .poles import Pole, certified_roots, dominant_pole, expand_multiplicity
+from .polynomial import ParametricPolynomial, mpoly_context, mpoly_text, to_fmpq
+from .routh import RouthArray, routh_array, routh_counts
+from .stable_range import StableRange, decay_range, margins, stable_range
+
+CAUTION = ("A linear model is not a safety case. Before power is applied, check actuator saturation, "
+           "time delays, sampling, sensor noise and hardware limits; defer to the applicable machinery "
+           "and functional-safety standards and to licensed engineering practice.")
+
+DECAY_NOTES = {
+    "sigma": "minimum decay rate given directly",
+    "half_time": "sigma = ln 2 / T from the time to half amplitude T",
+    "settling": "sigma ~ 4 / Ts from the 2 % settling time Ts (rule of thumb, common practice)",
+}
+
+
+@dataclass
+class Nominal:
+    """The loop at the nominal values: exact root counts and certified poles."""
+
+    values: dict[str, float]
+    stable: bool
+    rhp: int
+    jw: int
+    lhp: int
+    poles: list[Pole]
+    sign_changes: list[int]
+    notes: list[str]
+
+    def to_dict(self) -> dict:
+        """JSON-ready fields (``poles`` as [re, im] pairs, one per root)."""
+        return {"values": self.values, "stable": self.stable, "rhp": self.rhp, "jw": self.jw,
+                "lhp": self.lhp, "poles": [[p.re, p.im] for p in expand_multiplicity(self.poles)],
+                "sign_changes": self.sign_changes, "notes": self.notes}
+
+
+@dataclass
+class Decay:
+    """The decay requirement and the parameter range that meets it."""
+
+    sigma: float
+    mode: str
+    note: str
+    range: StableRange | None
+    nominal_ok: bool | None
+
+    def to_dict(self) -> dict:
+        """JSON-ready fields; ``intervals`` and ``endpoints`` as in the stable range."""
+        out = {"sigma": self.sigma, "mode": self.mode, "note": self.note, "nominal_ok": self.nominal_ok,
+               "intervals": None, "endpoints": None}
+        if self.range is not None:
+            rng = self.range.to_dict()
+            out["intervals"], out["endpoints"] = rng["intervals"], rng["endpoints"]
+            out["exact_intervals"] = rng.get("exact_intervals")
+        return out
+
+
+@dataclass
+class HiddenMode:
+    """A root of the characteristic polynomial that cancels out of the input-output transfer."""
+
+    pole: Pole
+    blocks: list[str]
+
+    @property
+    def unstable(self) -> bool:
+        """Whether the hidden mode does not decay."""
+        return self.pole.re >= 0
+
+    def to_dict(self) -> dict:
+        """JSON-ready fields."""
+        return {"re": self.pole.re, "im": self.pole.im, "multiplicity": self.pole.multiplicity,
+                "unstable": self.unstable, "blocks": self.blocks}
+
+
+@dataclass
+class Report:
+    """Everything one analysis found; panels and the command line only read it."""
+
+    polynomial: str
+    analysed: ParametricPolynomial
+    parameter: str | None
+    values: dict[str, fmpq]
+    routh: RouthArray
+    stable_range: StableRange | None
+    nominal: Nominal | None
+    decay: Decay | None
+    margins: object | None = None
+    hidden_modes: list[HiddenMode] = field(default_factory=list)
+    transfer_function: dict | None = None
+    zeros: list[Pole] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    source: str = ""
+
+    @property
+    def dominant(self) -> Pole | None:
+        """The nominal loop's slowest pole."""
+        return dominant_pole(self.nominal.poles) if self.nominal else None
+
+    def to_dict(self) -> dict:
+        """The JSON contract of ``python -m core check --json`` (keys kept stable)."""
+        dom = self.dominant
+        return {
+            "source": self.source,
+            "polynomial": self.polynomial,
+            "analysed_polynomial": self.analysed.text(),
+            "degree": self.analysed.degree,
+            "parameter": self.parameter,
+            "nominal": self.nominal.to_dict() if self.nominal else None,
+            "routh": self.routh.to_dict(),
+            "stable_range": self.stable_range.to_dict() if self.stable_range else None,
+            "margins": self.margins.to_dict() if self.margins is not None else None,
+            "decay": self.decay.to_dict() if self.decay else None,
+            "hidden_modes": [[h.pole.re, h.pole.im] for h in self.hidden_modes],
+            "hidden_mode_details": [h.to_dict() for h in self.hidden_modes],
+            "transfer_function": self.transfer_function,
+            "poles": [p.to_dict() for p in self.nominal.poles] if self.nominal else None,
+            "zeros": [[z.re, z.im] for z in expand_multiplicity(self.zeros)],
+            "dominant_pole": dom.to_dict() if dom else None,
+            "warnings": self.warnings,
+            "caution": CAUTION,
+        }
+
+
+def decay_sigma(mode: str, value: float) -> tuple[fmpq, str]:
+    """Exact sigma (1/s) from a decay requirement, and the note that says how it was read.
+
+    >>> decay_sigma("settling", 2.0)[0]
+    2
+    """
+    if mode not in DECAY_NOTES:
+        raise AnalysisError("E405", f"unknown decay mode '{mode}' (sigma, half_time or settling)",
+                            where="decay requirement")
+    if not (isinstance(value, (int, float)) and math.isfinite(value) and value >= 0):
+        raise AnalysisError("E405", "the decay requirement must be a finite number >= 0",
+                            where="decay requirement")
+    if value == 0:
+        return fmpq(0), "no decay requirement"
+    if mode == "sigma":
+        return to_fmpq(value), DECAY_NOTES[mode]
+    if mode == "settling":
+        return to_fmpq(4) / to_fmpq(value), DECAY_NOTES[mode]
+    sigma = math.log(2) / value  # irrational: use its 15-digit decimal, said in the note
+    return to_fmpq(float(f"{sigma:.15g}")), DECAY_NOTES[mode] + " (ln 2 rounded to 15 digits)"
+
+
+def _exact_values(values: Mapping[str, object] | None) -> dict[str, fmpq]:
+    out = {}
+    for name, v in (values or {}).items():
+        try:
+            if isinstance(v, float) and not math.isfinite(v):
+                raise ValueError
+            out[name] = to_fmpq(v)
+        except (TypeError, ValueError, ZeroDivisionError):
+            raise AnalysisError("E404", f"value {v!r} of parameter '{name}' is not a finite number",
+                                where=f"parameter {name}") from None
+    return out
+
+
+def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, fmpq],
+                       decay: tuple[str, float] = ("sigma", 0.0), shown: str | None = None) -> Report:
+    """Routh array, stable range, decay range and nominal poles of one characteristic polynomial.
+
+    ``poly_mpoly`` is an fmpq_mpoly in ``s`` and parameters; every parameter but ``parameter``
+    must have a value in ``values``.
+    """
+    names = poly_mpoly.context().names()[1:]
+    if parameter is not None and parameter not in names:
+        raise AnalysisError("E405", f"the tuning parameter '{parameter}' does not appear in the polynomial",
+                            where=f"parameter {parameter}")
+    missing = [n for n in names if n != parameter and n not in values]
+    if missing:
+        raise AnalysisError("E404", f"parameter {', '.join(missing)} has no value; give one or tune it",
+                            where=f"parameter {missing[0]}")
+    analysed = ParametricPolynomial.from_mpoly(poly_mpoly, parameter, values)
+    if analysed.degree < 0:
+        raise AnalysisError("E403", "the characteristic polynomial is identically zero", where="polynomial")
+    warnings: list[str] = []
+    routh = routh_array(analysed)
+    rng = stable_range(analysed) if parameter else None
+    nominal_value = values.get(parameter) if parameter else None
+    nominal = None
+    if parameter is None or nominal_value is not None:
+        nominal = _nominal(analysed, nominal_value, values, warnings)
+    mode, dvalue = decay
+    sigma, note = decay_sigma(mode, dvalue)
+    dec = None
+    if sigma > 0:
+        drange = decay_range(analysed, sigma) if parameter else None
+        ok = None
+        if nominal is not None:
+            ok = bool(nominal.poles) and all(p.re < -float(sigma) for p in nominal.poles) \
+                and _shifted_stable(analysed, sigma, nominal_value)
+        dec = Decay(float(sigma), mode, note, drange, ok)
+    marg = margins(rng, nominal_value) if (rng is not None and nominal_value is not None) else None
+    return Report(polynomial=shown or mpoly_text(poly_mpoly), analysed=analysed, parameter=parameter,
+                  values=dict(values), routh=routh, stable_range=rng, nominal=nominal, decay=dec,
+                  margins=marg, warnings=warnings)
+
+
+def _shifted_stable(poly: ParametricPolynomial, sigma: fmpq, value) -> bool:
+    """Exact check that every root lies left of -sigma at one value."""
+    counts = routh_counts(poly.shifted(sigma).at(value))
+    return counts.rhp == 0 and counts.jw == 0 and len(poly.at(value)) - 1 == poly.degree
+
+
+def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warnings: list[str]) -> Nominal:
+    coeffs = poly.at(value)
+    counts = routh_counts(coeffs)
+    poles = certified_roots(coeffs)
+    notes = list(counts.notes)
+    if len(coeffs) - 1 < poly.degree:
+        notes.append(f"the leading coefficient vanishes here: the loop's order drops from {poly.degree} "
+                     f"to {len(coeffs) - 1}")
+    float_rhp = sum(p.multiplicity for p in poles if p.re > 0)
+    if counts.jw == 0 and float_rhp != counts.rhp:
+        warnings.append(f"numerically sensitive: certified roots show {float_rhp} in the right half plane, "
+                        f"the exact Routh count is {counts.rhp}; trust the exact count")
+    stable = counts.rhp == 0 and counts.jw == 0 and len(coeffs) - 1 == poly.degree and len(coeffs) > 0
+    return Nominal(values={k: float(v) for k, v in values.items()}, stable=stable, rhp=counts.rhp,
+                   jw=counts.jw, lhp=counts.lhp, poles=poles, sign_changes=list(counts.sign_changes),
+                   notes=notes)
+
+
+def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, object] | None = None,
+                     decay: float = 0.0, decay_mode: str = "sigma") -> Report:
+    """Analyse a typed characteristic polynomial; ``at`` maps parameter names to values."""
+    expr = parse_polynomial(text, where="polynomial")
+    names = sorted(expression_parameters(text))
+    values = _exact_values(at)
+    unknown = sorted(set(values) - set(names) - ({parameter} if parameter else set()))
+    if unknown:
+        raise AnalysisError("E405", f"parameter {', '.join(unknown)} does not appear in the polynomial",
+                            where=f"parameter {unknown[0]}")
+    poly = to_mpoly(expr, mpoly_context(names))
+    report = analyse_polynomial(poly, parameter, values, (decay_mode, decay))
+    report.source = "typed polynomial"
+    return report
+
+
+def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None) -> Report:
+    """Analyse a project (a Diagram or a path to a project file)."""
+    from .project_file import load_project
+    from .reduction import reduce_diagram
+
+    source = ""
+    if not isinstance(project, Diagram):
+        source = str(project)
+        project = load_project(project)
+    settings = project.analysis
+    red = reduce_diagram(project, settings.input, settings.output)
+    values = _exact_values({p.name: p.nominal for p in project.parameters.values()})
+    parameter = project.sweep
+    used = red.characteristic.context().names()[1:]
+    if parameter is not None and parameter not in used:
+        raise AnalysisError("E405", f"the tuning parameter '{parameter}' appears in no block",
+                            where=f"parameter {parameter}")
+    report = analyse_polynomial(red.characteristic, parameter,
+                                {k: v for k, v in values.items() if k in used},
+                                decay or (settings.decay_mode, settings.decay_value))
+    report.source = source or project.name
+    report.warnings = list(red.warnings) + report.warnings
+    if red.tf_num is not None:
+        report.transfer_function = {"num": mpoly_text(red.tf_num_reduced), "den": mpoly_text(red.tf_den_reduced),
+                                    "num_full": mpoly_text(red.tf_num), "den_full": mpoly_text(red.tf_den)}
+        all_values = {k: v for k, v in values.items() if k in used}
+        if parameter is None or parameter in all_values:
+            report.hidden_modes = _hidden_modes(red, all_values)
+            report.zeros = _roots_at(red.tf_num_reduced, all_values)
+        for mode in report.hidden_modes:
+            where = f" (from {', '.join(mode.blocks)})" if mode.blocks else ""
+            state = "UNSTABLE" if mode.unstable else "stable"
+            report.warnings.append(f"hidden mode at s = {_complex_text(mode.pole)}{where}: {state}; it cancels "
+                                   "out of the input-output transfer function but is still in the loop")
+    return report
+
+
+def _roots_at(poly, values: Mapping[str, fmpq]) -> list[Pole]:
+    p = ParametricPolynomial.from_mpoly(poly, None, values)
+    return certified_roots(p.at())
+
+
+def _hidden_modes(red, values: Mapping[str, fmpq]) -> list[HiddenMode]:
+    if red.hidden_factor is None:
+        return []
+    poles = _roots_at(red.hidden_factor, values)
+    blocks = list(getattr(red, "hidden_blocks", []) or [])
+    return [HiddenMode(p, blocks) for p in poles]
+
+
+def _complex_text(p: Pole) -> str:
+    if p.im == 0:
+        return f"{p.re:.6g}"
+    return f"{p.re:.6g} {'+' if p.im > 0 else '-'} j{abs(p.im):.6g}"
+
+
+def values_text(values: Mapping[str, fmpq]) -> str:
+    """``K = 2, T = 1/10`` for a note."""
+    return ", ".join(f"{k} = {v}" for k, v in sorted(values.items()))

@@ -1,0 +1,140 @@
+"""Numeric roots at the edges: certified poles at one value, and vectorised pole paths.
+
+Roots of one exact polynomial come from flint's certified complex root isolation (each root is
+a ball known to contain it), so repeated and clustered roots keep their multiplicity. Pole paths
+over many parameter values use batched companion-matrix eigenvalues in numpy (floats), since
+they are drawn, not trusted; :func:`path_sensitivity` says where floats disagree with exact counts.
+
+>>> [(round(p.re, 6), round(p.im, 6)) for p in certified_roots([1, 3, 2])]
+[(-1.0, 0.0), (-2.0, 0.0)]
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Sequence
+
+import numpy as np
+from flint import fmpq_poly
+
+from .polynomial import ParametricPolynomial, to_fmpq
+
+
+@dataclass(frozen=True)
+class Pole:
+    """A root with its damping ratio and natural frequency (rad/s); ``multiplicity`` >= 1."""
+
+    re: float
+    im: float
+    multiplicity: int = 1
+
+    @property
+    def natural_frequency(self) -> float:
+        """|p| in rad/s."""
+        return math.hypot(self.re, self.im)
+
+    @property
+    def damping(self) -> float | None:
+        """-Re p / |p|; None for a root at the origin."""
+        wn = self.natural_frequency
+        return None if wn == 0 else -self.re / wn
+
+    def to_dict(self) -> dict:
+        """JSON-ready fields."""
+        return {"re": self.re, "im": self.im, "multiplicity": self.multiplicity,
+                "damping": self.damping, "natural_frequency": self.natural_frequency}
+
+
+def certified_roots(coeffs: Sequence) -> list[Pole]:
+    """Roots of an exact polynomial (highest power first), sorted by decreasing real part.
+
+    Each conjugate pair is listed with both members; real roots have ``im == 0.0`` exactly.
+    """
+    exact = [to_fmpq(c) for c in coeffs]
+    poly = fmpq_poly(list(reversed(exact)))
+    if poly.degree() < 1:
+        return []
+    poles: list[Pole] = []
+    for root, mult in poly.complex_roots():
+        re, im = float(root.real.mid()), float(root.imag.mid())
+        poles.append(Pole(re, 0.0 if root.imag == 0 else im, int(mult)))
+    poles.sort(key=lambda p: (-p.re, -p.im))
+    return poles
+
+
+def expand_multiplicity(poles: Sequence[Pole]) -> list[Pole]:
+    """One entry per root, repeating multiple roots."""
+    return [Pole(p.re, p.im, 1) for p in poles for _ in range(p.multiplicity)]
+
+
+def dominant_pole(poles: Sequence[Pole]) -> Pole | None:
+    """The slowest-decaying pole (largest real part; the upper one of a pair)."""
+    return max(poles, key=lambda p: (p.re, p.im), default=None)
+
+
+def pole_paths(poly: ParametricPolynomial, values: Sequence[float]) -> np.ndarray:
+    """Roots at each parameter value: array (len(values), degree) complex, NaN where absent.
+
+    Vectorised: companion matrices for every value, one batched ``numpy.linalg.eigvals`` call.
+    Where the leading coefficient vanishes the order drops and the missing roots are NaN.
+    Successive rows are matched greedily so each column traces one continuous path.
+    """
+    vals = np.asarray(values, dtype=float)
+    n = poly.degree
+    if n < 1 or vals.size == 0:
+        return np.empty((vals.size, max(n, 0)), dtype=complex)
+    coeff = np.stack([_eval_poly_float(c, vals) for c in poly.coeffs], axis=1)  # (m, n+1)
+    lead = coeff[:, 0]
+    scale = np.max(np.abs(coeff), axis=1)
+    ok = np.abs(lead) > 1e-14 * np.where(scale > 0, scale, 1.0)
+    out = np.full((vals.size, n), np.nan + 0j)
+    if np.any(ok):
+        c = coeff[ok] / lead[ok, None]
+        comp = np.zeros((c.shape[0], n, n))
+        comp[:, 0, :] = -c[:, 1:]
+        if n > 1:
+            idx = np.arange(n - 1)
+            comp[:, idx + 1, idx] = 1.0
+        out[ok] = np.linalg.eigvals(comp)
+    for i in np.flatnonzero(~ok):  # order drops: fewer roots, numpy.roots strips leading zeros
+        row = np.trim_zeros(coeff[i], "f")
+        if row.size > 1:
+            r = np.roots(row)
+            out[i, : r.size] = r
+    return _match_paths(out)
+
+
+def _eval_poly_float(c: fmpq_poly, vals: np.ndarray) -> np.ndarray:
+    acc = np.zeros_like(vals)
+    for i in range(c.degree(), -1, -1):
+        acc = acc * vals + float(c[i])
+    return acc
+
+
+def _match_paths(roots: np.ndarray) -> np.ndarray:
+    """Reorder each row's roots to follow the previous row's (greedy nearest neighbour)."""
+    out = roots.copy()
+    for i in range(1, out.shape[0]):
+        prev, cur = out[i - 1], out[i].copy()
+        if np.any(np.isnan(prev)) or np.any(np.isnan(cur)):
+            continue
+        dist = np.abs(prev[:, None] - cur[None, :])
+        order = np.full(cur.size, -1)
+        taken = np.zeros(cur.size, dtype=bool)
+        for flat in np.argsort(dist, axis=None):
+            a, b = divmod(int(flat), cur.size)
+            if order[a] < 0 and not taken[b]:
+                order[a], taken[b] = b, True
+        out[i] = cur[order]
+    return out
+
+
+def path_sensitivity(float_roots: np.ndarray, exact_rhp: int, exact_jw: int) -> str | None:
+    """A warning when float roots at one value disagree with the exact Routh counts."""
+    r = float_roots[~np.isnan(float_roots)]
+    float_rhp = int(np.sum(r.real > 0))
+    if exact_jw == 0 and float_rhp != exact_rhp:
+        return (f"numerically sensitive: floating-point roots show {float_rhp} in the right half plane, "
+                f"the exact count is {exact_rhp}; trust the exact count")
+    return None
+
