@@ -10,8 +10,8 @@ from pathlib import Path
 
 os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
-import pytest  # noqa: E402
-from PySide6.QtCore import QCoreApplication, QSettings  # noqa: E402
+import pytest
+from PySide6.QtCore import QCoreApplication, QSettings
 
 REPO = Path(__file__).resolve().parents[2]
 EXAMPLES = REPO / "resources" / "examples"

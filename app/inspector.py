@@ -1,0 +1,394 @@
+"""The inspector: the selected node's name, role, polynomials, signs and analysis role.
+
+Numerator and denominator are parsed as you type (core.expression.block_transfer); an error is
+shown under its field with the column and message, and nothing invalid reaches the model: a
+field is committed on Enter or focus-out only when both fields parse, through one undoable
+command. A block edit that names a new parameter adds it (nominal 1, min 0, max 10) in the same
+undo step, and makes it the tuning parameter when the project has none yet.
+"""
+from __future__ import annotations
+
+import re
+
+import sympy
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtGui import QUndoStack
+from PySide6.QtWidgets import (
+    QCheckBox,
+    QComboBox,
+    QFormLayout,
+    QHBoxLayout,
+    QLabel,
+    QLineEdit,
+    QPushButton,
+    QSizePolicy,
+    QToolButton,
+    QVBoxLayout,
+    QWidget,
+)
+
+from app.commands import (
+    EditNodeCommand,
+    Macro,
+    SetAnalysisCommand,
+    SetParameterCommand,
+    SetSweepCommand,
+    push,
+)
+from app.theme import figure_font
+from core.errors import LoopwrightError
+from core.expression import block_transfer, expression_parameters
+from core.model import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram, Parameter
+
+KIND_TITLES = {"input": "Input", "output": "Output", "sum": "Summing junction", "branch": "Branch point",
+               "block": "Block"}
+NEW_PARAMETER = {"nominal": 1.0, "minimum": 0.0, "maximum": 10.0}
+ERROR_STYLE = "color: #c62828; font-size: 8.5pt;"
+
+
+def error_line(err: LoopwrightError) -> str:
+    """``column 7: expected ')' ...`` when the error names a column, else the message; with the code."""
+    match = re.search(r"column (\d+)", err.where or "")
+    place = f"column {match.group(1)}: " if match else ""
+    return f"{err.code} · {place}{err.message}"
+
+
+def check_transfer(num: str, den: str) -> dict[str, LoopwrightError]:
+    """Errors of a block's two fields, keyed ``num``/``den`` (empty when both parse together)."""
+    errors: dict[str, LoopwrightError] = {}
+    for key, pair in (("num", (num, "1")), ("den", ("1", den))):
+        try:
+            block_transfer(*pair)
+        except LoopwrightError as err:
+            errors[key] = err
+    if not errors:
+        try:
+            block_transfer(num, den)
+        except LoopwrightError as err:
+            errors["den" if "denominator" in (err.where or "") else "num"] = err
+    return errors
+
+
+def factored_text(num: str, den: str) -> str:
+    """The block's N/D with each side factored by sympy (display only).
+
+    >>> factored_text("K", "s^3 + 3s^2 + 2s")
+    'K / (s·(s + 1)·(s + 2))'
+    """
+    n, d = (sympy.factor(e) for e in block_transfer(num, den))
+    if d == 1:
+        return _show(n)
+    top = f"({_show(n)})" if n.is_Add else _show(n)
+    bottom = f"({_show(d)})" if (d.is_Add or d.is_Mul) else _show(d)
+    return f"{top} / {bottom}"
+
+
+def _show(expr: sympy.Expr) -> str:
+    return sympy.sstr(expr).replace("**", "^").replace("*", "·")
+
+
+class _FieldWithError(QWidget):
+    """A line edit with a small red line under it for the current parse error."""
+
+    def __init__(self, placeholder: str, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.edit = QLineEdit()
+        self.edit.setPlaceholderText(placeholder)
+        self.edit.setFont(figure_font(10))
+        self.error = QLabel()
+        self.error.setStyleSheet(ERROR_STYLE)
+        self.error.setWordWrap(True)
+        self.error.hide()
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(0, 0, 0, 0)
+        layout.setSpacing(1)
+        layout.addWidget(self.edit)
+        layout.addWidget(self.error)
+
+    def set_error(self, err: LoopwrightError | None) -> None:
+        self.error.setText(error_line(err) if err else "")
+        self.error.setVisible(err is not None)
+        self.edit.setStyleSheet("QLineEdit { border: 1px solid #c62828; }" if err else "")
+
+    def set_text(self, text: str) -> None:
+        if self.edit.text() != text:
+            self.edit.setText(text)
+            self.edit.setCursorPosition(0)
+
+
+class Inspector(QWidget):
+    """Shows and edits one node; bind it to a document with :meth:`set_document`."""
+
+    message = Signal(str)  # status-bar text (refused edits)
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.diagram: Diagram | None = None
+        self.undo_stack: QUndoStack | None = None
+        self._signals = None
+        self.node_id: str | None = None
+
+        self.header = QLabel()
+        self.header.setStyleSheet("font-weight: 600; font-size: 10.5pt;")
+        self.empty = QLabel("Select a node on the canvas to see and edit it here.")
+        self.empty.setWordWrap(True)
+        self.empty.setStyleSheet("color: palette(placeholder-text);")
+
+        self.name = QLineEdit()
+        self.name.setPlaceholderText("shown on the canvas")
+        self.role = QComboBox()
+        for role in ROLES:
+            self.role.addItem(role.capitalize(), role)
+        self.num = _FieldWithError("e.g. K (s + 2)")
+        self.den = _FieldWithError("e.g. s (s + 1)")
+        self.factored = QLabel()
+        self.factored.setFont(figure_font(9.5))
+        self.factored.setWordWrap(True)
+        self.factored.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.flip = QCheckBox("Drawn right to left")
+        self.signs_row = QWidget()
+        row = QHBoxLayout(self.signs_row)
+        row.setContentsMargins(0, 0, 0, 0)
+        self._signs_layout = QHBoxLayout()
+        self.add_port = QToolButton(text="+ input")
+        self.add_port.setToolTip("Add an input to the junction")
+        self.remove_port = QToolButton(text="− input")
+        self.remove_port.setToolTip("Remove the last input (it must have no wire)")
+        row.addLayout(self._signs_layout)
+        row.addSpacing(8)
+        row.addWidget(self.add_port)
+        row.addWidget(self.remove_port)
+        row.addStretch(1)
+        self.io_button = QPushButton()
+        self.refusal = QLabel()
+        self.refusal.setStyleSheet(ERROR_STYLE)
+        self.refusal.setWordWrap(True)
+        self.refusal.hide()
+
+        self.form = QFormLayout()
+        self.form.setFieldGrowthPolicy(QFormLayout.FieldGrowthPolicy.AllNonFixedFieldsGrow)
+        self.form.addRow("Name", self.name)
+        self.form.addRow("Role", self.role)
+        self.form.addRow("Numerator", self.num)
+        self.form.addRow("Denominator", self.den)
+        self.form.addRow("Factored", self.factored)
+        self.form.addRow("", self.flip)
+        self.form.addRow("Input signs", self.signs_row)
+        self.form.addRow("", self.io_button)
+        layout = QVBoxLayout(self)
+        layout.addWidget(self.header)
+        layout.addWidget(self.empty)
+        layout.addLayout(self.form)
+        layout.addWidget(self.refusal)
+        layout.addStretch(1)
+        self.setSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Preferred)
+
+        self.name.editingFinished.connect(self._commit_name)
+        self.role.activated.connect(self._commit_role)
+        for field in (self.num, self.den):
+            field.edit.textEdited.connect(self._check_typed)
+            field.edit.editingFinished.connect(self.commit_transfer)
+        self.flip.toggled.connect(self._commit_flip)
+        self.add_port.clicked.connect(lambda: self._change_ports(+1))
+        self.remove_port.clicked.connect(lambda: self._change_ports(-1))
+        self.io_button.clicked.connect(self._use_for_analysis)
+        self.show_node(None)
+
+    # -- binding ----------------------------------------------------------------------------------
+    def set_document(self, diagram: Diagram, signals, undo_stack: QUndoStack) -> None:
+        """Follow another diagram (after New or Open)."""
+        if self._signals is not None:
+            for signal, slot in self._connections():
+                signal.disconnect(slot)
+        self.diagram, self._signals, self.undo_stack = diagram, signals, undo_stack
+        for signal, slot in self._connections():
+            signal.connect(slot)
+        self.show_node(None)
+
+    def _connections(self):
+        s = self._signals
+        return [(s.nodeChanged, self._on_node_event), (s.nodeRemoved, self._on_node_event),
+                (s.wireAdded, self._on_wire_event), (s.wireRemoved, self._on_wire_event),
+                (s.settingsChanged, self._on_settings)]
+
+    def _on_node_event(self, node_id: str) -> None:
+        if node_id == self.node_id:
+            self.show_node(node_id if node_id in self.diagram.nodes else None)
+
+    def _on_wire_event(self, key: str) -> None:
+        if self.node_id and f"->{self.node_id}:" in key:
+            self._refresh_ports()
+
+    def _on_settings(self, what: str) -> None:
+        if what == "analysis" and self.node_id:
+            self._refresh_io()
+
+    # -- showing ----------------------------------------------------------------------------------
+    def show_nodes(self, node_ids: list[str]) -> None:
+        """Follow the canvas selection: one node is shown, otherwise a short note."""
+        self.show_node(node_ids[0] if len(node_ids) == 1 else None)
+        if len(node_ids) > 1:
+            self.empty.setText(f"{len(node_ids)} nodes selected. Select one to edit it.")
+
+    def show_node(self, node_id: str | None) -> None:
+        """Show one node (None for none); pending valid edits of the previous one are committed first."""
+        if node_id != self.node_id and self.node_id is not None and self.diagram is not None \
+                and self.node_id in self.diagram.nodes:
+            self._commit_pending()
+        node = self.diagram.nodes.get(node_id) if (self.diagram is not None and node_id) else None
+        self.node_id = node.id if node else None
+        self.refusal.hide()
+        self.empty.setText("Select a node on the canvas to see and edit it here.")
+        self.empty.setVisible(node is None)
+        self.header.setVisible(node is not None)
+        kind = node.kind if node else None
+        for widget, kinds in ((self.name, KIND_TITLES), (self.role, ("block",)), (self.num, ("block",)),
+                              (self.den, ("block",)), (self.factored, ("block",)), (self.flip, ("block",)),
+                              (self.signs_row, ("sum",)), (self.io_button, ("input", "output"))):
+            self.form.setRowVisible(widget, kind in kinds)
+        if node is None:
+            return
+        self.header.setText(f"{KIND_TITLES[node.kind]} · {node.id}")
+        if self.name.text() != node.label:
+            self.name.setText(node.label)
+        if node.kind == "block":
+            self.role.setCurrentIndex(max(0, self.role.findData(node.role)))
+            self.num.set_text(node.num)
+            self.den.set_text(node.den)
+            self.num.set_error(None)
+            self.den.set_error(None)
+            self._show_factored(node.num, node.den)
+            self.flip.blockSignals(True)
+            self.flip.setChecked(node.flipped)
+            self.flip.blockSignals(False)
+        elif node.kind == "sum":
+            self._refresh_ports()
+        else:
+            self._refresh_io()
+
+    def _show_factored(self, num: str, den: str) -> None:
+        try:
+            self.factored.setText(factored_text(num, den))
+        except LoopwrightError:
+            self.factored.setText("—")
+
+    def _refresh_io(self) -> None:
+        node = self.diagram.nodes.get(self.node_id) if self.node_id else None
+        if node is None or node.kind not in ("input", "output"):
+            return
+        key = node.kind
+        current = getattr(self.diagram.analysis, key)
+        self.io_button.setEnabled(current != node.id)
+        self.io_button.setText(f"This is the analysis {key}" if current == node.id
+                               else f"Use as analysis {key}")
+
+    def _refresh_ports(self) -> None:
+        node = self.diagram.nodes.get(self.node_id) if self.node_id else None
+        if node is None or node.kind != "sum":
+            return
+        while self._signs_layout.count():
+            item = self._signs_layout.takeAt(0)
+            if item.widget() is not None:
+                item.widget().deleteLater()
+        for port, sign in enumerate(node.signs):
+            button = QToolButton(text=sign.replace("-", "−"))
+            button.setObjectName(f"sign{port}")
+            button.setToolTip(f"Input {port + 1}: click to change its sign")
+            button.setFont(figure_font(11))
+            button.setFixedWidth(30)
+            button.clicked.connect(lambda _=False, p=port: self._toggle_sign(p))
+            self._signs_layout.addWidget(button)
+        self.add_port.setEnabled(len(node.signs) < MAX_SUM_PORTS)
+        self.remove_port.setEnabled(len(node.signs) > MIN_SUM_PORTS)
+
+    # -- typing -----------------------------------------------------------------------------------
+    def _check_typed(self) -> dict[str, LoopwrightError]:
+        errors = check_transfer(self.num.edit.text(), self.den.edit.text())
+        self.num.set_error(errors.get("num"))
+        self.den.set_error(errors.get("den"))
+        if not errors:
+            self._show_factored(self.num.edit.text(), self.den.edit.text())
+        return errors
+
+    def _commit_pending(self) -> None:
+        node = self.diagram.nodes[self.node_id]
+        if node.kind == "block":
+            self.commit_transfer()
+        if self.name.text() != node.label:
+            self._commit_name()
+
+    # -- commits ----------------------------------------------------------------------------------
+    def _node(self):
+        if self.diagram is None or self.node_id not in (self.diagram.nodes if self.diagram else {}):
+            return None
+        return self.diagram.nodes[self.node_id]
+
+    def _push(self, command) -> bool:
+        try:
+            push(self.undo_stack, command)
+        except LoopwrightError as err:
+            self.refusal.setText(str(err))
+            self.refusal.show()
+            self.message.emit(str(err))
+            self.show_node(self.node_id)
+            self.refusal.show()
+            return False
+        self.refusal.hide()
+        return True
+
+    def commit_transfer(self) -> bool:
+        """Put the typed numerator and denominator into the model if they parse; True if committed."""
+        node = self._node()
+        if node is None or node.kind != "block":
+            return False
+        num, den = self.num.edit.text().strip(), self.den.edit.text().strip()
+        if (num, den) == (node.num, node.den):
+            self.num.set_error(None)
+            self.den.set_error(None)
+            return False
+        if self._check_typed():
+            return False
+        d = self.diagram
+        new = sorted((expression_parameters(num) | expression_parameters(den)) - set(d.parameters))
+        commands = [EditNodeCommand(d, node.id, num=num, den=den)]
+        commands += [SetParameterCommand(d, Parameter(name, **NEW_PARAMETER)) for name in new]
+        if new and d.sweep is None:
+            commands.append(SetSweepCommand(d, new[0]))
+        command = commands[0] if len(commands) == 1 else Macro(f"edit {node.title}", commands)
+        return self._push(command)
+
+    def _commit_name(self) -> None:
+        node = self._node()
+        if node is not None and self.name.text() != node.label:
+            self._push(EditNodeCommand(self.diagram, node.id, label=self.name.text()))
+
+    def _commit_role(self) -> None:
+        node = self._node()
+        role = self.role.currentData()
+        if node is not None and node.kind == "block" and role != node.role:
+            self._push(EditNodeCommand(self.diagram, node.id, role=role))
+
+    def _commit_flip(self, checked: bool) -> None:
+        node = self._node()
+        if node is not None and node.kind == "block" and checked != node.flipped:
+            self._push(EditNodeCommand(self.diagram, node.id, flipped=checked))
+
+    def _toggle_sign(self, port: int) -> None:
+        node = self._node()
+        if node is None or node.kind != "sum":
+            return
+        signs = list(node.signs)
+        signs[port] = "-" if signs[port] == "+" else "+"
+        self._push(EditNodeCommand(self.diagram, node.id, signs="".join(signs)))
+
+    def _change_ports(self, delta: int) -> None:
+        node = self._node()
+        if node is None or node.kind != "sum":
+            return
+        signs = node.signs + "+" if delta > 0 else node.signs[:-1]
+        self._push(EditNodeCommand(self.diagram, node.id, signs=signs))
+
+    def _use_for_analysis(self) -> None:
+        node = self._node()
+        if node is not None and node.kind in ("input", "output"):
+            self._push(SetAnalysisCommand(self.diagram, **{node.kind: node.id}))
