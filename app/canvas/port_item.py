@@ -1,0 +1,72 @@
+"""A node's input or output port: where wires attach. A view only; it never edits the model."""
+from __future__ import annotations
+
+from PySide6.QtCore import QPointF, QRectF, Qt
+from PySide6.QtGui import QBrush, QPainter, QPen
+from PySide6.QtWidgets import QGraphicsItem
+
+PORT_RADIUS = 4.0
+HIT_RADIUS = 7.0
+
+
+class PortItem(QGraphicsItem):
+    """Port ``index`` (inputs) or the output (``is_output``) of node ``node_id``.
+
+    ``direction`` is the way a wire travels through the port (out of an output, into an input),
+    or None for a branch point's ports, which wires may leave in any direction.
+    """
+
+    def __init__(self, parent: QGraphicsItem, node_id: str, is_output: bool, index: int,
+                 direction: tuple[int, int] | None):
+        super().__init__(parent)
+        self.node_id, self.is_output, self.index, self.direction = node_id, is_output, index, direction
+        self.highlight: str | None = None  # None, "candidate" (a valid target) or "hover"
+        self.theme = None
+        self.setZValue(5)
+        self.setAcceptHoverEvents(True)
+        self._hovered = False
+
+    def boundingRect(self) -> QRectF:
+        r = HIT_RADIUS + 2
+        return QRectF(-r, -r, 2 * r, 2 * r)
+
+    def shape(self):
+        from PySide6.QtGui import QPainterPath
+        path = QPainterPath()
+        path.addEllipse(QPointF(0, 0), HIT_RADIUS, HIT_RADIUS)
+        return path
+
+    def set_highlight(self, state: str | None) -> None:
+        if state != self.highlight:
+            self.highlight = state
+            self.update()
+
+    def hoverEnterEvent(self, event) -> None:
+        self._hovered = True
+        self.update()
+
+    def hoverLeaveEvent(self, event) -> None:
+        self._hovered = False
+        self.update()
+
+    def paint(self, painter: QPainter, option, widget=None) -> None:
+        theme = self.theme
+        if theme is None:
+            return
+        painter.setRenderHint(QPainter.RenderHint.Antialiasing)
+        if self.highlight == "hover":
+            painter.setPen(QPen(theme.port_hover, 2))
+            painter.setBrush(QBrush(theme.port_ok.lighter(160)))
+            painter.drawEllipse(QPointF(0, 0), PORT_RADIUS + 2.5, PORT_RADIUS + 2.5)
+        elif self.highlight == "candidate":
+            painter.setPen(QPen(theme.port_ok, 1.4))
+            painter.setBrush(Qt.BrushStyle.NoBrush)
+            painter.drawEllipse(QPointF(0, 0), PORT_RADIUS + 1, PORT_RADIUS + 1)
+        elif self._hovered and self.is_output:
+            painter.setPen(QPen(theme.rubber_wire, 1.4))
+            painter.setBrush(QBrush(theme.block_fill))
+            painter.drawEllipse(QPointF(0, 0), PORT_RADIUS, PORT_RADIUS)
+
+    def key(self) -> tuple[str, bool, int]:
+        """(node id, is output, index): identifies the port across rebuilds."""
+        return self.node_id, self.is_output, self.index

@@ -1,0 +1,102 @@
+"""Colours and fonts of the canvas, aware of the system's light or dark palette.
+
+Role colours are the visual identity of DESIGN.md section 4 (controller teal, actuator violet,
+plant slate blue, sensor amber, gain and other grey). :func:`current_theme` picks the light or
+dark variant from the application's colour scheme or, failing that, its palette.
+
+>>> light = Theme.light()
+>>> light.role_band("plant").name()
+'#4a6fa5'
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QColor, QFont, QGuiApplication, QPalette
+
+ROLE_COLOURS = {
+    "controller": "#1f9e94",
+    "actuator": "#7b5cc4",
+    "plant": "#4a6fa5",
+    "sensor": "#d99a1e",
+    "gain": "#8a9099",
+    "other": "#8a9099",
+}
+
+
+@dataclass(frozen=True)
+class Theme:
+    """Every colour the canvas draws with; one instance for light, one for dark."""
+
+    is_dark: bool
+    canvas: QColor
+    grid_dot: QColor
+    block_fill: QColor
+    outline: QColor
+    text: QColor
+    muted_text: QColor
+    wire: QColor
+    glow: QColor
+    port_ok: QColor
+    port_hover: QColor
+    rubber_wire: QColor
+
+    @staticmethod
+    def light() -> "Theme":
+        return Theme(False, QColor("#f7f8fa"), QColor("#c9ced6"), QColor("#ffffff"), QColor("#2b3038"),
+                     QColor("#1b1f24"), QColor("#5d6470"), QColor("#4a4f57"), QColor(40, 120, 230, 200),
+                     QColor("#2e9e5b"), QColor("#1d7f45"), QColor("#2878e6"))
+
+    @staticmethod
+    def dark() -> "Theme":
+        return Theme(True, QColor("#1e2126"), QColor("#3a3f47"), QColor("#2a2e35"), QColor("#c8ccd2"),
+                     QColor("#e8eaed"), QColor("#9aa1ab"), QColor("#b4b9c0"), QColor(90, 160, 255, 220),
+                     QColor("#4cc47e"), QColor("#7be0a4"), QColor("#5aa0ff"))
+
+    def role_band(self, role: str) -> QColor:
+        """The colour of the band along the top of a block with this role."""
+        return QColor(ROLE_COLOURS.get(role, ROLE_COLOURS["other"]))
+
+
+def system_is_dark() -> bool:
+    """Whether the running application uses a dark colour scheme (palette as fallback)."""
+    app = QGuiApplication.instance()
+    if app is None:
+        return False
+    scheme = app.styleHints().colorScheme()
+    if scheme == Qt.ColorScheme.Dark:
+        return True
+    if scheme == Qt.ColorScheme.Light:
+        return False
+    return app.palette().color(QPalette.ColorRole.Window).lightness() < 128
+
+
+def current_theme() -> Theme:
+    """The theme matching the application's current light or dark scheme."""
+    return Theme.dark() if system_is_dark() else Theme.light()
+
+
+def figure_font(point_size: float = 10.0) -> QFont:
+    """Monospaced font with even-width figures, for numbers in panels."""
+    font = QFont("DejaVu Sans Mono")
+    font.setStyleHint(QFont.StyleHint.Monospace)
+    font.setPointSizeF(point_size)
+    return font
+
+
+def label_font(point_size: float = 9.0, bold: bool = False) -> QFont:
+    """Plain sans font for titles and labels on the canvas."""
+    font = QFont("DejaVu Sans")
+    font.setStyleHint(QFont.StyleHint.SansSerif)
+    font.setPointSizeF(point_size)
+    font.setBold(bold)
+    return font
+
+
+def math_font(point_size: float = 10.5) -> QFont:
+    """Serif font for transfer functions drawn as fractions."""
+    font = QFont("DejaVu Serif")
+    font.setStyleHint(QFont.StyleHint.Serif)
+    font.setPointSizeF(point_size)
+    return font
