@@ -1,0 +1,333 @@
+"""The one analysis controller: debounced, off the GUI thread, newest result wins.
+
+Every model change restarts a short single-shot timer; when it fires, the diagram is copied (as
+its project dictionary, on the GUI thread) and analysed on a worker thread with
+:func:`core.analysis.check_project`. Each request carries a generation number; a result whose
+generation is no longer the newest is dropped. Errors never escape: a
+:class:`~core.errors.LoopwrightError` arrives as ``AnalysisResult.error``, anything else as
+``AnalysisResult.internal_error``.
+
+The *current value* of the tuning parameter is what the pole-map slider shows. Dragging calls
+:meth:`AnalysisController.set_current_value` (cheap: panels evaluate the last result at it);
+releasing calls :meth:`AnalysisController.commit_current_value`, which makes it the parameter's
+nominal value through one undoable command.
+"""
+from __future__ import annotations
+
+import math
+import threading
+import time
+import traceback
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject, QTimer, Signal
+
+from app.commands import SetParameterCommand
+from core.analysis import Report, check_project
+from core.errors import LoopwrightError
+from core.expression import expression_parameters, parse_polynomial, to_mpoly
+from core.model import Diagram
+from core.poles import pole_paths
+from core.polynomial import ParametricPolynomial, mpoly_context
+from core.project_file import project_from_dict, project_to_dict
+
+DEBOUNCE_MS = 120
+PATH_SAMPLES = 400
+
+
+@dataclass(frozen=True)
+class TuningRange:
+    """The tuning parameter as the diagram had it when analysed."""
+
+    name: str
+    nominal: float
+    minimum: float
+    maximum: float
+
+
+@dataclass
+class AnalysisResult:
+    """One finished analysis: a Report, or the error that stopped it, plus precomputed pole paths.
+
+    ``path_values`` (m,) and ``paths`` (m, degree) hold the poles over the tuning parameter's
+    min..max; ``coefficient_table`` turns a parameter value into float coefficients fast.
+    """
+
+    generation: int
+    report: Report | None = None
+    error: LoopwrightError | None = None
+    internal_error: str | None = None
+    elapsed_ms: float = 0.0
+    tuning: TuningRange | None = None
+    path_values: np.ndarray = field(default_factory=lambda: np.empty(0))
+    paths: np.ndarray = field(default_factory=lambda: np.empty((0, 0), dtype=complex))
+    coefficient_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
+    zero_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
+
+    @property
+    def ok(self) -> bool:
+        """Whether a Report is available."""
+        return self.report is not None
+
+    @property
+    def message(self) -> str | None:
+        """What to show instead of a Report: the error in plain words, or None."""
+        if self.error is not None:
+            return str(self.error)
+        if self.internal_error is not None:
+            return f"internal error: {self.internal_error}"
+        return None
+
+    def coefficients_at(self, value: float | None) -> np.ndarray:
+        """Float coefficients of the analysed polynomial (highest power first) at a parameter value."""
+        return _evaluate_table(self.coefficient_table, value)
+
+    def poles_at(self, value: float | None) -> np.ndarray:
+        """The loop's poles at a parameter value (numpy.roots; floats, for drawing)."""
+        return _roots(self.coefficients_at(value))
+
+    def zeros_at(self, value: float | None) -> np.ndarray:
+        """Zeros of the closed-loop transfer function at a parameter value (numpy.roots)."""
+        return _roots(_evaluate_table(self.zero_table, value))
+
+
+def _evaluate_table(table: np.ndarray, value: float | None) -> np.ndarray:
+    if table.size == 0:
+        return np.empty(0)
+    v = 0.0 if value is None else float(value)
+    powers = v ** np.arange(table.shape[1] - 1, -1, -1, dtype=float)
+    return np.trim_zeros(table @ powers, "f")
+
+
+def _roots(coeffs: np.ndarray) -> np.ndarray:
+    if coeffs.size < 2 or not np.all(np.isfinite(coeffs)):
+        return np.empty(0, dtype=complex)
+    return np.roots(coeffs).astype(complex)
+
+
+def coefficient_table(poly: ParametricPolynomial) -> np.ndarray:
+    """Matrix C with C @ [v^d, ..., v, 1] = the polynomial's coefficients (highest power first) at v.
+
+    >>> from flint import fmpq_poly
+    >>> coefficient_table(ParametricPolynomial.from_coefficients([1, fmpq_poly([2, 3])], "K")).tolist()
+    [[0.0, 1.0], [3.0, 2.0]]
+    """
+    coeffs = poly.coeffs
+    width = max(max((c.degree() for c in coeffs), default=0) + 1, 1)
+    table = np.zeros((len(coeffs), width))
+    for row, c in enumerate(coeffs):
+        for i in range(c.degree() + 1):
+            table[row, width - 1 - i] = float(c[i])
+    return table
+
+
+def zero_table(report: Report) -> np.ndarray:
+    """Coefficient table of the closed-loop numerator (other parameters at nominal); empty if none."""
+    tf = report.transfer_function
+    if not tf:
+        return np.empty((0, 0))
+    text = tf["num"]
+    mp = to_mpoly(parse_polynomial(text, where="transfer function numerator"),
+                  mpoly_context(expression_parameters(text)))
+    try:
+        num = ParametricPolynomial.from_mpoly(mp, report.parameter, report.values)
+    except KeyError:  # a parameter without a value: no zeros to draw
+        return np.empty((0, 0))
+    return coefficient_table(num) if num.degree >= 1 else np.empty((0, 0))
+
+
+def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
+    """Analyse one project dictionary; never raises (errors become fields of the result)."""
+    start = time.perf_counter()
+    result = AnalysisResult(generation)
+    try:
+        diagram = project_from_dict(project, source="<analysis copy>")
+        report = check_project(diagram)
+        result.report = report
+        result.coefficient_table = coefficient_table(report.analysed)
+        result.zero_table = zero_table(report)
+        tuning = _tuning_range(diagram, report)
+        result.tuning = tuning
+        if tuning is not None and report.analysed.degree >= 1:
+            result.path_values = np.linspace(tuning.minimum, tuning.maximum, PATH_SAMPLES)
+            result.paths = pole_paths(report.analysed, result.path_values)
+    except LoopwrightError as exc:
+        result.report, result.error = None, exc
+    except Exception as exc:  # noqa: BLE001 - the GUI must never crash on an analysis bug
+        result.report = None
+        result.internal_error = f"{type(exc).__name__}: {exc}"
+        traceback.print_exc()
+    result.elapsed_ms = (time.perf_counter() - start) * 1000.0
+    return result
+
+
+def _tuning_range(diagram: Diagram, report: Report) -> TuningRange | None:
+    name = report.parameter
+    if name is None or name not in diagram.parameters:
+        return None
+    p = diagram.parameters[name]
+    return TuningRange(name, p.nominal, p.minimum, p.maximum)
+
+
+def set_nominal(diagram: Diagram, undo_stack, name: str, value: float) -> None:
+    """Make ``value`` the nominal of parameter ``name``: one undoable command when a stack is given."""
+    new = replace(diagram.parameters[name], nominal=float(value))
+    if undo_stack is None:
+        diagram.set_parameter(new)
+    else:
+        undo_stack.push(SetParameterCommand(diagram, new))
+
+
+def _work(relay: "_Relay", project: dict, generation: int) -> None:
+    result = analyse_snapshot(project, generation)
+    try:
+        relay.finished.emit(result)
+    except RuntimeError:  # the controller was deleted while this analysis ran
+        pass
+
+
+class _Relay(QObject):
+    """Lives on the GUI thread; the worker emits through it so delivery is queued to the GUI."""
+
+    finished = Signal(object)
+
+
+class AnalysisController(QObject):
+    """Runs the analysis of one diagram whenever it changes; see the module docstring.
+
+    ``signals`` is the diagram's ModelSignals (anything with a ``changed`` signal);
+    ``undo_stack`` (a QUndoStack) receives the command made by :meth:`commit_current_value`.
+    """
+
+    resultReady = Signal(object)
+    busyChanged = Signal(bool)
+    currentValueChanged = Signal(float)
+
+    def __init__(self, diagram: Diagram, signals, undo_stack=None, parent: QObject | None = None,
+                 debounce_ms: int = DEBOUNCE_MS):
+        super().__init__(parent)
+        self._diagram = diagram
+        self._undo_stack = undo_stack
+        self._generation = 0
+        self._running = False
+        self._busy = False
+        self._result: AnalysisResult | None = None
+        self._current: float | None = None
+        self._dragging = False
+        self._relay = _Relay(self)
+        self._relay.finished.connect(self._on_finished)
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(debounce_ms)
+        self._timer.timeout.connect(self._start)
+        signals.changed.connect(self.schedule)
+        self.schedule()
+
+    # -- state ----------------------------------------------------------------------------------
+    @property
+    def result(self) -> AnalysisResult | None:
+        """The newest delivered result."""
+        return self._result
+
+    @property
+    def generation(self) -> int:
+        """The generation of the newest request (bumped on every change)."""
+        return self._generation
+
+    @property
+    def busy(self) -> bool:
+        """Whether an analysis is waiting on the timer or running."""
+        return self._busy
+
+    @property
+    def current_value(self) -> float | None:
+        """The tuning parameter's current (slider) value; None without a tuning parameter."""
+        return self._current
+
+    # -- requests -------------------------------------------------------------------------------
+    def schedule(self) -> None:
+        """Note a model change: a new generation, analysed after the debounce interval."""
+        self._generation += 1
+        self._timer.start()
+        self._set_busy(True)
+
+    def analyse_now(self) -> None:
+        """Skip the debounce wait (the result still arrives through ``resultReady``)."""
+        self._generation += 1
+        self._timer.stop()
+        self._set_busy(True)
+        self._start()
+
+    def _start(self) -> None:
+        if self._running:
+            return  # _on_finished starts again when the newest generation was not analysed
+        self._running = True
+        generation = self._generation
+        try:
+            project = project_to_dict(self._diagram)
+        except Exception as exc:  # noqa: BLE001
+            self._running = False
+            self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
+            return
+        threading.Thread(target=_work, args=(self._relay, project, generation),
+                         name="loopwright-analysis", daemon=True).start()
+
+    def _on_finished(self, result: AnalysisResult) -> None:
+        self._running = False
+        if result.generation != self._generation:
+            if not self._timer.isActive():
+                self._start()  # stale: the newest change has not been analysed yet
+            return
+        self._result = result
+        self._adopt_tuning(result)
+        self.resultReady.emit(result)
+        if not self._timer.isActive():
+            self._set_busy(False)
+
+    def _adopt_tuning(self, result: AnalysisResult) -> None:
+        tuning = result.tuning
+        if tuning is None:
+            self._current = None
+            return
+        if self._dragging and self._current is not None:
+            return
+        self._current = tuning.nominal
+        self.currentValueChanged.emit(tuning.nominal)
+
+    def _set_busy(self, busy: bool) -> None:
+        if busy != self._busy:
+            self._busy = busy
+            self.busyChanged.emit(busy)
+
+    # -- current value --------------------------------------------------------------------------
+    def set_current_value(self, value: float) -> None:
+        """Move the current value live (slider drag); panels follow through ``currentValueChanged``."""
+        if self._result is None or self._result.tuning is None or not math.isfinite(value):
+            return
+        self._dragging = True
+        if value != self._current:
+            self._current = float(value)
+            self.currentValueChanged.emit(self._current)
+
+    def commit_current_value(self) -> None:
+        """Make the current value the tuning parameter's nominal (one undoable command)."""
+        self._dragging = False
+        tuning = self._result.tuning if self._result is not None else None
+        if tuning is None or self._current is None:
+            return
+        param = self._diagram.parameters.get(tuning.name)
+        if param is None or param.nominal == self._current:
+            return
+        set_nominal(self._diagram, self._undo_stack, tuning.name, self._current)
+
+    # -- tests and screenshots ------------------------------------------------------------------
+    def wait_for_idle(self, timeout_ms: int = 5000) -> bool:
+        """Process events until no analysis is pending; True when idle before the timeout."""
+        clock = QElapsedTimer()
+        clock.start()
+        app = QCoreApplication.instance()
+        while self._busy and clock.elapsed() < timeout_ms:
+            app.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
+            time.sleep(0.002)
+        return not self._busy

@@ -1,0 +1,88 @@
+"""Small helpers shared by the analysis panels: math text as HTML, numbers, colours, messages.
+
+>>> math_html("3*s^2 + 1/2*K*s - 4")
+'3s<sup>2</sup> + 1/2·K·s − 4'
+>>> number(6.000000000001), number(-0.25), number(1e-9)
+('6', '−0.25', '1e-09')
+"""
+from __future__ import annotations
+
+import html
+import re
+
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QColor
+from PySide6.QtWidgets import QLabel, QWidget
+
+from app.theme import figure_font, math_font, system_is_dark
+
+MINUS = "\u2212"
+
+
+def math_html(text: str) -> str:
+    """Polynomial text from core as HTML: real superscripts, implied products, a true minus sign."""
+    out = html.escape(text)
+    out = re.sub(r"\^(\d+)", r"<sup>\1</sup>", out)
+    out = re.sub(r"(?<![\d/.])(\d+)\*(?=[A-Za-z(])", r"\1", out)  # 3*s -> 3s, not 1/2*K
+    out = out.replace("*", "·")
+    return re.sub(r"(^|[\s(])-", lambda m: m.group(1) + MINUS, out)
+
+
+def number(x: float | None, digits: int = 6) -> str:
+    """A float in ``digits`` significant figures with a true minus sign; '∞' for None."""
+    if x is None:
+        return "∞"
+    return f"{x:.{digits}g}".replace("-", MINUS)
+
+
+def complex_number(z: complex, digits: int = 5) -> str:
+    """``−1.5 ± j2`` style text of one pole (the sign of the imaginary part kept)."""
+    if z.imag == 0:
+        return number(z.real, digits)
+    sign = "+" if z.imag > 0 else MINUS
+    return f"{number(z.real, digits)} {sign} j{number(abs(z.imag), digits)}"
+
+
+def dark() -> bool:
+    """Whether the application uses a dark palette."""
+    return system_is_dark()
+
+
+def colour(name: str) -> QColor:
+    """Panel colours by meaning, matched to the light or dark palette."""
+    light = {"stable": "#2e9e5b", "decay": "#1f7fb8", "unstable": "#c0392b", "rhp": "#fbe3e0",
+             "forbidden": "#eef3f8", "tint": "#eef4fb", "special": "#fdf3dc", "marker": "#1b1f24",
+             "muted": "#5d6470", "path": "#9aa4b1", "pole": "#1b1f24", "zero": "#4a6fa5",
+             "warning": "#a35d00", "axis": "#6b7380"}
+    night = {"stable": "#4cc47e", "decay": "#5aa9e0", "unstable": "#ff7b6b", "rhp": "#4a2a2a",
+             "forbidden": "#26303b", "tint": "#243040", "special": "#3e3520", "marker": "#e8eaed",
+             "muted": "#9aa1ab", "path": "#6f7886", "pole": "#e8eaed", "zero": "#8fb4ea",
+             "warning": "#f0b060", "axis": "#9aa1ab"}
+    return QColor((night if dark() else light)[name])
+
+
+def number_css() -> str:
+    """CSS for rich text: class ``num`` in the figure font, class ``math`` in the math font."""
+    fig, mth = figure_font(), math_font()
+    return (f".num {{ font-family: '{fig.family()}', monospace; }} "
+            f".math {{ font-family: '{mth.family()}', serif; font-size: {mth.pointSizeF():g}pt; }} "
+            f".muted {{ color: {colour('muted').name()}; }} "
+            f".warn {{ color: {colour('warning').name()}; }} "
+            f".bad {{ color: {colour('unstable').name()}; font-weight: bold; }} "
+            f".good {{ color: {colour('stable').name()}; font-weight: bold; }}")
+
+
+class MessageLabel(QLabel):
+    """A plain, selectable line that shows an analysis error (hidden when there is none)."""
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.setWordWrap(True)
+        self.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.setStyleSheet(f"color: {colour('unstable').name()}; padding: 4px;")
+        self.hide()
+
+    def show_message(self, message: str | None) -> None:
+        """Show ``message``, or hide the label for None."""
+        self.setText(message or "")
+        self.setVisible(bool(message))

@@ -1,0 +1,270 @@
+"""Pole map: poles (x) and zeros (o) at the current value, their paths over the tuning range, the
+right half plane shaded pale red, the decay line dashed with its forbidden strip, hover details,
+and a slider with a spin box for the current value.
+
+Plot items are made once; a new result or value only calls ``setData``. A slider frame costs one
+``numpy.roots`` of the analysed polynomial's float coefficients (precomputed table) and a setData.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtGui import QPalette
+from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSlider, QVBoxLayout, QWidget
+
+from app.panels.common import MessageLabel, colour, complex_number, number
+from app.theme import figure_font
+
+SLIDER_STEPS = 1000
+
+
+def pole_tip(x: float, y: float, name: str | None, value: float | None) -> str:
+    """Hover text for the pole at x + jy: position, damping ratio, natural frequency.
+
+    >>> print(pole_tip(-3.0, 4.0, "K", 2.0))
+    s = −3 + j4  at K = 2
+    damping ratio 0.6
+    natural frequency 5 rad/s
+    """
+    wn = math.hypot(x, y)
+    zeta = "undefined (pole at the origin)" if wn == 0 else number(-x / wn, 4)
+    at = f"  at {name} = {number(value)}" if name and value is not None else ""
+    return (f"s = {complex_number(complex(x, y))}{at}\ndamping ratio {zeta}\n"
+            f"natural frequency {number(wn, 5)} rad/s")
+
+
+def path_curve(paths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """One (x, y) pair for all paths, NaN-separated, for a single curve with connect='finite'."""
+    if paths.size == 0:
+        return np.empty(0), np.empty(0)
+    cols = [np.append(paths[:, j], np.nan) for j in range(paths.shape[1])]
+    z = np.concatenate(cols)
+    return z.real.copy(), z.imag.copy()
+
+
+def _finite_box(points: np.ndarray) -> tuple[float, float, float, float] | None:
+    pts = points[np.isfinite(points)]
+    if pts.size == 0:
+        return None
+    return float(pts.real.min()), float(pts.real.max()), float(pts.imag.min()), float(pts.imag.max())
+
+
+def view_box(poles: np.ndarray, zeros: np.ndarray, paths: np.ndarray, sigma: float | None):
+    """x and y ranges showing the poles, zeros, imaginary axis and decay line, and the paths
+    as far as 3 times that extent (paths may run off to infinity where the order drops)."""
+    core_pts = np.concatenate([poles, zeros, np.array([0j, complex(-(sigma or 0.0), 0.0)])])
+    x0, x1, y0, y1 = _finite_box(core_pts)
+    size = max(x1 - x0, y1 - y0, 1.0)
+    cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+    limit = 1.5 * size
+    box = _finite_box(paths.ravel()) if paths.size else None
+    if box is not None:
+        x0 = min(x0, max(box[0], cx - limit))
+        x1 = max(x1, min(box[1], cx + limit))
+        y0 = min(y0, max(box[2], cy - limit))
+        y1 = max(y1, min(box[3], cy + limit))
+    y = max(abs(y0), abs(y1), 0.5)  # symmetric about the real axis
+    pad_x = 0.08 * max(x1 - x0, 1e-9) + 0.05
+    return (x0 - pad_x, x1 + pad_x), (-1.1 * y, 1.1 * y)
+
+
+class PoleMap(QWidget):
+    """The pole map with its current-value slider; emits what the user asks for on the slider."""
+
+    TITLE = "Pole map"
+    valueDragged = Signal(float)    # live, while dragging or stepping
+    valueCommitted = Signal(float)  # slider released, keyboard step, or spin box edited
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        self._result = None
+        self._value: float | None = None
+        self._range = (0.0, 1.0)
+        self._updating = False
+        self.message = MessageLabel(self)
+        self.caption = QLabel(self)
+        self.caption.setFont(figure_font(9))
+        self.plot = pg.PlotWidget(self)
+        self._make_items()
+        self.slider = QSlider(Qt.Orientation.Horizontal, self)
+        self.slider.setRange(0, SLIDER_STEPS)
+        self.spin = QDoubleSpinBox(self)
+        self.spin.setFont(figure_font(9))
+        self.spin.setKeyboardTracking(False)
+        self.name_label = QLabel(self)
+        self.slider.valueChanged.connect(self._slider_moved)
+        self.slider.sliderReleased.connect(self._commit)
+        self.spin.valueChanged.connect(self._spin_changed)
+        row = QHBoxLayout()
+        row.addWidget(self.name_label)
+        row.addWidget(self.slider, 1)
+        row.addWidget(self.spin)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        layout.addWidget(self.message)
+        layout.addWidget(self.caption)
+        layout.addWidget(self.plot, 1)
+        layout.addLayout(row)
+        self._set_controls_enabled(False)
+
+    # -- plot items (made once) -------------------------------------------------------------------
+    def _make_items(self) -> None:
+        plot = self.plot
+        item = plot.getPlotItem()
+        item.showGrid(x=True, y=True, alpha=0.15)
+        item.setLabel("bottom", "Re s", units="1/s")
+        item.setLabel("left", "Im s", units="rad/s")
+        item.setMenuEnabled(False)
+        base = self.palette().color(QPalette.ColorRole.Base)
+        text = self.palette().color(QPalette.ColorRole.Text)
+        plot.setBackground(base)
+        for axis in ("bottom", "left"):
+            plot.getAxis(axis).setPen(pg.mkPen(colour("axis")))
+            plot.getAxis(axis).setTextPen(pg.mkPen(text))
+        self.rhp = pg.LinearRegionItem((0, 1), movable=False, brush=pg.mkBrush(colour("rhp")),
+                                       pen=pg.mkPen(None))
+        self.forbidden = pg.LinearRegionItem((-1, 0), movable=False, brush=pg.mkBrush(colour("forbidden")),
+                                             pen=pg.mkPen(None))
+        self.decay_line = pg.InfiniteLine(0, angle=90, movable=False,
+                                          pen=pg.mkPen(colour("decay"), width=1.4, style=Qt.PenStyle.DashLine))
+        self.imag_axis = pg.InfiniteLine(0, angle=90, movable=False, pen=pg.mkPen(colour("axis"), width=1.2))
+        self.real_axis = pg.InfiniteLine(0, angle=0, movable=False, pen=pg.mkPen(colour("axis"), width=0.8))
+        for it in (self.rhp, self.forbidden, self.decay_line, self.imag_axis, self.real_axis):
+            it.setZValue(-10)
+            plot.addItem(it, ignoreBounds=True)
+        self.paths = pg.PlotDataItem([], [], connect="finite", pen=pg.mkPen(colour("path"), width=1))
+        self.zeros = pg.ScatterPlotItem(symbol="o", size=11, brush=pg.mkBrush(None),
+                                        pen=pg.mkPen(colour("zero"), width=1.8))
+        self.poles = pg.ScatterPlotItem(symbol="x", size=12, pen=pg.mkPen(colour("pole"), width=1.4),
+                                        brush=pg.mkBrush(colour("pole")), hoverable=True,
+                                        hoverSize=17, tip=self._tip)
+        for it in (self.paths, self.zeros, self.poles):
+            plot.addItem(it)
+        item.getViewBox().sigXRangeChanged.connect(self._cover_right_half_plane)
+
+    def _cover_right_half_plane(self, _box, x_range) -> None:
+        """Keep the pale red shading from the imaginary axis to the right edge of the view."""
+        self.rhp.setRegion((0, max(x_range[1], 0) + abs(x_range[1] - x_range[0])))
+
+    def _tip(self, x: float, y: float, data) -> str:
+        report = self._result.report if self._result is not None else None
+        return pole_tip(x, y, report.parameter if report else None, self._value)
+
+    # -- public -----------------------------------------------------------------------------------
+    def show_result(self, result) -> None:
+        """Show a new AnalysisResult: paths, decay line, slider range; poles at the current value."""
+        self._result = result
+        self.message.show_message(result.message)
+        report = result.report
+        tuning = result.tuning
+        if tuning is not None:
+            self._value = tuning.nominal
+        self._set_controls_enabled(tuning is not None and report is not None)
+        if report is None:
+            for it in (self.paths, self.poles, self.zeros):
+                it.setData([], [])
+            self.caption.setText("")
+            return
+        x, y = path_curve(result.paths)
+        self.paths.setData(x, y)
+        sigma = report.decay.sigma if report.decay is not None else None
+        self.decay_line.setVisible(sigma is not None)
+        self.forbidden.setVisible(sigma is not None)
+        if sigma is not None:
+            self.decay_line.setValue(-sigma)
+            self.forbidden.setRegion((-sigma, 0))
+        if tuning is not None:
+            self._range = (tuning.minimum, tuning.maximum)
+            self.name_label.setText(tuning.name)
+            self._updating = True
+            span = tuning.maximum - tuning.minimum
+            decimals = max(2, min(8, 3 - math.floor(math.log10(span)))) if span > 0 else 3
+            self.spin.setDecimals(decimals)
+            self.spin.setRange(tuning.minimum, tuning.maximum)
+            self.spin.setSingleStep(span / 100 if span > 0 else 0.1)
+            self._updating = False
+        value = self._value if tuning is not None else None
+        poles, zeros = result.poles_at(value), result.zeros_at(value)
+        xr, yr = view_box(poles, zeros, result.paths, sigma)
+        self.plot.getPlotItem().getViewBox().setRange(xRange=xr, yRange=yr, padding=0)
+        self._draw_at(value)
+
+    def set_current_value(self, value: float) -> None:
+        """Move the poles (and the slider) to the tuning parameter's current value."""
+        self._value = value
+        self._draw_at(value)
+
+    def plotted_poles(self) -> np.ndarray:
+        """The pole positions as drawn (complex)."""
+        x, y = self.poles.getData()
+        return np.asarray(x) + 1j * np.asarray(y)
+
+    def plotted_zeros(self) -> np.ndarray:
+        """The zero positions as drawn (complex)."""
+        x, y = self.zeros.getData()
+        return np.asarray(x) + 1j * np.asarray(y)
+
+    # -- drawing ----------------------------------------------------------------------------------
+    def _draw_at(self, value: float | None) -> None:
+        result = self._result
+        if result is None or result.report is None:
+            return
+        poles = result.poles_at(value)
+        self.poles.setData(poles.real, poles.imag)
+        zeros = result.zeros_at(value) if result.zero_table.size else self._nominal_zeros()
+        self.zeros.setData(zeros.real, zeros.imag)
+        self.caption.setText(self._caption(poles, value))
+        if value is not None and result.tuning is not None:
+            self._updating = True
+            self.slider.setValue(self._slider_position(value))
+            self.spin.setValue(value)
+            self._updating = False
+
+    def _nominal_zeros(self) -> np.ndarray:
+        return np.array([complex(z.re, z.im) for z in self._result.report.zeros
+                         for _ in range(z.multiplicity)], dtype=complex)
+
+    def _caption(self, poles: np.ndarray, value: float | None) -> str:
+        report = self._result.report
+        at = f"{report.parameter} = {number(value)}: " if report.parameter and value is not None else ""
+        if poles.size == 0:
+            return at + "no poles"
+        dom = poles[np.argmax(poles.real + 1e-12 * poles.imag)]
+        wn = abs(dom)
+        zeta = f"ζ {number(-dom.real / wn, 3)}, " if wn > 0 else ""
+        return f"{at}slowest pole {complex_number(dom, 4)}  ({zeta}ωn {number(wn, 4)} rad/s)"
+
+    # -- slider and spin box ----------------------------------------------------------------------
+    def _set_controls_enabled(self, on: bool) -> None:
+        for w in (self.slider, self.spin):
+            w.setEnabled(on)
+
+    def _slider_position(self, value: float) -> int:
+        lo, hi = self._range
+        if hi <= lo:
+            return 0
+        return int(round((min(max(value, lo), hi) - lo) / (hi - lo) * SLIDER_STEPS))
+
+    def _slider_value(self, position: int) -> float:
+        lo, hi = self._range
+        return lo + (hi - lo) * position / SLIDER_STEPS
+
+    def _slider_moved(self, position: int) -> None:
+        if self._updating:
+            return
+        value = self._slider_value(position)
+        self.valueDragged.emit(value)
+        if not self.slider.isSliderDown():  # keyboard or page step: commit at once
+            self.valueCommitted.emit(value)
+
+    def _commit(self) -> None:
+        self.valueCommitted.emit(self._slider_value(self.slider.value()))
+
+    def _spin_changed(self, value: float) -> None:
+        if self._updating:
+            return
+        self.valueDragged.emit(value)
+        self.valueCommitted.emit(value)

@@ -1,0 +1,357 @@
+"""Stable range panel: a number line of the tuning parameter with the stable intervals, the
+intervals meeting the decay requirement and the current value; the endpoints exact and decimal
+with how stability is lost there; margins at nominal; the verdict at the current value.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from PySide6.QtCore import QPointF, QRectF, QSize, Qt
+from PySide6.QtGui import QColor, QPainter, QPainterPath, QPalette, QPen
+from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
+
+from app.panels.common import MINUS, MessageLabel, colour, number, number_css
+from app.theme import figure_font, label_font
+from core.polynomial import to_fmpq
+from core.routh import routh_counts
+
+HOW_LOST = {
+    "origin": "a real pole passes through s = 0",
+    "crossing": "a complex pair crosses the imaginary axis at s = ±j{omega} rad/s",
+    "infinity": "the leading coefficient vanishes: a pole goes to infinity and the order drops",
+    "singular": "the whole polynomial vanishes",
+}
+
+
+def how_lost(kind: str, omega: float | None) -> str:
+    """Plain words for how stability is lost at an endpoint of this kind.
+
+    >>> how_lost("crossing", 1.5)
+    'a complex pair crosses the imaginary axis at s = ±j1.5 rad/s'
+    """
+    if kind == "crossing" and omega is None:
+        return "a pair of poles reaches the imaginary axis"
+    return HOW_LOST.get(kind, kind).format(omega=number(omega))
+
+
+def nice_ticks(lo: float, hi: float, count: int = 6) -> list[float]:
+    """Round tick values covering [lo, hi] (1, 2, 5 steps).
+
+    >>> nice_ticks(0, 10)
+    [0.0, 2.0, 4.0, 6.0, 8.0, 10.0]
+    """
+    if not hi > lo:
+        return [lo]
+    raw = (hi - lo) / max(count - 1, 1)
+    mag = 10 ** math.floor(math.log10(raw))
+    step = next(m * mag for m in (1, 2, 2.5, 5, 10) if m * mag >= raw)
+    first = math.ceil(lo / step - 1e-9) * step
+    out, t = [], first
+    while t <= hi + 1e-9 * step:
+        out.append(round(t, 12) + 0.0)
+        t += step
+    return out
+
+
+@dataclass
+class LineData:
+    """What the number line draws (floats; None is an unbounded end)."""
+
+    name: str = ""
+    span: tuple[float, float] = (0.0, 1.0)
+    stable: list[tuple[float | None, float | None]] = field(default_factory=list)
+    decay: list[tuple[float | None, float | None]] | None = None
+    endpoints: list[float] = field(default_factory=list)
+    current: float | None = None
+
+
+def view_span(minimum: float | None, maximum: float | None, endpoints: list[float],
+              current: float | None) -> tuple[float, float]:
+    """The slider's min..max, widened to show every finite endpoint and the current value.
+
+    >>> view_span(0, 4, [0.0, 6.0], 2.0)
+    (-0.3, 6.3)
+    """
+    points = [v for v in (minimum, maximum, current, *endpoints) if v is not None and math.isfinite(v)]
+    if not points:
+        return (0.0, 1.0)
+    lo, hi = min(points), max(points)
+    if hi - lo < 1e-12:
+        lo, hi = lo - 1.0, hi + 1.0
+    pad = 0.05 * (hi - lo)
+    return (round(lo - pad, 12), round(hi + pad, 12))
+
+
+class NumberLine(QWidget):
+    """A painted axis with the stable and decay intervals as bars and the current value marker."""
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.data = LineData()
+        self.setMinimumHeight(86)
+        self.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Fixed)
+
+    def sizeHint(self) -> QSize:
+        return QSize(420, 86)
+
+    def set_data(self, data: LineData) -> None:
+        """Replace what is drawn."""
+        self.data = data
+        self.update()
+
+    def set_current(self, value: float | None) -> None:
+        """Move the current value marker."""
+        self.data.current = value
+        self.update()
+
+    def x_of(self, value: float) -> float:
+        """Pixel x of a parameter value."""
+        lo, hi = self.data.span
+        left, right = 16.0, self.width() - 16.0
+        return left + (value - lo) / (hi - lo) * (right - left)
+
+    def paintEvent(self, event) -> None:
+        d = self.data
+        p = QPainter(self)
+        p.setRenderHint(QPainter.RenderHint.Antialiasing)
+        text = self.palette().color(QPalette.ColorRole.WindowText)
+        lo, hi = d.span
+        left, right = self.x_of(lo), self.x_of(hi)
+        axis_y = 50.0
+        p.setFont(figure_font(8.5))
+        # bars: stable above the axis, decay (thinner) just below it
+        self._bars(p, d.stable, axis_y - 16, 10, colour("stable"))
+        if d.decay is not None:
+            self._bars(p, d.decay, axis_y - 4, 4, colour("decay"))
+        p.setPen(QPen(text, 1))
+        p.drawLine(QPointF(left, axis_y), QPointF(right, axis_y))
+        p.setPen(QPen(colour("muted"), 1))
+        for t in nice_ticks(lo, hi):
+            x = self.x_of(t)
+            p.drawLine(QPointF(x, axis_y), QPointF(x, axis_y + 4))
+            label = number(t, 4)
+            w = p.fontMetrics().horizontalAdvance(label)
+            p.drawText(QPointF(min(max(x - w / 2, 0), self.width() - w), axis_y + 17), label)
+        p.setPen(QPen(colour("unstable"), 1.4))
+        for v in d.endpoints:
+            if lo <= v <= hi:
+                x = self.x_of(v)
+                p.drawLine(QPointF(x, axis_y - 20), QPointF(x, axis_y + 2))
+        if d.current is not None and lo <= d.current <= hi:
+            x = self.x_of(d.current)
+            marker = colour("marker")
+            p.setPen(QPen(marker, 1.2))
+            p.drawLine(QPointF(x, axis_y - 22), QPointF(x, axis_y + 6))
+            tri = QPainterPath()
+            tri.moveTo(x, axis_y - 22)
+            tri.lineTo(x - 5, axis_y - 30)
+            tri.lineTo(x + 5, axis_y - 30)
+            tri.closeSubpath()
+            p.fillPath(tri, marker)
+            label = f"{d.name} = {number(d.current, 5)}"
+            w = p.fontMetrics().horizontalAdvance(label)
+            p.drawText(QPointF(min(max(x - w / 2, 0), self.width() - w), axis_y - 34), label)
+        self._legend(p, axis_y + 32, d.decay is not None)
+        p.end()
+
+    def _bars(self, p: QPainter, intervals, top: float, height: float, fill: QColor) -> None:
+        lo, hi = self.data.span
+        for a, b in intervals:
+            a = lo if a is None or a < lo else a
+            b = hi if b is None or b > hi else b
+            if b <= a:
+                continue
+            rect = QRectF(self.x_of(a), top, self.x_of(b) - self.x_of(a), height)
+            p.fillRect(rect, fill)
+
+    def _legend(self, p: QPainter, y: float, with_decay: bool) -> None:
+        p.setFont(label_font(8))
+        x = 16.0
+        entries = [("stable", colour("stable"))] + ([("meets the decay requirement", colour("decay"))]
+                                                   if with_decay else [])
+        for text, fill in entries:
+            p.fillRect(QRectF(x, y - 8, 14, 7), fill)
+            p.setPen(QPen(colour("muted")))
+            p.drawText(QPointF(x + 18, y), text)
+            x += 26 + p.fontMetrics().horizontalAdvance(text)
+
+
+def _interval_text(iv, exact) -> str:
+    """``(0, 6)``, with decimals after it when the exact ends are not plain decimals."""
+    ends = [("−∞" if iv[0] is None else exact[0].replace("-", MINUS)),
+            ("+∞" if iv[1] is None else exact[1].replace("-", MINUS))]
+    text = f"({ends[0]}, {ends[1]})"
+    decimals = [("−∞" if iv[0] is None else number(iv[0])), ("+∞" if iv[1] is None else number(iv[1]))]
+    if decimals != ends:
+        text += f" <span class='muted'>≈ ({decimals[0]}, {decimals[1]})</span>"
+    return text
+
+
+class RangePanel(QWidget):
+    """Shows the stable range of the tuning parameter and the verdict at the current value."""
+
+    TITLE = "Stable range"
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        self._result = None
+        self._value: float | None = None
+        self.message = MessageLabel(self)
+        self.line = NumberLine(self)
+        self.verdict = QLabel(self)
+        self.verdict.setTextFormat(Qt.TextFormat.RichText)
+        self.details = QLabel(self)
+        self.details.setWordWrap(True)
+        self.details.setTextFormat(Qt.TextFormat.RichText)
+        self.details.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.details.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(6, 4, 6, 4)
+        layout.addWidget(self.message)
+        layout.addWidget(self.line)
+        layout.addWidget(self.verdict)
+        layout.addWidget(self.details, 1)
+
+    # -- public -----------------------------------------------------------------------------------
+    def show_result(self, result) -> None:
+        """Show a new AnalysisResult (its error message when it has no Report)."""
+        self._result = result
+        self.message.show_message(result.message)
+        if result.tuning is not None:
+            self._value = result.tuning.nominal
+        report = result.report
+        has_range = report is not None and report.stable_range is not None
+        self.line.setVisible(has_range)
+        if report is None:
+            self.details.setText("")
+            self.verdict.setText("")
+            return
+        if not has_range:
+            self.details.setText(f"<style>{number_css()}</style>Choose a tuning parameter to see the range "
+                                 "of its values for which the loop is stable.")
+        else:
+            rng = report.stable_range.to_dict()
+            dec = report.decay.to_dict() if report.decay is not None else None
+            tuning = result.tuning
+            ends = [e["value"] for e in rng["endpoints"]]
+            if dec and dec["endpoints"]:
+                ends += [e["value"] for e in dec["endpoints"]]
+            span = view_span(tuning.minimum if tuning else None, tuning.maximum if tuning else None,
+                             ends, self._value)
+            self.line.set_data(LineData(report.parameter, span, [tuple(iv) for iv in rng["intervals"]],
+                                        [tuple(iv) for iv in dec["intervals"]]
+                                        if dec and dec["intervals"] is not None else None,
+                                        [e["value"] for e in rng["endpoints"]], self._value))
+            self.details.setText(self.details_html())
+        self._update_verdict()
+
+    def set_current_value(self, value: float) -> None:
+        """Move the marker and the verdict to the tuning parameter's current value."""
+        self._value = value
+        self.line.set_current(value)
+        self._update_verdict()
+
+    # -- text -------------------------------------------------------------------------------------
+    def details_html(self) -> str:
+        """Intervals, endpoints, margins and the decay range as rich text."""
+        report = self._result.report
+        name = report.parameter
+        rng = report.stable_range.to_dict()
+        out = [f"<style>{number_css()} td {{ padding: 1px 8px 1px 0; }}</style>"]
+        if rng["intervals"]:
+            ivs = " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(rng["intervals"], rng["exact_intervals"]))
+            out.append(f"<p style='margin:2px 0'><b>Stable for {name} in</b> <span class='num'>{ivs}</span></p>")
+        else:
+            out.append(f"<p style='margin:2px 0' class='bad'>Stable for no value of {name}.</p>")
+        if rng["endpoints"]:
+            rows = "".join(
+                f"<tr><td class='num'>{name} = {e['exact'].replace('-', MINUS)}</td>"
+                f"<td class='num muted'>≈ {number(e['value'], 10)}</td>"
+                f"<td>{how_lost(e['kind'], e['omega'])}</td></tr>" for e in rng["endpoints"])
+            out.append(f"<p style='margin:6px 0 2px 0'><b>Endpoints</b></p><table>{rows}</table>")
+        out.append(self._margins_html(name))
+        out.append(self._decay_html(name))
+        return "".join(out)
+
+    def _margins_html(self, name: str) -> str:
+        m = self._result.report.margins
+        if m is None:
+            return ""
+        md = m.to_dict()
+        if not md["stable"]:
+            return (f"<p style='margin:6px 0 2px 0'><b>Margins at nominal</b> ({name} = "
+                    f"<span class='num'>{number(md['nominal'])}</span>): none, the nominal value is not stable.</p>")
+        rows = []
+        for side, factor, db, dist, edge in (("may rise", "rise_factor", "rise_db", "rise_distance", "high"),
+                                             ("may fall", "fall_factor", "fall_db", "fall_distance", "low")):
+            if md[edge] is None:
+                rows.append(f"<tr><td>{side}</td><td colspan='3'>without limit</td></tr>")
+                continue
+            ratio = (f"×{number(md[factor], 4)}" if md[factor] is not None else "")
+            dbs = f"{number(md[db], 3)} dB" if md[db] is not None else ""
+            rows.append(f"<tr><td>{side}</td><td class='num'>{ratio}</td><td class='num'>{dbs}</td>"
+                        f"<td class='num muted'>by {number(md[dist], 6)} to {number(md[edge], 6)}</td></tr>")
+        return (f"<p style='margin:6px 0 2px 0'><b>Margins at nominal</b> {name} = "
+                f"<span class='num'>{number(md['nominal'])}</span></p><table>{''.join(rows)}</table>")
+
+    def _decay_html(self, name: str) -> str:
+        dec = self._result.report.decay
+        if dec is None:
+            return ""
+        d = dec.to_dict()
+        head = (f"<p style='margin:6px 0 2px 0'><b>Decay requirement</b> σ = <span class='num'>"
+                f"{number(d['sigma'])}</span> 1/s <span class='muted'>({d['note']})</span></p>")
+        if d["intervals"] is None:
+            return head
+        if d["intervals"]:
+            ivs = " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(d["intervals"], d["exact_intervals"]))
+            body = f"met for {name} in <span class='num'>{ivs}</span>"
+        else:
+            body = f"<span class='bad'>met for no value of {name}</span>"
+        return head + f"<p style='margin:0 0 0 12px'>{body}</p>"
+
+    def _update_verdict(self) -> None:
+        self.verdict.setText(self.verdict_html())
+
+    def verdict_html(self) -> str:
+        """The verdict at the current value: stable or not (exact), and whether decay is met."""
+        report = self._result.report if self._result is not None else None
+        if report is None:
+            return ""
+        if report.parameter is None or self._value is None:
+            nominal = report.nominal
+            if nominal is None:
+                return ""
+            return self._verdict_words("", nominal.stable, nominal.rhp, nominal.jw, None)
+        v = to_fmpq(self._value)
+        coeffs = report.analysed.at(v)
+        dropped = len(coeffs) - 1 < report.analysed.degree
+        counts = routh_counts(coeffs) if len(coeffs) > 1 else None
+        stable = counts is not None and not dropped and counts.rhp == 0 and counts.jw == 0
+        decay = None
+        if report.decay is not None and report.decay.range is not None:
+            decay = report.decay.range.contains(v)
+        where = f"At {report.parameter} = <span class='num'>{number(self._value)}</span>: "
+        return self._verdict_words(where, stable, counts.rhp if counts else 0, counts.jw if counts else 0,
+                                   decay, dropped)
+
+    @staticmethod
+    def _verdict_words(where: str, stable: bool, rhp: int, jw: int, decay: bool | None,
+                       dropped: bool = False) -> str:
+        css = f"<style>{number_css()}</style>"
+        if stable:
+            words = "<span class='good'>STABLE</span>"
+        else:
+            why = []
+            if rhp:
+                why.append(f"{rhp} pole{'s' if rhp > 1 else ''} in the right half plane")
+            if jw:
+                why.append(f"{jw} on the imaginary axis")
+            if dropped:
+                why.append("the order drops here")
+            words = "<span class='bad'>UNSTABLE</span>" + (f" ({', '.join(why)})" if why else "")
+        if decay is not None:
+            words += (", decay requirement <span class='good'>met</span>" if decay
+                      else ", decay requirement <span class='bad'>not met</span>")
+        return css + where + words

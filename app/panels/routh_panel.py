@@ -1,0 +1,316 @@
+"""Routh array panel: entries symbolic in the tuning parameter beside their values at the current
+value, the first column tinted, sign changes marked, special rows annotated, copy as plain text.
+
+Values are exact: each entry is a rational function (core.routh.RationalFunction) evaluated at the
+current value as a rational number; in rows built with the ε method the entry stays a function of
+ε and its sign is read as ε → 0+.
+"""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from flint import fmpq, fmpq_poly
+from PySide6.QtCore import QRect, Qt
+from PySide6.QtGui import QAction, QBrush, QGuiApplication, QPen
+from PySide6.QtWidgets import (QAbstractItemView, QHBoxLayout, QHeaderView, QLabel, QPushButton,
+                               QStyledItemDelegate, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
+
+from app.panels.common import MINUS, MessageLabel, colour, number, number_css
+from app.theme import figure_font
+from core.polynomial import to_fmpq
+from core.report_text import routh_table
+from core.routh import RationalFunction, RouthArray
+
+SUPERSCRIPTS = str.maketrans("0123456789", "⁰¹²³⁴⁵⁶⁷⁸⁹")
+EPS = "ε"
+
+
+def power_label(power: int) -> str:
+    """``s³`` style row label."""
+    return "s" + str(power).translate(SUPERSCRIPTS)
+
+
+def entry_display(text: str, uses_eps: bool) -> str:
+    """Entry text for the table: ε for eps, a true minus sign, no explicit product stars."""
+    if uses_eps:
+        text = re.sub(r"\beps_?\b", EPS, text)
+    text = re.sub(r"(?<![\d/.])(\d+)\*(?=[A-Za-z(ε])", r"\1", text).replace("*", "·")
+    return re.sub(r"(^|[\s(/])-", lambda m: m.group(1) + MINUS, text)
+
+
+def _powers(text: str) -> str:
+    """``s^2`` written as ``s²``."""
+    return re.sub(r"s\^(\d+)", lambda m: power_label(int(m.group(1))), text)
+
+
+@dataclass(frozen=True)
+class EntryValue:
+    """One entry at the current value: display text, exact text, and its sign (None if undefined)."""
+
+    text: str
+    exact: str
+    sign: int | None
+
+
+def _sign(q: fmpq) -> int:
+    return (q > 0) - (q < 0)
+
+
+def _in_eps(entry: RationalFunction, value: fmpq) -> RationalFunction:
+    """An entry over Q(k, ε) with k = value: a rational function of ε alone (fmpq_poly)."""
+    def reduce(p) -> fmpq_poly:
+        k_name = p.context().names()[0]
+        terms = p.subs({k_name: value}).to_dict()
+        top = max((e[1] for e in terms), default=0)
+        return fmpq_poly([terms.get((0, i), 0) for i in range(top + 1)])
+    den = reduce(entry.den)
+    if den.is_zero():
+        raise ZeroDivisionError
+    return RationalFunction(reduce(entry.num), den)
+
+
+def evaluate_entry(entry: RationalFunction, array: RouthArray, value) -> EntryValue:
+    """The entry at tuning value ``value`` (exact); functions of ε are kept and signed as ε → 0+.
+
+    >>> from core.routh import routh_array
+    >>> from core.polynomial import ParametricPolynomial
+    >>> arr = routh_array(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K"))
+    >>> evaluate_entry(arr.rows[2][0], arr, 3)
+    EntryValue(text='1', exact='1', sign=1)
+    """
+    v = to_fmpq(value) if value is not None else fmpq(0)
+    try:
+        if not array.uses_eps:
+            q = entry(v) if not entry.is_constant() else entry.constant()
+            return EntryValue(number(float(q)), str(q), _sign(q))
+        rf = entry if isinstance(entry.num, fmpq_poly) else _in_eps(entry, v)
+    except ZeroDivisionError:
+        return EntryValue("undefined", "the entry's denominator vanishes at this value", None)
+    if rf.is_constant():
+        q = rf.constant()
+        return EntryValue(number(float(q)), str(q), _sign(q))
+    text = entry_display(rf.text(EPS), True)
+    return EntryValue(text, f"{text}, sign as ε → 0+", rf.sign_near_zero())
+
+
+class SignChangeDelegate(QStyledItemDelegate):
+    """Paints the sign column: the first-column sign, and a red arrow across a row boundary
+    where the sign changes from the row above."""
+
+    def __init__(self, panel: "RouthPanel"):
+        super().__init__(panel)
+        self._panel = panel
+
+    def paint(self, painter, option, index) -> None:
+        super().paint(painter, option, index)
+        if index.row() - 2 not in self._panel.change_rows:  # table row = array row + 1
+            return
+        rect: QRect = option.rect
+        painter.save()
+        pen = QPen(colour("unstable"), 1.6)
+        painter.setPen(pen)
+        x = rect.left() + 10
+        top, mid = rect.top() + 1, rect.top() + rect.height() // 2
+        painter.drawLine(x, top, x, mid)
+        painter.drawLine(x - 3, mid - 4, x, mid)
+        painter.drawLine(x + 3, mid - 4, x, mid)
+        painter.restore()
+
+
+class RouthPanel(QWidget):
+    """Shows the Routh array of the newest result and its values at the current value."""
+
+    TITLE = "Routh array"
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        self._result = None
+        self._value: float | None = None
+        self.values: list[list[EntryValue]] = []
+        self.change_rows: set[int] = set()  # array row i: the sign changes between rows i and i + 1
+        self.message = MessageLabel(self)
+        self.caption = QLabel(self)
+        self.caption.setWordWrap(True)
+        self.table = QTableWidget(self)
+        self.table.setFont(figure_font())
+        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.ContiguousSelection)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.table.verticalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.table.verticalHeader().setDefaultAlignment(Qt.AlignmentFlag.AlignCenter)
+        self.table.setContextMenuPolicy(Qt.ContextMenuPolicy.ActionsContextMenu)
+        self.copy_action = QAction("Copy as text", self)
+        self.copy_action.triggered.connect(self.copy_as_text)
+        self.table.addAction(self.copy_action)
+        self.notes = QLabel(self)
+        self.notes.setWordWrap(True)
+        self.notes.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.copy_button = QPushButton("Copy as text", self)
+        self.copy_button.clicked.connect(self.copy_as_text)
+        bar = QHBoxLayout()
+        bar.addWidget(self.caption, 1)
+        bar.addWidget(self.copy_button, 0, Qt.AlignmentFlag.AlignTop)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        layout.addWidget(self.message)
+        layout.addLayout(bar)
+        layout.addWidget(self.table)
+        layout.addWidget(self.notes)
+        layout.addStretch(1)
+        self._delegate = SignChangeDelegate(self)
+
+    # -- public -----------------------------------------------------------------------------------
+    def show_result(self, result) -> None:
+        """Show a new AnalysisResult (its error message when it has no Report)."""
+        self._result = result
+        self.message.show_message(result.message)
+        if result.tuning is not None:
+            self._value = result.tuning.nominal
+        self._build()
+
+    def set_current_value(self, value: float) -> None:
+        """Re-evaluate the value columns at the tuning parameter's current value."""
+        self._value = value
+        self._fill_values()
+
+    def text(self) -> str:
+        """The array as plain aligned text (same as the command line's)."""
+        report = self._result.report if self._result is not None else None
+        return "\n".join(routh_table(report)) if report is not None else ""
+
+    def copy_as_text(self) -> None:
+        """Put :meth:`text` on the clipboard."""
+        QGuiApplication.clipboard().setText(self.text())
+
+    # -- layout of the table: row 0 is a group header; columns: symbolic | values | sign ---------
+    @property
+    def _array(self) -> RouthArray | None:
+        report = self._result.report if self._result is not None else None
+        return report.routh if report is not None else None
+
+    def _width(self) -> int:
+        return max((len(r) for r in self._array.rows), default=1)
+
+    def _value_column(self, j: int) -> int:
+        return self._width() + j if self._has_values() else -1
+
+    def _sign_column(self) -> int:
+        return 2 * self._width() if self._has_values() else self._width()
+
+    def _has_values(self) -> bool:
+        return self._array is not None and self._array.parameter is not None
+
+    def _build(self) -> None:
+        arr = self._array
+        table = self.table
+        table.clearSpans()
+        table.clear()
+        self.copy_button.setEnabled(arr is not None)
+        if arr is None:
+            table.setRowCount(0)
+            table.setColumnCount(0)
+            self.caption.setText("")
+            self.notes.setText("")
+            return
+        width = self._width()
+        columns = width * (2 if self._has_values() else 1) + 1
+        table.setRowCount(len(arr.rows) + 1)
+        table.setColumnCount(columns)
+        table.horizontalHeader().hide()
+        table.setVerticalHeaderLabels([""] + [self._row_label(i) for i in range(len(arr.rows))])
+        table.setItemDelegateForColumn(self._sign_column(), self._delegate)
+        table.horizontalHeader().setSectionResizeMode(self._sign_column(), QHeaderView.ResizeMode.Fixed)
+        table.setColumnWidth(self._sign_column(), 52)
+        self._group_header(0, width, f"entries in {arr.parameter}" if arr.parameter else "entries")
+        if self._has_values():
+            self._group_header(width, width, "")
+        self._group_header(self._sign_column(), 1, "sign")
+        tint, special = QBrush(colour("tint")), QBrush(colour("special"))
+        special_rows = {s.row for s in arr.special}
+        display = arr.rows_text()
+        for i, row in enumerate(display):
+            for j in range(width):
+                item = QTableWidgetItem(entry_display(row[j], arr.uses_eps) if j < len(row) else "")
+                item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
+                if j == 0:
+                    item.setBackground(tint)
+                elif i in special_rows:
+                    item.setBackground(special)
+                table.setItem(i + 1, j, item)
+        self.notes.setText(self._notes_html())
+        self._fill_values()
+
+    def _row_label(self, i: int) -> str:
+        arr = self._array
+        mark = " *" if any(s.row == i for s in arr.special) else ""
+        return power_label(arr.powers[i]) + mark
+
+    def _group_header(self, column: int, span: int, text: str) -> None:
+        item = QTableWidgetItem(text)
+        item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
+        item.setForeground(QBrush(colour("muted")))
+        self.table.setItem(0, column, item)
+        if span > 1:
+            self.table.setSpan(0, column, 1, span)
+
+    def _notes_html(self) -> str:
+        arr = self._array
+        lines = [f"<b>* {power_label(arr.powers[s.row])}</b>: " + _powers(s.note) for s in arr.special]
+        return f"<style>{number_css()}</style>" + "<br>".join(lines) if lines else ""
+
+    def _fill_values(self) -> None:
+        arr = self._array
+        if arr is None:
+            return
+        width, table = self._width(), self.table
+        value = self._value if self._has_values() else None
+        if self._has_values():
+            name = arr.parameter
+            self.caption.setText(f"Left: entries as functions of {name}. Right: their values at "
+                                 f"{name} = {number(value)}. First column tinted; a red arrow marks "
+                                 "each sign change down the first column.")
+            table.item(0, width).setText(f"at {name} = {number(value)}")
+        else:
+            self.caption.setText("First column tinted; a red arrow marks each sign change down the first column.")
+        self.values = [[evaluate_entry(e, arr, value) for e in row] for row in arr.rows]
+        tint, special = QBrush(colour("tint")), QBrush(colour("special"))
+        special_rows = {s.row for s in arr.special}
+        for i, row in enumerate(self.values):
+            if self._has_values():
+                for j in range(width):
+                    ev = row[j] if j < len(row) else None
+                    item = table.item(i + 1, width + j) or QTableWidgetItem()
+                    item.setText(ev.text if ev else "")
+                    item.setToolTip(ev.exact if ev else "")
+                    item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
+                    if j == 0:
+                        item.setBackground(tint)
+                    elif i in special_rows:
+                        item.setBackground(special)
+                    if table.item(i + 1, width + j) is None:
+                        table.setItem(i + 1, width + j, item)
+        signs = [row[0].sign for row in self.values]
+        self.change_rows = {i for i in range(len(signs) - 1)
+                            if signs[i] is not None and signs[i + 1] is not None and signs[i] * signs[i + 1] < 0}
+        sign_col = self._sign_column()
+        for i, s in enumerate(signs):
+            item = table.item(i + 1, sign_col) or QTableWidgetItem()
+            item.setText({1: "+", -1: MINUS, 0: "0", None: "?"}[s])
+            item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
+            item.setToolTip(f"sign changes between {power_label(arr.powers[i - 1])} and "
+                            f"{power_label(arr.powers[i])}" if i - 1 in self.change_rows else "")
+            if table.item(i + 1, sign_col) is None:
+                table.setItem(i + 1, sign_col, item)
+        table.setMaximumHeight(self._content_height())
+        table.viewport().update()
+
+    def _content_height(self) -> int:
+        table = self.table
+        rows = sum(table.rowHeight(r) for r in range(table.rowCount()))
+        bar = table.horizontalScrollBar().sizeHint().height()
+        return rows + 2 * table.frameWidth() + bar + 2
+
+    def sign_changes(self) -> int:
+        """How many sign changes the first column has at the current value."""
+        return len(self.change_rows)

@@ -1,0 +1,185 @@
+"""The analysis panels against outside references (numpy roots, a hand-written Routh array, sympy)."""
+from __future__ import annotations
+
+import os
+
+os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+
+from fractions import Fraction  # noqa: E402
+
+import numpy as np  # noqa: E402
+import pytest  # noqa: E402
+import sympy  # noqa: E402
+from PySide6.QtGui import QGuiApplication  # noqa: E402
+
+from app.bridge import ModelSignals  # noqa: E402
+from app.controller import AnalysisController  # noqa: E402
+from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach  # noqa: E402
+from app.panels.polynomial_panel import factored  # noqa: E402
+from core.model import Diagram, Node, Parameter  # noqa: E402
+from core.polynomial import ParametricPolynomial  # noqa: E402
+from core.report_text import routh_table  # noqa: E402
+from test_controller import unity_loop  # noqa: E402  (tests/app is on sys.path in prepend mode)
+
+
+def third_order(K: float) -> list[float]:
+    """s(s+1)(s+2) + K, the unity-feedback loop K/(s(s+1)(s+2)) (from memory, textbook example)."""
+    return [1.0, 3.0, 2.0, K]
+
+
+@pytest.fixture
+def loop(qtbot):
+    """The third-order loop analysed, with all four panels attached to its controller."""
+    d = unity_loop(nominal=2.0)
+    signals = ModelSignals(d)
+    ctl = AnalysisController(d, signals)
+    panels = {"poly": PolynomialPanel(), "routh": RouthPanel(), "range": RangePanel(), "map": PoleMap()}
+    for p in panels.values():
+        qtbot.addWidget(p)
+        attach(p, ctl)
+    assert ctl.wait_for_idle(10000)
+    assert ctl.result.ok, ctl.result.message
+    return d, ctl, panels
+
+
+def sorted_roots(z) -> np.ndarray:
+    z = np.asarray(z, dtype=complex)
+    return z[np.lexsort((np.round(z.imag, 9), np.round(z.real, 9)))]
+
+
+def test_stable_interval_is_zero_to_six(loop):
+    _, ctl, panels = loop
+    line = panels["range"].line.data
+    assert line.stable == [(0.0, 6.0)]
+    # reference: numpy roots just inside and just outside the upper end
+    assert np.all(np.roots(third_order(5.9)).real < 0)
+    assert np.any(np.roots(third_order(6.1)).real > 0)
+    assert np.any(np.roots(third_order(-0.1)).real > 0)
+    rng = panels["range"]
+    ctl.set_current_value(5.9)
+    assert "STABLE" in rng.verdict.text() and "UNSTABLE" not in rng.verdict.text()
+    ctl.set_current_value(6.1)
+    assert "UNSTABLE" in rng.verdict.text() and "2 poles in the right half plane" in rng.verdict.text()
+    # at K = 6 the pair crosses at s = ±j sqrt(2) (s^3+3s^2+2s+6 = (s+3)(s^2+2), from memory)
+    assert "±j1.41421" in rng.details.text()
+
+
+def test_pole_map_draws_numpy_roots_and_follows_the_slider(loop, qtbot):
+    _, ctl, panels = loop
+    pole_map = panels["map"]
+    assert np.allclose(sorted_roots(pole_map.plotted_poles()), sorted_roots(np.roots(third_order(2.0))))
+    # drag the slider: live value, poles at the new value (reference: numpy.roots)
+    pole_map.slider.setSliderDown(True)
+    pole_map.slider.setValue(450)  # 0..10 over 1000 steps -> K = 4.5
+    assert ctl.current_value == pytest.approx(4.5)
+    assert np.allclose(sorted_roots(pole_map.plotted_poles()), sorted_roots(np.roots(third_order(4.5))))
+    pole_map.slider.setSliderDown(False)  # release commits the value as the nominal
+    assert ctl.wait_for_idle(10000)
+    assert loop[0].parameters["K"].nominal == pytest.approx(4.5)
+    assert np.allclose(sorted_roots(pole_map.plotted_poles()), sorted_roots(np.roots(third_order(4.5))))
+
+
+def test_pole_map_paths_are_numpy_roots(loop):
+    _, ctl, panels = loop
+    result = ctl.result
+    for i in (0, 123, 399):  # a few samples of the precomputed paths
+        want = sorted_roots(np.roots(third_order(result.path_values[i])))
+        assert np.allclose(sorted_roots(result.paths[i]), want, atol=1e-7)
+    x, _ = panels["map"].paths.getData()
+    assert np.isfinite(x).sum() == result.paths.size
+
+
+def routh_at(coeffs: list[Fraction]) -> list[list[Fraction]]:
+    """Textbook Routh array (Routh 1877, as in Ogata ch. 5) without special cases; from memory."""
+    n = len(coeffs) - 1
+    width = n // 2 + 1
+    rows = [coeffs[0::2], coeffs[1::2]]
+    rows = [r + [Fraction(0)] * (width - len(r)) for r in rows]
+    for _ in range(n - 1):
+        up, cur = rows[-2], rows[-1]
+        rows.append([(cur[0] * up[j + 1] - up[0] * cur[j + 1]) / cur[0] for j in range(width - 1)] + [Fraction(0)])
+    return rows
+
+
+def test_routh_values_at_current_value(loop):
+    _, ctl, panels = loop
+    ctl.set_current_value(4.5)
+    want = routh_at([Fraction(1), Fraction(3), Fraction(2), Fraction(9, 2)])
+    got = panels["routh"].values
+    for row_got, row_want in zip(got, want):
+        for entry, ref in zip(row_got, row_want):
+            assert Fraction(entry.exact) == ref
+    # the symbolic s^1 entry, -K/3 + 2 (from memory), read by sympy and evaluated at 4.5
+    K = sympy.Symbol("K")
+    assert sympy.Rational(got[2][0].exact) == (2 - K / 3).subs(K, sympy.Rational(9, 2))
+    # above K = 6 the s^1 entry turns negative: two sign changes, two right-half-plane poles
+    ctl.set_current_value(7.0)
+    assert panels["routh"].sign_changes() == 2
+    assert np.sum(np.roots(third_order(7.0)).real > 0) == 2  # reference: numpy
+
+
+def test_routh_copy_as_text(loop, qtbot):
+    _, ctl, panels = loop
+    panels["routh"].copy_as_text()
+    assert QGuiApplication.clipboard().text() == "\n".join(routh_table(ctl.result.report))
+
+
+def test_routh_special_row_is_annotated(qtbot):
+    d = unity_loop(den="s^4 + s^3 + 2s^2 + 2s")  # s^4+s^3+2s^2+2s+K: zero first element in row s^2
+    ctl = AnalysisController(d, ModelSignals(d))
+    panel = RouthPanel()
+    qtbot.addWidget(panel)
+    attach(panel, ctl)
+    assert ctl.wait_for_idle(10000) and ctl.result.ok
+    assert ctl.result.report.routh.special
+    assert "ε" in panel.notes.text()
+    labels = [panel.table.verticalHeaderItem(r).text() for r in range(panel.table.rowCount())]
+    assert "s² *" in labels
+
+
+def test_factored_form_agrees_with_sympy():
+    # (s + 1)(s^2 + K s + 2), expanded: s^3 + (K+1) s^2 + (K+2) s + 2
+    from flint import fmpq_poly
+    poly = ParametricPolynomial.from_coefficients([1, fmpq_poly([1, 1]), fmpq_poly([2, 1]), 2], "K")
+    s, K = sympy.symbols("s K")
+    _, sym = sympy.factor_list(s**3 + (K + 1) * s**2 + (K + 2) * s + 2)  # reference: sympy
+    assert len(sym) == 2
+    assert factored(poly) in ("(s + 1) (s^2 + s*K + 2)", "(s^2 + s*K + 2) (s + 1)")
+    assert factored(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K")) is None
+
+
+def test_hidden_mode_is_named(qtbot):
+    # C = K (s+1)/s cancels the plant pole at -1 of G = 1/((s+1)(s+2)); the mode at -1 stays in the loop
+    d = Diagram(name="cancel")
+    for node in (Node("r", "input"), Node("e", "sum", signs="+-"),
+                 Node("C", "block", role="controller", num="K (s+1)", den="s"),
+                 Node("G", "block", role="plant", num="1", den="(s+1)(s+2)"), Node("b", "branch"),
+                 Node("y", "output")):
+        d.add_node(node)
+    for src, dst, port in (("r", "e", 0), ("e", "C", 0), ("C", "G", 0), ("G", "b", 0), ("b", "y", 0),
+                           ("b", "e", 1)):
+        d.connect(src, dst, port)
+    d.set_parameter(Parameter("K", 1.0, 0.0, 10.0))
+    d.set_sweep("K")
+    d.set_analysis(input="r", output="y")
+    ctl = AnalysisController(d, ModelSignals(d))
+    panel = PolynomialPanel()
+    qtbot.addWidget(panel)
+    attach(panel, ctl)
+    assert ctl.wait_for_idle(10000) and ctl.result.ok, ctl.result.message
+    text = panel.view.toPlainText()
+    assert "Hidden modes" in text and "s = −1 sits in G" in text
+    # characteristic polynomial s(s+1)(s+2) + K(s+1) = (s+1)(s^2 + 2s + K): numpy finds -1 among its roots
+    assert np.any(np.isclose(np.roots([1, 3, 2 + 1, 1]), -1))
+
+
+def test_panels_clear_on_error_result(loop, qtbot):
+    d, ctl, panels = loop
+    d.set_parameter(Parameter("T", 1.0, 0.0, 2.0))
+    d.set_sweep("T")  # in no block: E405
+    assert ctl.wait_for_idle(10000)
+    assert ctl.result.error is not None
+    assert panels["poly"].view.toPlainText() == ""
+    assert panels["routh"].table.rowCount() == 0
+    assert panels["map"].plotted_poles().size == 0
+    assert not panels["map"].slider.isEnabled()
