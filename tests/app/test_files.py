@@ -39,7 +39,7 @@ def test_broken_file_shows_error_and_keeps_project(window, dialogs, saved, tmp_p
     broken.write_text('{"format": "loopwright-project", "version": 2, "nodes": [', encoding="utf-8")
     dialogs.answers["unsaved"] = "discard"
     assert not window.files.open(broken)
-    kind, (title, err) = dialogs.asked[-1]
+    kind, (_title, err) = dialogs.asked[-1]
     assert kind == "error" and err.code == "E201" and str(broken) in err.where
     assert project_to_dict(window.diagram) == before
     assert window.files.path == saved.absolute()

@@ -52,7 +52,7 @@ def test_garbage_shows_error_with_column_and_leaves_model(qtbot, setup):
 
 
 def test_error_clears_when_text_becomes_valid(qtbot, setup):
-    d, stack, inspector = setup
+    d, _stack, inspector = setup
     inspector.show_node("P")
     type_into(qtbot, inspector.num.edit, "2 s +")
     assert inspector.num.error.isVisible()
@@ -76,7 +76,7 @@ def test_enter_commits_and_adds_new_parameter_as_tuning_in_one_step(qtbot, setup
 
 
 def test_existing_tuning_parameter_is_kept(qtbot, setup):
-    d, stack, inspector = setup
+    d, _stack, inspector = setup
     d.set_parameter(Parameter("K", 2.0, 0.0, 5.0))
     d.set_sweep("K")
     inspector.show_node("C")
@@ -86,7 +86,7 @@ def test_existing_tuning_parameter_is_kept(qtbot, setup):
 
 
 def test_focus_change_to_other_node_commits_pending_valid_text(qtbot, setup):
-    d, stack, inspector = setup
+    d, _stack, inspector = setup
     inspector.show_node("P")
     inspector.den.edit.setText("s^2 + 2 s + 5")
     inspector.show_nodes(["C"])
@@ -121,7 +121,7 @@ def test_undo_refreshes_the_fields(qtbot, setup):
 
 
 def test_sum_signs_and_ports(qtbot, setup):
-    d, stack, inspector = setup
+    d, _stack, inspector = setup
     inspector.show_node("e")
     sign = inspector.signs_row.findChild(type(inspector.add_port), "sign1")
     qtbot.mouseClick(sign, Qt.MouseButton.LeftButton)
