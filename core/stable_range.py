@@ -1,0 +1,380 @@
+"""The exact set of tuning-parameter values for which every root has negative real part.
+
+Method (no sampling). Stability can only change where a root reaches the imaginary axis or the
+degree drops, so the candidate boundaries are the real roots of
+
+* the content c(k) (gcd of all coefficients): the polynomial vanishes identically ("singular");
+* a0(k), the constant term: a real root passes through s = 0 ("origin");
+* an(k), the leading coefficient: a root leaves to / arrives from infinity ("infinity"). These values
+  are always excluded, because the loop's order drops there;
+* Delta_{n-1}(k), the (n-1)th Hurwitz determinant, computed as the resultant of the even and odd
+  parts E(u), O(u) of p(s) = E(s^2) + s O(s^2) (equal to ±Delta_{n-1}): it vanishes when two roots
+  sum to zero (a pair ±jω crossing — "crossing" — or a real pair ±a).
+
+Each irreducible factor over Q gives exact rational roots (linear factors) or certified real roots
+(flint ``complex_roots``; real roots come back with an exactly zero imaginary part) compared by their
+balls, refined until they separate. Every open interval between consecutive candidates is classified
+at an exact rational point inside it with :func:`core.routh.is_hurwitz`. Candidates are never stable,
+so two stable intervals meeting at an isolated marginal value stay two intervals.
+
+Endpoint kind, when several causes coincide at one value: "singular" first; then what happens to the
+roots there: "origin" if a0 vanishes, else "crossing" if a pair sits on the imaginary axis (checked
+exactly at rational values, numerically at 50 digits at irrational ones), else "infinity".
+
+>>> from flint import fmpq_poly
+>>> from core.polynomial import ParametricPolynomial
+>>> r = stable_range(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K"))
+>>> r.to_dict()["exact_intervals"], [(e.kind, e.omega) for e in r.endpoints]
+([['0', '6']], [('origin', None), ('crossing', 1.4142135623730951)])
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy
+from flint import arb, ctx, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
+
+from core.errors import AnalysisError
+from core.polynomial import ParametricPolynomial, poly_text, to_fmpq
+from core.routh import fraction_free_rows, imaginary_axis_roots, integer_coefficients, is_hurwitz, real_roots
+
+__all__ = ["Boundary", "Endpoint", "StableRange", "Margins", "stable_range", "margins", "decay_range",
+           "hurwitz_delta"]
+
+DIGITS = 15  # significant digits shown for irrational endpoints
+
+
+@dataclass(frozen=True)
+class Boundary:
+    """One real candidate value: exact rational, or a root of an irreducible integer polynomial."""
+
+    factor: fmpz_poly
+    ball: arb
+    rational: fmpq | None = None
+
+    @property
+    def value(self) -> float:
+        return float(self.rational) if self.rational is not None else float(self.ball.mid())
+
+    def text(self, name: str) -> str:
+        if self.rational is not None:
+            return str(self.rational)
+        poly = poly_text([fmpq(self.factor[i]) for i in range(self.factor.degree(), -1, -1)], name)
+        return f"root of {poly} near {self.value:.{DIGITS}g}"
+
+
+@dataclass(frozen=True)
+class Endpoint:
+    value: float
+    exact: str
+    kind: str  # "origin" | "crossing" | "infinity" | "singular"
+    omega: float | None = None
+
+    def to_dict(self) -> dict:
+        return {"value": self.value, "exact": self.exact, "kind": self.kind, "omega": self.omega}
+
+
+@dataclass(frozen=True)
+class Margins:
+    """How far a nominal value may move inside its stable interval.
+
+    Factors and their dB (20 log10): ``rise_factor`` = hi/nominal when nominal > 0 and hi is finite;
+    ``fall_factor`` = nominal/lo when nominal > 0 and lo > 0. Otherwise None: an unbounded side, a
+    nominal <= 0, or a lower end at or below 0 (lowering by any factor then never leaves the
+    interval). Absolute distances (hi - nominal, nominal - lo) are given for every bounded side.
+    """
+
+    nominal: float
+    stable: bool
+    low: float | None = None
+    high: float | None = None
+    rise_factor: float | None = None
+    fall_factor: float | None = None
+    rise_db: float | None = None
+    fall_db: float | None = None
+    rise_distance: float | None = None
+    fall_distance: float | None = None
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+@dataclass
+class StableRange:
+    """Union of open intervals (``None`` = unbounded end) where the polynomial is Hurwitz."""
+
+    parameter: str | None
+    intervals: list[tuple[Boundary | None, Boundary | None]]
+    endpoints: list[Endpoint]
+    stable_everywhere: bool
+    never_stable: bool
+    nominal: fmpq | None = None
+    margins: Margins | None = None
+    candidates: list[Boundary] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        name = self.parameter or "k"
+        return {
+            "intervals": [[None if lo is None else lo.value, None if hi is None else hi.value]
+                          for lo, hi in self.intervals],
+            "exact_intervals": [[None if lo is None else lo.text(name), None if hi is None else hi.text(name)]
+                                for lo, hi in self.intervals],
+            "endpoints": [e.to_dict() for e in self.endpoints],
+            "stable_everywhere": self.stable_everywhere,
+            "never_stable": self.never_stable,
+        }
+
+    def contains(self, value) -> bool:
+        """Exact membership test for a rational value."""
+        v = to_fmpq(value)
+        return any((lo is None or _less(lo, v)) and (hi is None or _less_rev(v, hi)) for lo, hi in self.intervals)
+
+
+def _less(b: Boundary, v: fmpq) -> bool:
+    if b.rational is not None:
+        return b.rational < v
+    return _sign_of(b, v) < 0
+
+
+def _less_rev(v: fmpq, b: Boundary) -> bool:
+    if b.rational is not None:
+        return v < b.rational
+    return _sign_of(b, v) > 0
+
+
+def _sign_of(b: Boundary, v: fmpq) -> int:
+    """Sign of (b - v) for an irrational b (never equal to a rational)."""
+    ball, prec = b.ball, 64
+    while ball.contains(arb(v)):
+        prec *= 2
+        ball = next(r for r in real_roots(b.factor, prec) if r.overlaps(b.ball))
+    return 1 if ball > arb(v) else -1
+
+
+def hurwitz_delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
+    """±Delta_{n-1}(k) as Res_u(E, O) for p(s) = E(s^2) + s O(s^2), coefficients highest first.
+
+    >>> hurwitz_delta([fmpq_poly([1]), fmpq_poly([3]), fmpq_poly([2]), fmpq_poly([0, 1])])  # 6 - K
+    (-1)*x + 6
+    """
+    n = len(coeffs) - 1
+    if n < 2:
+        return fmpq_poly([1])
+    mctx = fmpq_mpoly_ctx.get(("u", "k"), "lex")
+    even, odd = {}, {}
+    for i, c in enumerate(coeffs):
+        power = n - i
+        target = even if power % 2 == 0 else odd
+        for j in range(c.degree() + 1):
+            if c[j] != 0:
+                target[(power // 2, j)] = c[j]
+    res = mctx.from_dict(even).resultant(mctx.from_dict(odd), "u")
+    terms = {exps[1]: c for exps, c in res.to_dict().items()}
+    return fmpq_poly([terms.get(j, 0) for j in range(max(terms, default=-1) + 1)])
+
+
+def _delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
+    """Delta_{n-1}: the fraction-free Routh first column when regular, else the resultant."""
+    n = len(coeffs) - 1
+    if n < 2:
+        return fmpq_poly([1])
+    rows = fraction_free_rows(integer_coefficients(coeffs)[0])
+    return fmpq_poly(rows[n - 1][0]) if rows is not None else hurwitz_delta(coeffs)
+
+
+def _irreducible_factors(p: fmpq_poly) -> list[fmpz_poly]:
+    if p.degree() <= 0:
+        return []
+    _, factors = p.numer().factor()
+    out = []
+    for f, _ in factors:
+        if f.leading_coefficient() < 0:
+            f = -f
+        out.append(f)
+    return out
+
+
+def _key(f: fmpz_poly) -> tuple[int, ...]:
+    return tuple(int(c) for c in f.coeffs())
+
+
+def _boundaries(factors: list[fmpz_poly]) -> list[Boundary]:
+    """All real roots of distinct irreducible factors, sorted, with separated balls."""
+    rational = []
+    higher = []
+    for f in factors:
+        if f.degree() == 1:
+            r = -fmpq(f[0], f[1])
+            rational.append(Boundary(f, arb(r), r))
+        else:
+            higher.append(f)
+    prec = 64
+    while True:
+        found = list(rational)
+        for f in higher:
+            found += [Boundary(f, ball) for ball in real_roots(f, prec)]
+        found.sort(key=lambda b: float(b.ball.mid()))
+        if all(not found[i].ball.overlaps(found[i + 1].ball) for i in range(len(found) - 1)):
+            return found
+        prec *= 2
+
+
+def _fmpq_of(x: arb) -> fmpq:
+    man, exp = x.mid().man_exp()
+    return fmpq(int(man)) * fmpq(2) ** int(exp) if exp >= 0 else fmpq(int(man), 2 ** int(-exp))
+
+
+def _simplest_between(x: fmpq | None, y: fmpq | None) -> fmpq:
+    """The rational with the smallest denominator (then magnitude) strictly inside (x, y)."""
+    if x is not None and y is not None and not x < y:
+        raise ValueError("empty interval")
+    if (x is None or x < 0) and (y is None or y > 0):
+        return fmpq(0)
+    if y is not None and y <= 0:
+        return -_simplest_between(-y, None if x is None else -x)
+    n = x.floor()
+    if y is None or n + 1 < y:
+        return fmpq(n + 1)
+    if x == n:
+        return n + 1 / _simplest_between(1 / (y - n), None)
+    return n + 1 / _simplest_between(1 / (y - n), 1 / (x - n))
+
+
+def _test_points(bounds: list[Boundary]) -> list[fmpq]:
+    if not bounds:
+        return [fmpq(0)]
+    pts = [_simplest_between(None, _fmpq_of(bounds[0].ball.lower()))]
+    for a, b in zip(bounds, bounds[1:]):
+        pts.append(_simplest_between(_fmpq_of(a.ball.upper()), _fmpq_of(b.ball.lower())))
+    pts.append(_simplest_between(_fmpq_of(bounds[-1].ball.upper()), None))
+    return pts
+
+
+def stable_range(poly: ParametricPolynomial, nominal=None) -> StableRange:
+    """The exact stable set of the tuning parameter (see the module notes for the method).
+
+    Raises AnalysisError E403 for the zero polynomial.
+    """
+    n = poly.degree
+    if n < 0:
+        raise AnalysisError("E403", "the characteristic polynomial is identically zero")
+    nominal_q = None if nominal is None else to_fmpq(nominal)
+    if all(c.degree() <= 0 for c in poly.coeffs):
+        stable = is_hurwitz(poly.at(), n)
+        out = StableRange(poly.parameter, [(None, None)] if stable else [], [], stable, not stable, nominal_q)
+        return _with_margins(out)
+    content = poly.coeffs[0]
+    for c in poly.coeffs[1:]:
+        content = content.gcd(c)
+    reduced = [c // content for c in poly.coeffs] if content.degree() > 0 else list(poly.coeffs)
+    sources = {"singular": content, "origin": reduced[-1], "infinity": reduced[0],
+               "crossing": _delta(reduced)}
+    owner: dict[tuple[int, ...], set[str]] = {}
+    factors = []
+    for kind, p in sources.items():
+        if p.is_zero():
+            continue
+        for f in _irreducible_factors(p):
+            if _key(f) not in owner:
+                factors.append(f)
+            owner.setdefault(_key(f), set()).add(kind)
+    bounds = _boundaries(factors)
+    reduced_poly = ParametricPolynomial(tuple(reduced), poly.parameter)
+    flags = [is_hurwitz(reduced_poly.at(x), n) for x in _test_points(bounds)]
+    intervals = []
+    ends: list[Boundary] = []
+    for i, stable in enumerate(flags):
+        if not stable:
+            continue
+        lo = bounds[i - 1] if i > 0 else None
+        hi = bounds[i] if i < len(bounds) else None
+        intervals.append((lo, hi))
+        ends += [b for b in (lo, hi) if b is not None and (not ends or ends[-1] is not b)]
+    name = poly.parameter or "k"
+    endpoints = [_endpoint(b, owner[_key(b.factor)], reduced_poly, name) for b in ends]
+    out = StableRange(poly.parameter, intervals, endpoints,
+                      stable_everywhere=intervals == [(None, None)], never_stable=not intervals,
+                      nominal=nominal_q, candidates=bounds)
+    return _with_margins(out)
+
+
+def _with_margins(r: StableRange) -> StableRange:
+    if r.nominal is not None:
+        r.margins = margins(r, r.nominal)
+    return r
+
+
+def _endpoint(b: Boundary, kinds: set[str], poly: ParametricPolynomial, name: str) -> Endpoint:
+    exact = b.text(name)
+    if "singular" in kinds:
+        return Endpoint(b.value, exact, "singular")
+    if "origin" in kinds:
+        return Endpoint(b.value, exact, "origin")
+    drops = "infinity" in kinds
+    if "crossing" in kinds:
+        omega, on_axis = _crossing_omega(b, poly, drops)
+        if on_axis or not drops:
+            return Endpoint(b.value, exact, "crossing", omega)
+    return Endpoint(b.value, exact, "infinity")
+
+
+def _crossing_omega(b: Boundary, poly: ParametricPolynomial, drops: bool) -> tuple[float | None, bool]:
+    """(omega, on_axis): smallest omega > 0 with ±jω a root at the boundary value.
+
+    Exact at rational values; at irrational ones from the roots of the polynomial evaluated at 200
+    bits (the pair nearest the axis; ``on_axis`` when it lies within 1e-6 relative of it).
+    """
+    if b.rational is not None:
+        pairs = [w for w, _ in imaginary_axis_roots(poly.at(b.rational)) if w > 0]
+        return (pairs[0], True) if pairs else (None, False)
+    with ctx.workprec(200):
+        x = next(r for r in real_roots(b.factor, 200) if r.overlaps(b.ball))
+        coeffs = [float(_eval_arb(c, x).mid()) for c in poly.coeffs[1 if drops else 0:]]
+    upper = [r for r in numpy.roots(coeffs) if r.imag > 0]
+    if not upper:
+        return None, False
+    nearest = min(upper, key=lambda r: abs(r.real))
+    return float(nearest.imag), abs(nearest.real) <= 1e-6 * max(1.0, abs(nearest))
+
+
+def _eval_arb(c: fmpq_poly, x: arb) -> arb:
+    acc = arb(0)
+    for i in range(c.degree(), -1, -1):
+        acc = acc * x + arb(c[i])
+    return acc
+
+
+def margins(r: StableRange, nominal) -> Margins:
+    """Margins of ``nominal`` inside its stable interval (all None fields when it is not stable).
+
+    >>> from flint import fmpq_poly
+    >>> from core.polynomial import ParametricPolynomial
+    >>> m = margins(stable_range(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K")), 2)
+    >>> m.rise_factor, round(m.rise_db, 3), m.fall_factor
+    (3.0, 9.542, None)
+    """
+    v = to_fmpq(nominal)
+    for lo, hi in r.intervals:
+        if (lo is None or _less(lo, v)) and (hi is None or _less_rev(v, hi)):
+            break
+    else:
+        return Margins(float(v), False)
+    nom = float(v)
+    low = None if lo is None else lo.value
+    high = None if hi is None else hi.value
+    rise = high / nom if v > 0 and high is not None else None
+    fall = nom / low if v > 0 and low is not None and low > 0 else None
+    return Margins(nom, True, low, high, rise, fall,
+                   None if rise is None else 20 * math.log10(rise),
+                   None if fall is None else 20 * math.log10(fall),
+                   None if high is None else high - nom, None if low is None else nom - low)
+
+
+def decay_range(poly: ParametricPolynomial, sigma, nominal=None) -> StableRange:
+    """Values where every root lies left of Re s = -sigma (``stable_range`` of ``poly.shifted(sigma)``).
+
+    Endpoint kinds then refer to the line Re s = -sigma: "origin" means a real root crosses it at
+    s = -sigma, "crossing" a pair crossing at -sigma ± jω.
+    """
+    return stable_range(poly.shifted(to_fmpq(sigma)), nominal)
