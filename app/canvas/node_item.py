@@ -16,7 +16,7 @@ from core.model import Node
 
 from ..theme import Theme, label_font, math_font
 from .formula import formula_html, is_one
-from .port_item import PortItem
+from .port_item import BRANCH_HIT_RADIUS, HIT_RADIUS, PortItem
 
 GRID = 10.0
 SUM_RADIUS = 15.0
@@ -112,7 +112,7 @@ class NodeItem(QGraphicsItem):
             content_w = max(num.idealWidth(), den.idealWidth() if den else 0)
             content_h = num.size().height() + (den.size().height() + 8 if den else 0)
             w = max(80.0, _round_up(content_w + 28, 2 * GRID))
-            h = max(40.0, _round_up(content_h + BAND + 14, 2 * GRID))
+            h = max(40.0, _round_up(content_h + BAND + 10, 2 * GRID))
             self._body = QRectF(-w / 2, -h / 2, w, h)
             wanted = [(False, 0, QPointF(self._mirror(-w / 2), 0), self._dir(1, 0)),
                       (True, 0, QPointF(self._mirror(w / 2), 0), self._dir(1, 0))]
@@ -123,7 +123,7 @@ class NodeItem(QGraphicsItem):
             self._body = QRectF(-r, -r, 2 * r, 2 * r)
             for i, angle in enumerate(sum_port_angles(len(n.signs))):
                 a = math.radians(angle)
-                px, py = r * math.cos(a), r * math.sin(a)
+                px, py = round(r * math.cos(a), 6), round(r * math.sin(a), 6)
                 direction = (round(-math.cos(a)), round(-math.sin(a))) if angle % 90 == 0 else (0, -1)
                 wanted.append((False, i, QPointF(self._mirror(px), py), self._dir(*direction)))
                 sx, sy = self._sign_offset(angle)
@@ -166,6 +166,10 @@ class NodeItem(QGraphicsItem):
                 port.theme = self.theme
                 self.ports[(out, i)] = port
             port.node_id, port.direction = self.node.id, direction
+            radius = BRANCH_HIT_RADIUS if self.node.kind == "branch" and out else HIT_RADIUS
+            if port.hit_radius != radius:
+                port.prepareGeometryChange()
+                port.hit_radius = radius
             port.setPos(pos)
 
     def _doc(self, text: str) -> QTextDocument:

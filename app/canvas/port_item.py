@@ -7,6 +7,7 @@ from PySide6.QtWidgets import QGraphicsItem
 
 PORT_RADIUS = 4.0
 HIT_RADIUS = 7.0
+BRANCH_HIT_RADIUS = 10.0  # a branch point's dot moves it; the ring around it starts a wire
 
 
 class PortItem(QGraphicsItem):
@@ -25,15 +26,16 @@ class PortItem(QGraphicsItem):
         self.setZValue(5)
         self.setAcceptHoverEvents(True)
         self._hovered = False
+        self.hit_radius = HIT_RADIUS
 
     def boundingRect(self) -> QRectF:
-        r = HIT_RADIUS + 2
+        r = self.hit_radius + 2
         return QRectF(-r, -r, 2 * r, 2 * r)
 
     def shape(self):
         from PySide6.QtGui import QPainterPath
         path = QPainterPath()
-        path.addEllipse(QPointF(0, 0), HIT_RADIUS, HIT_RADIUS)
+        path.addEllipse(QPointF(0, 0), self.hit_radius, self.hit_radius)
         return path
 
     def set_highlight(self, state: str | None) -> None:
@@ -64,8 +66,9 @@ class PortItem(QGraphicsItem):
             painter.drawEllipse(QPointF(0, 0), PORT_RADIUS + 1, PORT_RADIUS + 1)
         elif self._hovered and self.is_output:
             painter.setPen(QPen(theme.rubber_wire, 1.4))
-            painter.setBrush(QBrush(theme.block_fill))
-            painter.drawEllipse(QPointF(0, 0), PORT_RADIUS, PORT_RADIUS)
+            painter.setBrush(QBrush(theme.block_fill) if self.hit_radius <= HIT_RADIUS else Qt.BrushStyle.NoBrush)
+            ring = PORT_RADIUS if self.hit_radius <= HIT_RADIUS else self.hit_radius - 2
+            painter.drawEllipse(QPointF(0, 0), ring, ring)
 
     def key(self) -> tuple[str, bool, int]:
         """(node id, is output, index): identifies the port across rebuilds."""

@@ -43,6 +43,9 @@ BLOCK_DEFAULTS = {
 }
 SUM_SIGNS = {2: "+-", 3: "+-+", 4: "+-++"}
 ID_STEMS = {"input": "r", "output": "y", "sum": "sum", "branch": "b"}
+# offsets tried for a free spot, nearest first; to the right and below before left and above
+_SPIRAL = sorted(((dx * DOT_SPACING, dy * DOT_SPACING) for dx in range(-30, 31) for dy in range(-20, 21)),
+                 key=lambda p: (p[0] ** 2 + p[1] ** 2, p[0] < 0, p[1] < 0))
 
 
 class DiagramScene(QGraphicsScene):
@@ -283,16 +286,11 @@ class DiagramScene(QGraphicsScene):
         cx, cy = self.snap(centre.x()), self.snap(centre.y())
         if exact:
             return cx, cy
-        step = 2 * DOT_SPACING
-        for ring in range(0, 25):
-            for dx in range(-ring, ring + 1):
-                for dy in range(-ring, ring + 1):
-                    if max(abs(dx), abs(dy)) != ring:
-                        continue
-                    x, y = cx + dx * step, cy + dy * step
-                    taken = any(isinstance(i, NodeItem) for i in self.items(area.translated(x, y)))
-                    if not taken:
-                        return x, y
+        for dx, dy in _SPIRAL:
+            x, y = cx + dx, cy + dy
+            nearby = self.items(area.translated(x, y), Qt.ItemSelectionMode.IntersectsItemBoundingRect)
+            if not any(isinstance(i, NodeItem) for i in nearby):
+                return x, y
         return cx, cy
 
     def delete_selection(self) -> None:

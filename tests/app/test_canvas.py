@@ -1,0 +1,351 @@
+"""The canvas with real mouse and keyboard input: every gesture becomes one undo step, refused
+gestures change nothing, and the scene mirrors the model after every step (reference: the model
+itself, via scene.check_consistency(), and the project file serialisation project_to_dict)."""
+from __future__ import annotations
+
+import os
+
+os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+
+import pytest  # noqa: E402
+from PySide6.QtCore import QMimeData, QPoint, QPointF, Qt  # noqa: E402
+from PySide6.QtGui import QColor, QDragEnterEvent, QDragMoveEvent, QDropEvent, QUndoStack  # noqa: E402
+from PySide6.QtWidgets import QApplication  # noqa: E402
+
+from app.bridge import ModelSignals  # noqa: E402
+from app.canvas import NODE_MIME, DiagramScene, DiagramView  # noqa: E402
+from app.canvas.routing import route  # noqa: E402
+from app.palette import Palette  # noqa: E402
+from app.theme import ROLE_COLOURS, Theme  # noqa: E402
+from core.model import Diagram, Node, Parameter  # noqa: E402
+from core.project_file import project_to_dict  # noqa: E402
+
+
+def feedback_loop() -> Diagram:
+    """Invented demo loop: unity-gain reference, controller, plant, sensor on a flipped feedback path."""
+    d = Diagram("canvas test")
+    d.set_parameter(Parameter("K", 2.0, 0.0, 20.0))
+    for n in [Node("r", "input", 0, 0), Node("e", "sum", 80, 0, signs="+-"),
+              Node("C", "block", 200, 0, role="controller", num="K*(s + 2)", den="s"),
+              Node("P", "block", 360, 0, role="plant", num="1", den="s^2 + 3s + 2"),
+              Node("b", "branch", 460, 0), Node("y", "output", 540, 0),
+              Node("H", "block", 280, 120, role="sensor", num="1", den="0.05s + 1", flipped=True)]:
+        d.add_node(n)
+    for s, t, p in [("r", "e", 0), ("e", "C", 0), ("C", "P", 0), ("P", "b", 0), ("b", "y", 0),
+                    ("b", "H", 0), ("H", "e", 1)]:
+        d.connect(s, t, p)
+    d.set_analysis(input="r", output="y")
+    return d
+
+
+class Canvas:
+    """A diagram shown in a real view, with its undo stack and the hints the scene gave."""
+
+    def __init__(self, qtbot, diagram: Diagram, theme: Theme | None = None):
+        self.qtbot, self.diagram = qtbot, diagram
+        self.stack = QUndoStack()
+        self.signals = ModelSignals(diagram)
+        self.scene = DiagramScene(diagram, self.signals, self.stack, theme=theme or Theme.light())
+        self.view = DiagramView(self.scene)
+        self.view.resize(900, 500)
+        qtbot.addWidget(self.view)
+        self.view.show()
+        qtbot.waitExposed(self.view)
+        self.view.fit_all(max_zoom=1.0)
+        self.hints: list[str] = []
+        self.scene.statusHint.connect(self.hints.append)
+
+    def at(self, scene_point) -> QPoint:
+        p = scene_point if isinstance(scene_point, QPointF) else QPointF(*scene_point)
+        return self.view.mapFromScene(p)
+
+    def drag(self, start, end, steps: int = 6) -> None:
+        """A real left-button drag on the viewport between two scene points."""
+        vp = self.view.viewport()
+        a, b = self.at(start), self.at(end)
+        self.qtbot.mousePress(vp, Qt.MouseButton.LeftButton, pos=a)
+        for i in range(1, steps + 1):
+            self.qtbot.mouseMove(vp, a + (b - a) * i / steps)
+        self.qtbot.mouseRelease(vp, Qt.MouseButton.LeftButton, pos=b)
+
+    def click(self, point, modifier=Qt.KeyboardModifier.NoModifier) -> None:
+        self.qtbot.mouseClick(self.view.viewport(), Qt.MouseButton.LeftButton, modifier, self.at(point))
+
+    def key(self, key, modifier=Qt.KeyboardModifier.NoModifier) -> None:
+        self.qtbot.keyClick(self.view.viewport(), key, modifier)
+
+    def port(self, node_id: str, output: bool, index: int = 0) -> QPointF:
+        item = self.scene.node_items[node_id]
+        return (item.output_port() if output else item.input_port(index)).scenePos()
+
+    def consistent(self) -> bool:
+        problems = self.scene.check_consistency()
+        assert problems == []
+        return True
+
+
+@pytest.fixture
+def canvas(qtbot):
+    return Canvas(qtbot, feedback_loop())
+
+
+@pytest.fixture
+def open_pair(qtbot):
+    d = Diagram("pair")
+    d.add_node(Node("r", "input", 0, 0))
+    d.add_node(Node("G", "block", 200, 60, role="plant", num="1", den="s + 1"))
+    d.add_node(Node("sum", "sum", 200, 200, signs="+-"))
+    return Canvas(qtbot, d)
+
+
+def test_scene_builds_one_item_per_node_and_wire(canvas):
+    assert set(canvas.scene.node_items) == set(canvas.diagram.nodes)
+    assert len(canvas.scene.wire_items) == len(canvas.diagram.wires) == 7
+    canvas.consistent()
+
+
+def test_wires_are_orthogonal_and_join_their_ports(canvas):
+    for wire in canvas.diagram.wires:
+        points = canvas.scene.wire_items[wire.key].points
+        assert points[0] == canvas.port(wire.source, True).toTuple()
+        assert points[-1] == canvas.port(wire.target, False, wire.port).toTuple()
+        for (ax, ay), (bx, by) in zip(points, points[1:]):
+            assert ax == bx or ay == by, f"{wire.key} has a slanted segment"
+
+
+def test_flipped_block_has_its_input_on_the_right(canvas):
+    h = canvas.diagram.node("H")
+    assert canvas.port("H", False).x() > h.x > canvas.port("H", True).x()
+    assert canvas.port("C", False).x() < canvas.diagram.node("C").x < canvas.port("C", True).x()
+
+
+def test_drawing_a_wire_with_a_real_mouse_drag(open_pair):
+    c = open_pair
+    start = c.stack.count()
+    c.drag(c.port("r", True), c.port("G", False))
+    assert [w.key for w in c.diagram.wires] == ["r->G:0"]
+    assert c.stack.count() == start + 1
+    c.consistent()
+    c.drag(c.port("G", True), c.port("sum", False, 1) + QPointF(3, 2))  # near the port is enough
+    assert [w.key for w in c.diagram.wires] == ["r->G:0", "G->sum:1"]
+    c.consistent()
+    c.stack.undo()
+    c.stack.undo()
+    assert c.diagram.wires == [] and c.consistent()
+
+
+def test_rubber_wire_lights_up_free_input_ports_only(canvas):
+    d = canvas.diagram
+    d.disconnect("b->H:0")
+    vp = canvas.view.viewport()
+    ring = canvas.port("b", True) + QPointF(7, 0)  # the branch point's dot moves it; the ring draws wires
+    canvas.qtbot.mousePress(vp, Qt.MouseButton.LeftButton, pos=canvas.at(ring))
+    canvas.qtbot.mouseMove(vp, canvas.at(canvas.port("H", False)))
+    assert canvas.scene.node_items["H"].input_port(0).highlight == "hover"
+    assert canvas.scene.node_items["C"].input_port(0).highlight is None  # already fed by e
+    canvas.qtbot.mouseRelease(vp, Qt.MouseButton.LeftButton, pos=canvas.at(canvas.port("H", False)))
+    assert d.wire_into("H", 0) is not None
+    assert all(p.highlight is None for p in canvas.scene.all_input_ports())
+
+
+def test_refused_connection_gives_a_hint_and_changes_nothing(canvas):
+    before, count = project_to_dict(canvas.diagram), canvas.stack.count()
+    canvas.drag(canvas.port("C", True), canvas.port("e", False, 1))
+    assert canvas.hints and "input 2 of 'e' already has a wire" in canvas.hints[-1].lower()
+    canvas.drag(canvas.port("C", True), QPointF(200, 300))  # empty space
+    assert "input port" in canvas.hints[-1]
+    assert project_to_dict(canvas.diagram) == before and canvas.stack.count() == count
+    canvas.consistent()
+
+
+def test_deleting_a_node_takes_its_wires_and_undo_restores_them_in_place(canvas):
+    keys = [w.key for w in canvas.diagram.wires]
+    canvas.click((80, 0))
+    assert canvas.scene.selected_node_ids() == ["e"]
+    canvas.key(Qt.Key.Key_Delete)
+    assert "e" not in canvas.diagram.nodes and len(canvas.diagram.wires) == 4
+    canvas.consistent()
+    canvas.stack.undo()
+    assert [w.key for w in canvas.diagram.wires] == keys
+    canvas.consistent()
+
+
+def test_deleting_the_analysed_output_clears_it_and_undo_sets_it_back(canvas):
+    canvas.scene.select_node("y")
+    canvas.scene.delete_selection()
+    assert canvas.diagram.analysis.output is None
+    canvas.stack.undo()
+    assert canvas.diagram.analysis.output == "y"
+
+
+def test_moving_nodes_by_drag_is_one_snapped_undo_step(canvas):
+    canvas.click((200, 0))
+    canvas.click((360, 0), Qt.KeyboardModifier.ControlModifier)
+    assert canvas.scene.selected_node_ids() == ["C", "P"]
+    count = canvas.stack.count()
+    canvas.drag((200, 0), (243, 57), steps=8)
+    assert canvas.stack.count() == count + 1
+    assert (canvas.diagram.node("C").x, canvas.diagram.node("C").y) == (240, 60)  # snapped to 10
+    assert (canvas.diagram.node("P").x, canvas.diagram.node("P").y) == (400, 60)
+    canvas.consistent()
+    canvas.stack.undo()
+    assert (canvas.diagram.node("C").x, canvas.diagram.node("P").x) == (200, 360)
+    canvas.consistent()
+
+
+def test_arrow_key_nudges_merge_into_one_step(canvas):
+    canvas.click((200, 0))
+    count = canvas.stack.count()
+    for _ in range(3):
+        canvas.key(Qt.Key.Key_Right)
+    canvas.key(Qt.Key.Key_Down, Qt.KeyboardModifier.ShiftModifier)
+    c = canvas.diagram.node("C")
+    assert (c.x, c.y) == (230, 100)
+    assert canvas.stack.count() == count + 1
+    canvas.consistent()
+    canvas.stack.undo()
+    assert (canvas.diagram.node("C").x, canvas.diagram.node("C").y) == (200, 0)
+
+
+def test_copy_and_paste_make_new_ids_and_copy_internal_wires(canvas):
+    canvas.scene.select_node("C")
+    canvas.scene.node_items["P"].setSelected(True)
+    count = canvas.stack.count()
+    canvas.key(Qt.Key.Key_C, Qt.KeyboardModifier.ControlModifier)
+    canvas.key(Qt.Key.Key_V, Qt.KeyboardModifier.ControlModifier)
+    assert canvas.stack.count() == count + 1
+    assert {"C2", "P2"} <= set(canvas.diagram.nodes)
+    assert canvas.diagram.wires[-1].key == "C2->P2:0"  # the wire between the copies, and no other
+    assert sum(1 for w in canvas.diagram.wires if "C2" in (w.source, w.target)) == 1
+    assert canvas.diagram.node("C2").num == "K*(s + 2)"
+    assert canvas.diagram.node("C2").x == canvas.diagram.node("C").x + 30
+    assert canvas.scene.selected_node_ids() == ["C2", "P2"]
+    canvas.consistent()
+    canvas.stack.undo()
+    assert "C2" not in canvas.diagram.nodes and canvas.consistent()
+
+
+def test_clicking_a_sign_flips_it(canvas):
+    item = canvas.scene.node_items["e"]
+    spot = item.mapToScene(item._sign_spots[1])
+    canvas.click(spot)
+    assert canvas.diagram.node("e").signs == "++"
+    canvas.consistent()
+    canvas.stack.undo()
+    assert canvas.diagram.node("e").signs == "+-"
+
+
+def test_key_f_flips_the_selected_block(canvas):
+    canvas.click((360, 0))
+    canvas.key(Qt.Key.Key_F)
+    assert canvas.diagram.node("P").flipped is True
+    assert canvas.port("P", False).x() > canvas.diagram.node("P").x
+    canvas.consistent()
+
+
+def test_dragging_a_wire_segment_adds_bends(canvas):
+    wire = canvas.scene.wire_items["H->e:1"]
+    runs = [(a, b) for a, b in zip(wire.points, wire.points[1:]) if a[1] == b[1]]
+    (ax, ay), (bx, by) = max(runs, key=lambda r: abs(r[0][0] - r[1][0]))  # the long run under the loop
+    middle = ((ax + bx) / 2, ay)
+    count = canvas.stack.count()
+    canvas.drag(middle, (middle[0], ay + 42))
+    bends = canvas.diagram.wires[canvas.diagram.wire_index("H->e:1")].bends
+    assert bends and all(y == ay + 40 for _, y in bends if y != ay)
+    assert canvas.stack.count() == count + 1
+    canvas.consistent()
+
+
+def test_palette_places_nodes_and_first_terminals_become_analysis_ends(qtbot):
+    c = Canvas(qtbot, Diagram("empty"))
+    palette = Palette(c.scene)
+    qtbot.addWidget(palette)
+    for key in [("input", ""), ("sum", "3"), ("block", "plant"), ("block", "plant"), ("output", ""),
+                ("branch", "")]:
+        qtbot.mouseClick(palette.buttons[key], Qt.MouseButton.LeftButton)
+    d = c.diagram
+    assert list(d.nodes) == ["r", "sum", "P", "P2", "y", "b"]
+    assert d.node("sum").signs == "+-+" and d.node("P").den == "s + 1"
+    assert (d.analysis.input, d.analysis.output) == ("r", "y")
+    rects = [c.scene.node_items[n].sceneBoundingRect() for n in d.nodes]
+    assert not any(a.intersects(b) for i, a in enumerate(rects) for b in rects[i + 1:])
+    assert all(n.x % 10 == 0 and n.y % 10 == 0 for n in d.nodes.values())
+    assert c.stack.count() == 6
+    c.stack.undo()
+    c.stack.undo()  # the output and its analysis setting go in one step
+    assert "y" not in d.nodes and d.analysis.output is None
+    c.consistent()
+
+
+@pytest.mark.filterwarnings("ignore::DeprecationWarning")  # PySide marks the QPoint drag-event constructors
+def test_palette_drop_places_at_the_drop_point(qtbot):
+    c = Canvas(qtbot, feedback_loop())
+    mime = QMimeData()
+    mime.setData(NODE_MIME, b"block:actuator")
+    target = c.at((120, 200))
+    vp = c.view.viewport()
+    args = (Qt.DropAction.CopyAction, mime, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier)
+    for event in (QDragEnterEvent(target, *args), QDragMoveEvent(target, *args), QDropEvent(QPointF(target), *args)):
+        QApplication.sendEvent(vp, event)
+    a = c.diagram.node("A")
+    assert a.role == "actuator" and abs(a.x - 120) <= 10 and abs(a.y - 200) <= 10
+    c.consistent()
+
+
+def test_undo_everything_then_redo_everything(canvas):
+    d, scene = canvas.diagram, canvas.scene
+    start = project_to_dict(d)
+    d_steps = [
+        lambda: canvas.drag((200, 0), (200, -40)),
+        lambda: canvas.key(Qt.Key.Key_Left),
+        lambda: canvas.key(Qt.Key.Key_F),
+        lambda: canvas.scene.place_node("block", "gain"),
+        lambda: canvas.drag(canvas.port("G", True), QPointF(600, 300)),  # refused: nothing happens
+        lambda: canvas.click(canvas.scene.node_items["e"].mapToScene(canvas.scene.node_items["e"]._sign_spots[0])),
+        lambda: (scene.select_node("P"), canvas.key(Qt.Key.Key_Delete)),
+        lambda: (scene.select_node("b"), scene.copy_selection(), scene.paste()),
+    ]
+    for step in d_steps:
+        step()
+        canvas.consistent()
+    end = project_to_dict(d)
+    assert end != start
+    while canvas.stack.canUndo():
+        canvas.stack.undo()
+        canvas.consistent()
+    assert project_to_dict(d) == start
+    while canvas.stack.canRedo():
+        canvas.stack.redo()
+        canvas.consistent()
+    assert project_to_dict(d) == end
+
+
+def test_zoom_keys_and_fit(canvas):
+    z = canvas.view.zoom()
+    canvas.key(Qt.Key.Key_Plus)
+    assert canvas.view.zoom() == pytest.approx(z * 1.2)
+    canvas.key(Qt.Key.Key_Minus)
+    assert canvas.view.zoom() == pytest.approx(z)
+    canvas.view.fit_all()
+    visible = canvas.view.mapToScene(canvas.view.viewport().rect()).boundingRect()
+    for item in canvas.scene.node_items.values():
+        assert visible.contains(item.sceneBoundingRect())
+
+
+def _has_colour(image, colour: QColor, tolerance: int = 12) -> bool:
+    for y in range(0, image.height(), 2):
+        for x in range(0, image.width(), 2):
+            c = image.pixelColor(x, y)
+            if abs(c.red() - colour.red()) + abs(c.green() - colour.green()) + abs(c.blue() - colour.blue()) < tolerance:
+                return True
+    return False
+
+
+@pytest.mark.parametrize("theme", [Theme.light(), Theme.dark()], ids=["light", "dark"])
+def test_rendering_shows_role_bands_on_the_theme_canvas(qtbot, tmp_path, theme):
+    c = Canvas(qtbot, feedback_loop(), theme)
+    image = c.view.grab().toImage()
+    image.save(str(tmp_path / "canvas.png"))
+    assert image.pixelColor(3, 3) == theme.canvas
+    for role in ("controller", "plant", "sensor"):
+        assert _has_colour(image, QColor(ROLE_COLOURS[role])), role
