@@ -31,7 +31,7 @@ def row_of(panel, name: str) -> int:
 
 
 def test_rows_and_missing_value_flag(setup):
-    d, stack, panel = setup
+    _d, _stack, panel = setup
     assert panel.names() == ["K", "T"]
     missing = panel.table.item(row_of(panel, "T"), 0)
     assert "no value" in missing.text()
@@ -78,7 +78,7 @@ def test_tuning_choice(qtbot, setup):
 
 
 def test_decay_requirement(qtbot, setup):
-    d, stack, panel = setup
+    d, _stack, panel = setup
     panel.decay_mode.setCurrentIndex(panel.decay_mode.findData("settling"))
     panel.decay_mode.activated.emit(panel.decay_mode.currentIndex())
     assert d.analysis.decay_mode == "settling"
