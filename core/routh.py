@@ -26,8 +26,19 @@ from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz, fmpz_poly
 
 from core.polynomial import ParametricPolynomial, mpoly_text, poly_text
 
-__all__ = ["fraction_free_rows", "integer_coefficients", "RationalFunction", "RouthArray", "SpecialCase", "RootCounts", "routh_array", "routh_counts",
-           "is_hurwitz", "imaginary_axis_roots", "real_roots"]
+__all__ = [
+    "RationalFunction",
+    "RootCounts",
+    "RouthArray",
+    "SpecialCase",
+    "fraction_free_rows",
+    "imaginary_axis_roots",
+    "integer_coefficients",
+    "is_hurwitz",
+    "real_roots",
+    "routh_array",
+    "routh_counts",
+]
 
 EPS_NAME = "eps"
 
@@ -35,7 +46,7 @@ EPS_NAME = "eps"
 class RationalFunction:
     """num/den over ``fmpq_poly`` or ``fmpq_mpoly``, reduced by gcd, denominator monic."""
 
-    __slots__ = ("num", "den")
+    __slots__ = ("den", "num")
 
     def __init__(self, num, den=None, reduced: bool = False):
         if den is None:
@@ -276,8 +287,9 @@ def _build(poly: ParametricPolynomial, constant: bool, eps_mode: bool, value) ->
         if i >= 2:
             above, prev = rows[i - 2], rows[i - 1]
             a, b = prev[0], above[0]
-            get = lambda r, j: r[j] if j < len(r) else zero  # noqa: E731
-            rows.append([(a * get(above, j + 1) - b * get(prev, j + 1)) / a for j in range(width[i])])
+            above = above + [zero] * (width[i] + 1 - len(above))
+            prev = prev + [zero] * (width[i] + 1 - len(prev))
+            rows.append([(a * above[j + 1] - b * prev[j + 1]) / a for j in range(width[i])])
         row = rows[i]
         if all(e.is_zero() for e in row):
             m = powers[i - 1]

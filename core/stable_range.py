@@ -31,6 +31,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from itertools import pairwise
 
 import numpy
 from flint import arb, ctx, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
@@ -39,8 +40,16 @@ from core.errors import AnalysisError
 from core.polynomial import ParametricPolynomial, poly_text, to_fmpq
 from core.routh import fraction_free_rows, imaginary_axis_roots, integer_coefficients, is_hurwitz, real_roots
 
-__all__ = ["Boundary", "Endpoint", "StableRange", "Margins", "stable_range", "margins", "decay_range",
-           "hurwitz_delta"]
+__all__ = [
+    "Boundary",
+    "Endpoint",
+    "Margins",
+    "StableRange",
+    "decay_range",
+    "hurwitz_delta",
+    "margins",
+    "stable_range",
+]
 
 DIGITS = 15  # significant digits shown for irrational endpoints
 
@@ -245,7 +254,7 @@ def _test_points(bounds: list[Boundary]) -> list[fmpq]:
     if not bounds:
         return [fmpq(0)]
     pts = [_simplest_between(None, _fmpq_of(bounds[0].ball.lower()))]
-    for a, b in zip(bounds, bounds[1:]):
+    for a, b in pairwise(bounds):
         pts.append(_simplest_between(_fmpq_of(a.ball.upper()), _fmpq_of(b.ball.lower())))
     pts.append(_simplest_between(_fmpq_of(bounds[-1].ball.upper()), None))
     return pts

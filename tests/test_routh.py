@@ -9,8 +9,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from core.polynomial import ParametricPolynomial
-from core.routh import (RationalFunction, imaginary_axis_roots, is_hurwitz, routh_array, routh_counts,
-                        _build)
+from core.routh import RationalFunction, _build, imaginary_axis_roots, is_hurwitz, routh_array, routh_counts
 
 K = fmpq_poly([0, 1])
 
