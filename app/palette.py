@@ -71,7 +71,7 @@ class PaletteButton(QToolButton):
         self.clicked.connect(lambda: self.placeRequested.emit(self.kind, self.role))
 
     def mime_payload(self) -> bytes:
-        return f"{self.kind}:{self.role}".encode("utf-8")
+        return f"{self.kind}:{self.role}".encode()
 
     def mousePressEvent(self, event) -> None:
         if event.button() == Qt.MouseButton.LeftButton:

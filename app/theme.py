@@ -43,13 +43,13 @@ class Theme:
     rubber_wire: QColor
 
     @staticmethod
-    def light() -> "Theme":
+    def light() -> Theme:
         return Theme(False, QColor("#f7f8fa"), QColor("#c9ced6"), QColor("#ffffff"), QColor("#2b3038"),
                      QColor("#1b1f24"), QColor("#5d6470"), QColor("#4a4f57"), QColor(40, 120, 230, 200),
                      QColor("#2e9e5b"), QColor("#1d7f45"), QColor("#2878e6"))
 
     @staticmethod
-    def dark() -> "Theme":
+    def dark() -> Theme:
         return Theme(True, QColor("#1e2126"), QColor("#3a3f47"), QColor("#2a2e35"), QColor("#c8ccd2"),
                      QColor("#e8eaed"), QColor("#9aa1ab"), QColor("#b4b9c0"), QColor(90, 160, 255, 220),
                      QColor("#4cc47e"), QColor("#7be0a4"), QColor("#5aa0ff"))

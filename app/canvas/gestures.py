@@ -23,7 +23,7 @@ if TYPE_CHECKING:
 class NewWireGesture:
     """Drag from an output port: a rubber wire follows the mouse; free input ports light up."""
 
-    def __init__(self, scene: "DiagramScene", source: PortItem):
+    def __init__(self, scene: DiagramScene, source: PortItem):
         self.scene, self.source = scene, source
         self.rubber = WireItem("<new wire>", scene.theme)
         self.rubber.preview = True
@@ -69,7 +69,7 @@ class NewWireGesture:
 class MoveGesture:
     """Drag selected nodes: items follow the mouse (snapped); one move command on release."""
 
-    def __init__(self, scene: "DiagramScene", grabbed: str, pos: QPointF):
+    def __init__(self, scene: DiagramScene, grabbed: str, pos: QPointF):
         self.scene, self.grabbed, self.press = scene, grabbed, QPointF(pos)
         ids = scene.selected_node_ids() or [grabbed]
         self.old = {i: (scene.diagram.node(i).x, scene.diagram.node(i).y) for i in ids}
@@ -101,10 +101,10 @@ class MoveGesture:
 class BendGesture:
     """Drag one segment of a wire sideways; on release the new corners become the wire's bends."""
 
-    def __init__(self, scene: "DiagramScene", wire: WireItem, segment: int, pos: QPointF):
+    def __init__(self, scene: DiagramScene, wire: WireItem, segment: int, pos: QPointF):
         self.scene, self.wire, self.segment, self.press = scene, wire, segment, QPointF(pos)
         self.original = list(wire.points)
-        (ax, ay), (bx, by) = self.original[segment], self.original[segment + 1]
+        (_, ay), (_, by) = self.original[segment], self.original[segment + 1]
         self.horizontal = abs(ay - by) < 1e-9
         self.points = self.original
 
@@ -131,7 +131,7 @@ class BendGesture:
 class PanGesture:
     """Middle-button or Space+drag: scroll the view with the mouse."""
 
-    def __init__(self, view: "DiagramView", pos: QPoint):
+    def __init__(self, view: DiagramView, pos: QPoint):
         self.view, self.last = view, QPoint(pos)
 
     def move(self, pos: QPoint) -> None:

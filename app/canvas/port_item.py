@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QBrush, QPainter, QPen
+from PySide6.QtGui import QBrush, QColor, QPainter, QPen
 from PySide6.QtWidgets import QGraphicsItem
 
 PORT_RADIUS = 4.0
@@ -57,8 +57,10 @@ class PortItem(QGraphicsItem):
             return
         painter.setRenderHint(QPainter.RenderHint.Antialiasing)
         if self.highlight == "hover":
-            painter.setPen(QPen(theme.port_hover, 2))
-            painter.setBrush(QBrush(theme.port_ok.lighter(160)))
+            fill = QColor(theme.port_ok)
+            fill.setAlpha(70)
+            painter.setPen(QPen(theme.port_hover, 1.8))
+            painter.setBrush(QBrush(fill))
             painter.drawEllipse(QPointF(0, 0), PORT_RADIUS + 2.5, PORT_RADIUS + 2.5)
         elif self.highlight == "candidate":
             painter.setPen(QPen(theme.port_ok, 1.4))

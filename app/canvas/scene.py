@@ -18,8 +18,19 @@ from core.errors import LoopwrightError
 from core.model import Diagram, Node, Wire
 
 from ..bridge import ModelSignals
-from ..commands import (AddNodeCommand, ConnectCommand, DisconnectCommand, EditNodeCommand, Macro,
-                        ModelCommand, MoveNodesCommand, RemoveNodeCommand, SetAnalysisCommand, SetBendsCommand, push)
+from ..commands import (
+    AddNodeCommand,
+    ConnectCommand,
+    DisconnectCommand,
+    EditNodeCommand,
+    Macro,
+    ModelCommand,
+    MoveNodesCommand,
+    RemoveNodeCommand,
+    SetAnalysisCommand,
+    SetBendsCommand,
+    push,
+)
 from ..theme import Theme, current_theme
 from .gestures import BendGesture, MoveGesture, NewWireGesture
 from .node_item import GRID, NodeItem

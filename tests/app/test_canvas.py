@@ -3,22 +3,19 @@ gestures change nothing, and the scene mirrors the model after every step (refer
 itself, via scene.check_consistency(), and the project file serialisation project_to_dict)."""
 from __future__ import annotations
 
-import os
+from itertools import pairwise
 
-os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+import pytest
+from PySide6.QtCore import QMimeData, QPoint, QPointF, Qt
+from PySide6.QtGui import QColor, QDragEnterEvent, QDragMoveEvent, QDropEvent, QUndoStack, QWheelEvent
+from PySide6.QtWidgets import QApplication
 
-import pytest  # noqa: E402
-from PySide6.QtCore import QMimeData, QPoint, QPointF, Qt  # noqa: E402
-from PySide6.QtGui import QColor, QDragEnterEvent, QDragMoveEvent, QDropEvent, QUndoStack  # noqa: E402
-from PySide6.QtWidgets import QApplication  # noqa: E402
-
-from app.bridge import ModelSignals  # noqa: E402
-from app.canvas import NODE_MIME, DiagramScene, DiagramView  # noqa: E402
-from app.canvas.routing import route  # noqa: E402
-from app.palette import Palette  # noqa: E402
-from app.theme import ROLE_COLOURS, Theme  # noqa: E402
-from core.model import Diagram, Node, Parameter  # noqa: E402
-from core.project_file import project_to_dict  # noqa: E402
+from app.bridge import ModelSignals
+from app.canvas import NODE_MIME, DiagramScene, DiagramView
+from app.palette import Palette
+from app.theme import ROLE_COLOURS, Theme
+from core.model import Diagram, Node, Parameter
+from core.project_file import project_to_dict
 
 
 def feedback_loop() -> Diagram:
@@ -109,7 +106,7 @@ def test_wires_are_orthogonal_and_join_their_ports(canvas):
         points = canvas.scene.wire_items[wire.key].points
         assert points[0] == canvas.port(wire.source, True).toTuple()
         assert points[-1] == canvas.port(wire.target, False, wire.port).toTuple()
-        for (ax, ay), (bx, by) in zip(points, points[1:]):
+        for (ax, ay), (bx, by) in pairwise(points):
             assert ax == bx or ay == by, f"{wire.key} has a slanted segment"
 
 
@@ -246,7 +243,7 @@ def test_key_f_flips_the_selected_block(canvas):
 def test_dragging_a_wire_segment_adds_bends(canvas):
     wire = canvas.scene.wire_items["H->e:1"]
     runs = [(a, b) for a, b in zip(wire.points, wire.points[1:]) if a[1] == b[1]]
-    (ax, ay), (bx, by) = max(runs, key=lambda r: abs(r[0][0] - r[1][0]))  # the long run under the loop
+    (ax, ay), (bx, _) = max(runs, key=lambda r: abs(r[0][0] - r[1][0]))  # the long run under the loop
     middle = ((ax + bx) / 2, ay)
     count = canvas.stack.count()
     canvas.drag(middle, (middle[0], ay + 42))
@@ -330,6 +327,22 @@ def test_zoom_keys_and_fit(canvas):
     visible = canvas.view.mapToScene(canvas.view.viewport().rect()).boundingRect()
     for item in canvas.scene.node_items.values():
         assert visible.contains(item.sceneBoundingRect())
+
+
+def test_middle_button_pans_and_ctrl_wheel_zooms(canvas):
+    vp = canvas.view.viewport()
+    h, v = canvas.view.horizontalScrollBar(), canvas.view.verticalScrollBar()
+    before = (h.value(), v.value())
+    canvas.qtbot.mousePress(vp, Qt.MouseButton.MiddleButton, pos=QPoint(400, 250))
+    canvas.qtbot.mouseMove(vp, QPoint(340, 210))
+    canvas.qtbot.mouseRelease(vp, Qt.MouseButton.MiddleButton, pos=QPoint(340, 210))
+    assert (h.value(), v.value()) == (before[0] + 60, before[1] + 40)
+    assert canvas.stack.count() == 0  # panning is not an edit
+    z = canvas.view.zoom()
+    wheel = QWheelEvent(QPointF(400, 250), QPointF(vp.mapToGlobal(QPoint(400, 250))), QPoint(0, 0), QPoint(0, 120),
+                        Qt.MouseButton.NoButton, Qt.KeyboardModifier.ControlModifier, Qt.ScrollPhase.NoScrollPhase, False)
+    QApplication.sendEvent(vp, wheel)
+    assert canvas.view.zoom() == pytest.approx(z * 1.2)
 
 
 def _has_colour(image, colour: QColor, tolerance: int = 12) -> bool:

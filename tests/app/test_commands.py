@@ -3,10 +3,6 @@ from (reference: the project file's own serialisation, core.project_file.project
 refused edit changes neither the model nor the undo stack."""
 from __future__ import annotations
 
-import os
-
-os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-
 import pytest
 from PySide6.QtGui import QUndoStack
 
