@@ -179,7 +179,7 @@ def set_nominal(diagram: Diagram, undo_stack, name: str, value: float) -> None:
         undo_stack.push(SetParameterCommand(diagram, new))
 
 
-def _work(relay: "_Relay", project: dict, generation: int) -> None:
+def _work(relay: _Relay, project: dict, generation: int) -> None:
     result = analyse_snapshot(project, generation)
     try:
         relay.finished.emit(result)

@@ -3,12 +3,12 @@
 """
 from __future__ import annotations
 
-from app.panels.polynomial_panel import PolynomialPanel
 from app.panels.pole_map import PoleMap
+from app.panels.polynomial_panel import PolynomialPanel
 from app.panels.range_panel import RangePanel
 from app.panels.routh_panel import RouthPanel
 
-__all__ = ["PolynomialPanel", "RouthPanel", "RangePanel", "PoleMap", "attach"]
+__all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach"]
 
 
 def attach(panel, controller) -> None:

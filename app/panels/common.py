@@ -3,16 +3,17 @@
 >>> math_html("3*s^2 + 1/2*K*s - 4")
 '3s<sup>2</sup> + 1/2·K·s − 4'
 >>> number(6.000000000001), number(-0.25), number(1e-9)
-('6', '−0.25', '1e-09')
+('6', '−0.25', '1e−09')
 """
 from __future__ import annotations
 
 import html
 import re
+from functools import lru_cache
 
 from PySide6.QtCore import Qt
 from PySide6.QtGui import QColor
-from PySide6.QtWidgets import QLabel, QWidget
+from PySide6.QtWidgets import QLabel, QSizePolicy, QWidget
 
 from app.theme import figure_font, math_font, system_is_dark
 
@@ -61,8 +62,8 @@ def colour(name: str) -> QColor:
     return QColor((night if dark() else light)[name])
 
 
-def number_css() -> str:
-    """CSS for rich text: class ``num`` in the figure font, class ``math`` in the math font."""
+@lru_cache(maxsize=2)
+def _css(is_dark: bool) -> str:
     fig, mth = figure_font(), math_font()
     return (f".num {{ font-family: '{fig.family()}', monospace; }} "
             f".math {{ font-family: '{mth.family()}', serif; font-size: {mth.pointSizeF():g}pt; }} "
@@ -70,6 +71,18 @@ def number_css() -> str:
             f".warn {{ color: {colour('warning').name()}; }} "
             f".bad {{ color: {colour('unstable').name()}; font-weight: bold; }} "
             f".good {{ color: {colour('stable').name()}; font-weight: bold; }}")
+
+
+def number_css() -> str:
+    """CSS for rich text: class ``num`` in the figure font, class ``math`` in the math font."""
+    return _css(dark())
+
+
+def steady_label(label: QLabel) -> QLabel:
+    """A label whose text changes on every slider frame: its width never relayouts the panel."""
+    label.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
+    label.setMinimumWidth(40)
+    return label
 
 
 class MessageLabel(QLabel):

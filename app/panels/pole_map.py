@@ -15,7 +15,7 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QPalette
 from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSlider, QVBoxLayout, QWidget
 
-from app.panels.common import MessageLabel, colour, complex_number, number
+from app.panels.common import MessageLabel, colour, complex_number, number, steady_label
 from app.theme import figure_font
 
 SLIDER_STEPS = 1000
@@ -85,7 +85,7 @@ class PoleMap(QWidget):
         self._range = (0.0, 1.0)
         self._updating = False
         self.message = MessageLabel(self)
-        self.caption = QLabel(self)
+        self.caption = steady_label(QLabel(self))
         self.caption.setFont(figure_font(9))
         self.plot = pg.PlotWidget(self)
         self._make_items()
@@ -114,7 +114,6 @@ class PoleMap(QWidget):
     def _make_items(self) -> None:
         plot = self.plot
         item = plot.getPlotItem()
-        item.showGrid(x=True, y=True, alpha=0.15)
         item.setLabel("bottom", "Re s", units="1/s")
         item.setLabel("left", "Im s", units="rad/s")
         item.setMenuEnabled(False)
@@ -194,7 +193,7 @@ class PoleMap(QWidget):
 
     def set_current_value(self, value: float) -> None:
         """Move the poles (and the slider) to the tuning parameter's current value."""
-        self._value = value
+        self._value = value = float(value)
         self._draw_at(value)
 
     def plotted_poles(self) -> np.ndarray:
@@ -246,7 +245,7 @@ class PoleMap(QWidget):
         lo, hi = self._range
         if hi <= lo:
             return 0
-        return int(round((min(max(value, lo), hi) - lo) / (hi - lo) * SLIDER_STEPS))
+        return round((min(max(value, lo), hi) - lo) / (hi - lo) * SLIDER_STEPS)
 
     def _slider_value(self, position: int) -> float:
         lo, hi = self._range

@@ -4,10 +4,18 @@ as a fraction, hidden modes and other warnings. Read-only on an AnalysisResult.
 from __future__ import annotations
 
 from flint import fmpq_poly
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import QLabel, QTextBrowser, QVBoxLayout, QWidget
 
-from PySide6.QtWidgets import QTextBrowser, QVBoxLayout, QWidget
-
-from app.panels.common import MessageLabel, colour, complex_number, math_html, number, number_css
+from app.panels.common import (
+    MessageLabel,
+    colour,
+    complex_number,
+    math_html,
+    number,
+    number_css,
+    steady_label,
+)
 from core.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, poly_text, to_fmpq
 
 HIDDEN_PREFIX = "hidden mode at s ="  # the analysis' own hidden-mode warnings, shown in their section
@@ -95,10 +103,14 @@ class PolynomialPanel(QWidget):
         self.view = QTextBrowser(self)
         self.view.setOpenLinks(False)
         self.view.document().setDefaultStyleSheet(number_css())
+        self.at_value = steady_label(QLabel(self))
+        self.at_value.setTextFormat(Qt.TextFormat.RichText)
+        self.at_value.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         layout.addWidget(self.message)
-        layout.addWidget(self.view)
+        layout.addWidget(self.view, 1)
+        layout.addWidget(self.at_value)
 
     def show_result(self, result) -> None:
         """Show a new AnalysisResult (its error message when it has no Report)."""
@@ -106,12 +118,16 @@ class PolynomialPanel(QWidget):
         if result.tuning is not None:
             self._value = result.tuning.nominal
         self.message.show_message(result.message)
-        self._render()
+        bar = self.view.verticalScrollBar()
+        keep = bar.value()
+        self.view.setHtml(self.html())
+        bar.setValue(keep)
+        self.at_value.setText(self.at_value_html())
 
     def set_current_value(self, value: float) -> None:
         """Follow the tuning parameter's current value (the "at value" line)."""
-        self._value = value
-        self._render()
+        self._value = float(value)
+        self.at_value.setText(self.at_value_html())
 
     def html(self) -> str:
         """The panel's rich text (empty without a Report)."""
@@ -125,10 +141,6 @@ class PolynomialPanel(QWidget):
         fac = factored(report.analysed)
         parts.append(_section("Factored over Q", _line(math_html(fac)) if fac else
                               _line("does not factor over the rationals", "muted")))
-        if report.parameter and self._value is not None:
-            at = factored_at(report.analysed, to_fmpq(self._value))
-            parts.append(_section(f"At {report.parameter} = <span class='num'>{number(self._value)}</span>",
-                                  _line(math_html(at))))
         tf = report.transfer_function
         if tf:
             body = fraction_html(tf["num"], tf["den"])
@@ -138,6 +150,15 @@ class PolynomialPanel(QWidget):
             parts.append(_section("Closed-loop transfer function, input to output", body))
         parts += self._warnings_html(report)
         return "".join(parts)
+
+    def at_value_html(self) -> str:
+        """The polynomial at the current value, factored over Q where it factors."""
+        report = self._result.report if self._result is not None else None
+        if report is None or not report.parameter or self._value is None:
+            return ""
+        at = factored_at(report.analysed, to_fmpq(self._value))
+        return (f"<style>{number_css()}</style><b>At {report.parameter} = <span class='num'>"
+                f"{number(self._value)}</span></b>&nbsp;&nbsp;<span class='math'>{math_html(at)}</span>")
 
     def _warnings_html(self, report) -> list[str]:
         out = []
@@ -158,12 +179,6 @@ class PolynomialPanel(QWidget):
         if others:
             out.append(_section("Warnings and notes", "".join(_line("• " + math_html(w), "warn") for w in others)))
         return out
-
-    def _render(self) -> None:
-        bar = self.view.verticalScrollBar()
-        keep = bar.value()
-        self.view.setHtml(self.html())
-        bar.setValue(keep)
 
 
 __all__ = ["PolynomialPanel", "factored", "factored_at", "fraction_html"]

@@ -11,10 +11,10 @@ from PySide6.QtCore import QPointF, QRectF, QSize, Qt
 from PySide6.QtGui import QColor, QPainter, QPainterPath, QPalette, QPen
 from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
 
-from app.panels.common import MINUS, MessageLabel, colour, number, number_css
+from app.panels.common import MINUS, MessageLabel, colour, number, number_css, steady_label
 from app.theme import figure_font, label_font
 from core.polynomial import to_fmpq
-from core.routh import routh_counts
+from core.routh import is_hurwitz, routh_counts
 
 HOW_LOST = {
     "origin": "a real pole passes through s = 0",
@@ -199,7 +199,7 @@ class RangePanel(QWidget):
         self._value: float | None = None
         self.message = MessageLabel(self)
         self.line = NumberLine(self)
-        self.verdict = QLabel(self)
+        self.verdict = steady_label(QLabel(self))
         self.verdict.setTextFormat(Qt.TextFormat.RichText)
         self.details = QLabel(self)
         self.details.setWordWrap(True)
@@ -248,7 +248,7 @@ class RangePanel(QWidget):
 
     def set_current_value(self, value: float) -> None:
         """Move the marker and the verdict to the tuning parameter's current value."""
-        self._value = value
+        self._value = value = float(value)
         self.line.set_current(value)
         self._update_verdict()
 
@@ -327,8 +327,8 @@ class RangePanel(QWidget):
         v = to_fmpq(self._value)
         coeffs = report.analysed.at(v)
         dropped = len(coeffs) - 1 < report.analysed.degree
-        counts = routh_counts(coeffs) if len(coeffs) > 1 else None
-        stable = counts is not None and not dropped and counts.rhp == 0 and counts.jw == 0
+        stable = is_hurwitz(coeffs, report.analysed.degree)  # fast exact test; counts only when unstable
+        counts = routh_counts(coeffs) if not stable and len(coeffs) > 1 else None
         decay = None
         if report.decay is not None and report.decay.range is not None:
             decay = report.decay.range.contains(v)
@@ -352,6 +352,6 @@ class RangePanel(QWidget):
                 why.append("the order drops here")
             words = "<span class='bad'>UNSTABLE</span>" + (f" ({', '.join(why)})" if why else "")
         if decay is not None:
-            words += (", decay requirement <span class='good'>met</span>" if decay
-                      else ", decay requirement <span class='bad'>not met</span>")
+            words += ("; decay <span class='good'>met</span>" if decay
+                      else "; decay <span class='bad'>not met</span>")
         return css + where + words

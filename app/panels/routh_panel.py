@@ -13,8 +13,18 @@ from dataclasses import dataclass
 from flint import fmpq, fmpq_poly
 from PySide6.QtCore import QRect, Qt
 from PySide6.QtGui import QAction, QBrush, QGuiApplication, QPen
-from PySide6.QtWidgets import (QAbstractItemView, QHBoxLayout, QHeaderView, QLabel, QPushButton,
-                               QStyledItemDelegate, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QPushButton,
+    QStyledItemDelegate,
+    QTableWidget,
+    QTableWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
 
 from app.panels.common import MINUS, MessageLabel, colour, number, number_css
 from app.theme import figure_font
@@ -79,7 +89,7 @@ def evaluate_entry(entry: RationalFunction, array: RouthArray, value) -> EntryVa
     >>> evaluate_entry(arr.rows[2][0], arr, 3)
     EntryValue(text='1', exact='1', sign=1)
     """
-    v = to_fmpq(value) if value is not None else fmpq(0)
+    v = value if isinstance(value, fmpq) else to_fmpq(value) if value is not None else fmpq(0)
     try:
         if not array.uses_eps:
             q = entry(v) if not entry.is_constant() else entry.constant()
@@ -98,7 +108,7 @@ class SignChangeDelegate(QStyledItemDelegate):
     """Paints the sign column: the first-column sign, and a red arrow across a row boundary
     where the sign changes from the row above."""
 
-    def __init__(self, panel: "RouthPanel"):
+    def __init__(self, panel: RouthPanel):
         super().__init__(panel)
         self._panel = panel
 
@@ -136,8 +146,8 @@ class RouthPanel(QWidget):
         self.table.setFont(figure_font())
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.ContiguousSelection)
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-        self.table.verticalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
+        self.table.verticalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Fixed)
         self.table.verticalHeader().setDefaultAlignment(Qt.AlignmentFlag.AlignCenter)
         self.table.setContextMenuPolicy(Qt.ContextMenuPolicy.ActionsContextMenu)
         self.copy_action = QAction("Copy as text", self)
@@ -171,7 +181,7 @@ class RouthPanel(QWidget):
 
     def set_current_value(self, value: float) -> None:
         """Re-evaluate the value columns at the tuning parameter's current value."""
-        self._value = value
+        self._value = value = float(value)
         self._fill_values()
 
     def text(self) -> str:
@@ -220,8 +230,6 @@ class RouthPanel(QWidget):
         table.horizontalHeader().hide()
         table.setVerticalHeaderLabels([""] + [self._row_label(i) for i in range(len(arr.rows))])
         table.setItemDelegateForColumn(self._sign_column(), self._delegate)
-        table.horizontalHeader().setSectionResizeMode(self._sign_column(), QHeaderView.ResizeMode.Fixed)
-        table.setColumnWidth(self._sign_column(), 52)
         self._group_header(0, width, f"entries in {arr.parameter}" if arr.parameter else "entries")
         if self._has_values():
             self._group_header(width, width, "")
@@ -240,6 +248,20 @@ class RouthPanel(QWidget):
                 table.setItem(i + 1, j, item)
         self.notes.setText(self._notes_html())
         self._fill_values()
+        self._size_columns()
+        table.setMaximumHeight(self._content_height())
+
+    def _size_columns(self) -> None:
+        """Fit columns once per result; value columns get room for any value, so a slider
+        frame never relayouts the table."""
+        table = self.table
+        table.resizeColumnsToContents()
+        table.resizeRowsToContents()
+        room = table.fontMetrics().horizontalAdvance(f"{MINUS}0.000000e-00") + 12
+        if self._has_values():
+            for j in range(self._width()):
+                table.setColumnWidth(self._value_column(j), max(table.columnWidth(self._value_column(j)), room))
+        table.setColumnWidth(self._sign_column(), 52)
 
     def _row_label(self, i: int) -> str:
         arr = self._array
@@ -273,7 +295,8 @@ class RouthPanel(QWidget):
             table.item(0, width).setText(f"at {name} = {number(value)}")
         else:
             self.caption.setText("First column tinted; a red arrow marks each sign change down the first column.")
-        self.values = [[evaluate_entry(e, arr, value) for e in row] for row in arr.rows]
+        exact = to_fmpq(value) if value is not None else None
+        self.values = [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
         tint, special = QBrush(colour("tint")), QBrush(colour("special"))
         special_rows = {s.row for s in arr.special}
         for i, row in enumerate(self.values):
@@ -302,7 +325,6 @@ class RouthPanel(QWidget):
                             f"{power_label(arr.powers[i])}" if i - 1 in self.change_rows else "")
             if table.item(i + 1, sign_col) is None:
                 table.setItem(i + 1, sign_col, item)
-        table.setMaximumHeight(self._content_height())
         table.viewport().update()
 
     def _content_height(self) -> int:

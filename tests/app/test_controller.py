@@ -5,17 +5,17 @@ import os
 
 os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
-import threading  # noqa: E402
+import threading
 
-import numpy as np  # noqa: E402
-import pytest  # noqa: E402
-from PySide6.QtGui import QUndoStack  # noqa: E402
+import numpy as np
+import pytest
+from PySide6.QtGui import QUndoStack
 
-import app.controller as controller_module  # noqa: E402
-from app.bridge import ModelSignals  # noqa: E402
-from app.controller import AnalysisController  # noqa: E402
-from app.panels import PolynomialPanel, RangePanel, RouthPanel, attach  # noqa: E402
-from core.model import Diagram, Node, Parameter  # noqa: E402
+import app.controller as controller_module
+from app.bridge import ModelSignals
+from app.controller import AnalysisController
+from app.panels import PolynomialPanel, RangePanel, RouthPanel, attach
+from core.model import Diagram, Node, Parameter
 
 
 def unity_loop(num: str = "K", den: str = "s^3 + 3s^2 + 2s", nominal: float = 2.0) -> Diagram:

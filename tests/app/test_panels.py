@@ -5,21 +5,21 @@ import os
 
 os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
-from fractions import Fraction  # noqa: E402
+from fractions import Fraction
 
-import numpy as np  # noqa: E402
-import pytest  # noqa: E402
-import sympy  # noqa: E402
-from PySide6.QtGui import QGuiApplication  # noqa: E402
+import numpy as np
+import pytest
+import sympy
+from PySide6.QtGui import QGuiApplication
+from test_controller import unity_loop
 
-from app.bridge import ModelSignals  # noqa: E402
-from app.controller import AnalysisController  # noqa: E402
-from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach  # noqa: E402
-from app.panels.polynomial_panel import factored  # noqa: E402
-from core.model import Diagram, Node, Parameter  # noqa: E402
-from core.polynomial import ParametricPolynomial  # noqa: E402
-from core.report_text import routh_table  # noqa: E402
-from test_controller import unity_loop  # noqa: E402  (tests/app is on sys.path in prepend mode)
+from app.bridge import ModelSignals
+from app.controller import AnalysisController
+from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
+from app.panels.polynomial_panel import factored
+from core.model import Diagram, Node, Parameter
+from core.polynomial import ParametricPolynomial
+from core.report_text import routh_table
 
 
 def third_order(K: float) -> list[float]:
