@@ -228,7 +228,7 @@ def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warn
     coeffs = poly.at(value)
     counts = routh_counts(coeffs)
     poles = certified_roots(coeffs)
-    notes = list(counts.notes)
+    notes = list(counts.special)
     if len(coeffs) - 1 < poly.degree:
         notes.append(f"the leading coefficient vanishes here: the loop's order drops from {poly.degree} "
                      f"to {len(coeffs) - 1}")

@@ -19,6 +19,7 @@ returned by :func:`mpoly_context` (generators ``s`` first, then parameter names 
 """
 from __future__ import annotations
 
+import numbers
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import Iterable, Mapping, Sequence
@@ -45,8 +46,8 @@ def to_fmpq(value) -> fmpq:
         return fmpq(int(value))
     if isinstance(value, Fraction):
         return fmpq(value.numerator, value.denominator)
-    if isinstance(value, float):
-        value = repr(value)
+    if isinstance(value, numbers.Real) and not isinstance(value, numbers.Rational):  # float, numpy float
+        value = repr(float(value))
     if isinstance(value, str):
         frac = Fraction(value)
         return fmpq(frac.numerator, frac.denominator)
