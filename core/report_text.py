@@ -33,6 +33,24 @@ def routh_table(report: Report) -> list[str]:
     return lines
 
 
+def margins_lines(name: str, m: dict | None) -> list[str]:
+    """How far the nominal value may move before instability, as factors (and dB) and distances."""
+    if not m:
+        return []
+    if not m["stable"]:
+        return [f"  the nominal {name} = {m['nominal']:.6g} is outside every stable interval"]
+    lines = []
+    for side, word, limit in (("rise", "rise", "high"), ("fall", "fall", "low")):
+        factor, db, dist = m[f"{side}_factor"], m[f"{side}_db"], m[f"{side}_distance"]
+        if factor is not None:
+            lines.append(f"  {name} may {word} by a factor {factor:.6g} ({db:.3g} dB) to {m[limit]:.12g}")
+        elif dist is not None:
+            lines.append(f"  {name} may {word} by {dist:.6g} to {m[limit]:.12g}")
+        else:
+            lines.append(f"  {name} may {word} without limit")
+    return lines
+
+
 def report_text(report: Report) -> str:
     """A readable report: polynomial, Routh array, nominal verdict, stable range, margins, decay."""
     d = report.to_dict()
@@ -77,10 +95,7 @@ def report_text(report: Report) -> str:
                    "infinity": "the leading coefficient vanishes (a pole goes to infinity)",
                    "singular": "the polynomial vanishes identically"}.get(e["kind"], e["kind"])
             out.append(f"  {d['parameter']} = {e['exact']} (~{e['value']:.12g}): {how}")
-        m = d["margins"]
-        if m:
-            out.append("  margins at nominal: " + ", ".join(f"{k} {v:.6g}" for k, v in m.items()
-                                                            if isinstance(v, (int, float)) and v is not None))
+        out += margins_lines(d["parameter"], d["margins"])
     dec = d["decay"]
     if dec:
         out.append("")
