@@ -93,6 +93,15 @@ def product(factors: list[fmpq_mpoly], one: fmpq_mpoly) -> fmpq_mpoly:
     return factors[0]
 
 
+def fraction_product(factors: list[Frac], one: Frac) -> Frac:
+    """Product of fractions in lowest terms, in a balanced tree."""
+    factors = list(factors) or [one]
+    while len(factors) > 1:
+        factors = [mul(factors[i], factors[i + 1]) if i + 1 < len(factors) else factors[i]
+                   for i in range(0, len(factors), 2)]
+    return factors[0]
+
+
 @dataclass
 class Elimination:
     """The determinant is ``sign`` times the product of ``pivots``; ``last_value`` is the kept

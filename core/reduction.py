@@ -45,7 +45,7 @@ from dataclasses import dataclass, field
 
 from flint import fmpq_mpoly
 
-from .elimination import Frac, SingularSystem, eliminate, frac, mul, product, sub
+from .elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
 from .errors import AnalysisError
 from .mason import mason_gain
 from .model import Diagram
@@ -95,11 +95,9 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
     observed = output_id if with_tf and graph.kinds[output_id] != "input" else None
     pivots, sign, x_out = _eliminate(graph, input_id if with_tf else None, observed, loops)
     # Delta = sign * prod(pivots) in lowest terms: its denominator divides prod(D_i) exactly
-    delta = (graph.ctx.constant(sign), graph.ctx.constant(1))
-    for p in pivots:
-        delta = mul(delta, p)
     one = graph.ctx.constant(1)
-    characteristic = delta[0] * (product([d for _, d in graph.blocks.values()], one) / delta[1])
+    delta = fraction_product(pivots, (one, one))
+    characteristic = delta[0] * (product([d for _, d in graph.blocks.values()], one) / delta[1]) * sign
     warnings += _ill_posed_warnings(diagram, graph, characteristic, loops)
     red = Reduction(diagram_parameters(diagram), characteristic, loops=loops, warnings=warnings)
     if with_tf:
