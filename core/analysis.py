@@ -284,7 +284,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         report.transfer_function = {"num": mpoly_text(red.tf_num_reduced), "den": mpoly_text(red.tf_den_reduced),
                                     "num_full": mpoly_text(red.tf_num), "den_full": mpoly_text(red.tf_den)}
         all_values = {k: v for k, v in values.items() if k in used}
-        if parameter is None or parameter in all_values:
+        if (parameter is None or parameter in all_values) and not red.tf_num.is_zero():
             report.hidden_modes = _hidden_modes(red, all_values)
             report.zeros = _roots_at(red.tf_num_reduced, all_values)
         for mode in report.hidden_modes:
