@@ -138,7 +138,7 @@ class MainWindow(QMainWindow):
         width, height = max(self.width(), 1200), max(self.height(), 800)
         self.resizeDocks([d["palette"]], [140], Qt.Orientation.Horizontal)
         self.resizeDocks([d["inspector"]], [int(width * 0.27)], Qt.Orientation.Horizontal)
-        self.resizeDocks([d["inspector"], d["poles"]], [int(height * 0.42), int(height * 0.5)],
+        self.resizeDocks([d["inspector"], d["poles"]], [int(height * 0.36), int(height * 0.56)],
                          Qt.Orientation.Vertical)
         bottom = [d["polynomial"], d["routh"], d["range"]]
         self.resizeDocks(bottom, [1, 1, 1], Qt.Orientation.Horizontal)
