@@ -112,21 +112,45 @@ def _eval_poly_float(c: fmpq_poly, vals: np.ndarray) -> np.ndarray:
 
 
 def _match_paths(roots: np.ndarray) -> np.ndarray:
-    """Reorder each row's roots to follow the previous row's (greedy nearest neighbour)."""
+    """Reorder each row's roots to follow the previous row's (greedy nearest neighbour).
+
+    Matching raw row i-1 to raw row i does not depend on how row i-1 was reordered, so every
+    step is matched at once: where each root's nearest neighbour in the next row is a different
+    root (the usual case), that is the greedy matching; other steps run the greedy loop. The
+    steps are then chained. A row with NaN (the order drops) is left in its own order.
+    """
+    m, n = roots.shape
     out = roots.copy()
-    for i in range(1, out.shape[0]):
-        prev, cur = out[i - 1], out[i].copy()
-        if np.any(np.isnan(prev)) or np.any(np.isnan(cur)):
-            continue
-        dist = np.abs(prev[:, None] - cur[None, :])
-        order = np.full(cur.size, -1)
-        taken = np.zeros(cur.size, dtype=bool)
-        for flat in np.argsort(dist, axis=None):
-            a, b = divmod(int(flat), cur.size)
-            if order[a] < 0 and not taken[b]:
-                order[a], taken[b] = b, True
-        out[i] = cur[order]
+    if m < 2 or n == 0:
+        return out
+    prev, cur = roots[:-1], roots[1:]
+    usable = ~(np.isnan(prev).any(axis=1) | np.isnan(cur).any(axis=1))
+    dist = np.abs(prev[:, :, None] - cur[:, None, :])  # (m - 1, n, n)
+    step = np.argmin(dist, axis=2)  # step[i, a]: the root of row i + 1 nearest root a of row i
+    one_to_one = (np.sort(step, axis=1) == np.arange(n)).all(axis=1)
+    for i in np.flatnonzero(usable & ~one_to_one):
+        step[i] = _greedy_match(dist[i])
+    order = np.arange(n)
+    for i in range(1, m):
+        order = step[i - 1][order] if usable[i - 1] else np.arange(n)
+        out[i] = roots[i, order]
     return out
+
+
+def _greedy_match(dist: np.ndarray) -> np.ndarray:
+    """order[a] = b: pairs taken by increasing distance, each row and column used once."""
+    n = dist.shape[0]
+    order = [-1] * n
+    taken = [False] * n
+    left = n
+    for flat in np.argsort(dist, axis=None).tolist():
+        a, b = divmod(flat, n)
+        if order[a] < 0 and not taken[b]:
+            order[a], taken[b] = b, True
+            left -= 1
+            if not left:
+                break
+    return np.array(order)
 
 
 def path_sensitivity(float_roots: np.ndarray, exact_rhp: int, exact_jw: int) -> str | None:
