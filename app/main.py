@@ -59,6 +59,14 @@ def settle(window, timeout_ms: int = ANALYSIS_TIMEOUT_MS) -> bool:
     return False
 
 
+def show_a_block(window) -> None:
+    """Select the plant (else any block) so the inspector in the picture shows what it does."""
+    blocks = [n for n in window.diagram.nodes.values() if n.kind == "block"]
+    plants = [n for n in blocks if n.role == "plant"]
+    if blocks:
+        window.scene.select_node((plants or blocks)[0].id)
+
+
 def screenshot(out: str, project: Path, copy: bool) -> int:
     """Render the window on ``project`` to ``out``; exit status."""
     from core.errors import LoopwrightError
@@ -80,6 +88,7 @@ def screenshot(out: str, project: Path, copy: bool) -> int:
     if not settle(window):
         print("loopwright: the analysis did not finish in time", file=sys.stderr)
         return 1
+    show_a_block(window)
     window.view.fit_all()
     settle(window, 5000)
     image = window.grab()

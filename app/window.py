@@ -112,7 +112,7 @@ class MainWindow(QMainWindow):
 
     def _build_docks(self) -> None:
         self.setCorner(Qt.Corner.BottomRightCorner, Qt.DockWidgetArea.RightDockWidgetArea)
-        self.setCorner(Qt.Corner.BottomLeftCorner, Qt.DockWidgetArea.LeftDockWidgetArea)
+        self.setCorner(Qt.Corner.BottomLeftCorner, Qt.DockWidgetArea.BottomDockWidgetArea)
         self.setDockOptions(QMainWindow.DockOption.AnimatedDocks | QMainWindow.DockOption.AllowTabbedDocks
                             | QMainWindow.DockOption.AllowNestedDocks)
         self.setTabPosition(Qt.DockWidgetArea.AllDockWidgetAreas, QTabWidget.TabPosition.North)
@@ -138,10 +138,10 @@ class MainWindow(QMainWindow):
         width, height = max(self.width(), 1200), max(self.height(), 800)
         self.resizeDocks([d["palette"]], [140], Qt.Orientation.Horizontal)
         self.resizeDocks([d["inspector"]], [int(width * 0.27)], Qt.Orientation.Horizontal)
-        self.resizeDocks([d["inspector"], d["poles"]], [int(height * 0.36), int(height * 0.56)],
+        self.resizeDocks([d["inspector"], d["poles"]], [int(height * 0.32), int(height * 0.6)],
                          Qt.Orientation.Vertical)
         bottom = [d["polynomial"], d["routh"], d["range"]]
-        self.resizeDocks(bottom, [1, 1, 1], Qt.Orientation.Horizontal)
+        self.resizeDocks(bottom, [28, 40, 32], Qt.Orientation.Horizontal)
         self.resizeDocks([d["polynomial"]], [int(height * 0.36)], Qt.Orientation.Vertical)
 
     def showEvent(self, event) -> None:

@@ -1,0 +1,156 @@
+"""The main window: opening the example with every panel filled, title and unsaved marker, menus,
+the caution, and ``python -m app --screenshot``."""
+from __future__ import annotations
+
+import os
+import struct
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+from PySide6.QtCore import QSettings
+from PySide6.QtWidgets import QMessageBox
+
+from app import about
+from app.commands import RenameCommand, push
+from app.window import shipped_examples
+from core.analysis import CAUTION, check_project
+from core.project_file import load_project
+
+REPO = Path(__file__).resolve().parents[2]
+
+
+def test_example_opens_with_every_panel_filled(window, example_path, analysed):
+    assert window.files.open(example_path, ask=False)
+    analysed(window)
+    result = window.controller.result
+    assert result.report is not None, result.message
+    reference = check_project(load_project(example_path))  # the same analysis without the app
+    assert window.polynomial_panel.html()
+    assert window.routh_panel.table.rowCount() == len(reference.routh.rows) + 1
+    assert window.range_panel.verdict_html()
+    degree = reference.analysed.degree
+    # reference: numpy.roots of the analysed polynomial at the nominal value
+    coeffs = [float(c) for c in reference.analysed.at(reference.values.get(reference.parameter))]
+    expected = np.sort_complex(np.roots(coeffs))
+    assert np.allclose(np.sort_complex(window.pole_map.plotted_poles()), expected, atol=1e-6)
+    assert len(window.pole_map.plotted_poles()) == degree
+    assert window.parameters.table.rowCount() >= len(load_project(example_path).parameters)
+    assert window.verdict.text()
+    assert len(window.scene.node_items) == len(load_project(example_path).nodes)
+    for dock in window.docks.values():
+        assert dock.isVisible() and dock.widget().width() > 50 and dock.widget().height() > 50
+
+
+def test_title_and_unsaved_marker_follow_the_undo_stack(window, example_path):
+    assert window.files.open(example_path, ask=False)
+    name = window.diagram.name
+    assert window.windowTitle() == f"{name} — {example_path.name}[*] — Loopwright"
+    assert not window.isWindowModified()
+    push(window.undo_stack, RenameCommand(window.diagram, "renamed loop"))
+    assert window.isWindowModified()
+    assert window.windowTitle().startswith("renamed loop — ")
+    window.undo_stack.undo()
+    assert not window.isWindowModified() and window.windowTitle().startswith(f"{name} — ")
+
+
+def test_menus(window):
+    titles = {a.text().replace("&", ""): a for a in window.menuBar().actions()}
+    assert list(titles) == ["File", "Edit", "View", "Help"]
+    file_items = [a.text().replace("&", "") for a in titles["File"].menu().actions() if a.text()]
+    assert file_items == ["New", "Open…", "Open Recent", "Open Example", "Save", "Save As…", "Quit"]
+    examples = [a.text() for a in window.example_menu.actions()]
+    assert examples == [name for name, _ in shipped_examples()]
+    assert len(examples) == len(list((REPO / "resources" / "examples").glob("*.loop.json")))
+    view_items = [a.text() for a in titles["View"].menu().actions() if a.text()]
+    for dock in window.docks.values():
+        assert dock.windowTitle() in view_items
+
+
+def test_open_example_is_an_unsaved_copy(window, dialogs):
+    name, _path = shipped_examples()[0]
+    window.example_menu.actions()[0].trigger()
+    assert window.diagram.name == name and window.files.path is None
+    assert window.windowTitle() == f"{name} — not saved[*] — Loopwright"
+
+
+def test_about_and_caution_show_the_caution_and_version(window, monkeypatch):
+    shown = []
+    monkeypatch.setattr(QMessageBox, "exec", lambda box: shown.append(box.text()) or 0)
+    window.act_about.trigger()
+    window.act_caution.trigger()
+    assert len(shown) == 2
+    version = about.program_version()
+    for text in shown:
+        assert CAUTION in text and version in text
+
+
+def test_first_start_caution_once_and_never_offscreen(qapp, monkeypatch):
+    settings = QSettings()
+    settings.setValue(about.SEEN_KEY, False)
+    assert not about.first_start_due(settings)  # offscreen platform: never blocks a test
+    monkeypatch.setattr(about.QGuiApplication, "platformName", staticmethod(lambda: "xcb"))
+    assert not about.first_start_due(settings, rendering=True)
+    shown = []
+    monkeypatch.setattr(QMessageBox, "exec", lambda box: shown.append(box.text()) or 0)
+    assert about.show_first_start_caution(None, settings)
+    assert not about.show_first_start_caution(None, settings)
+    assert len(shown) == 1 and CAUTION in shown[0]
+
+
+def test_select_all_delete_and_undo(window, example_path):
+    assert window.files.open(example_path, ask=False)
+    nodes = len(window.diagram.nodes)
+    window.select_all()
+    assert len(window.scene.selected_node_ids()) == nodes
+    window.act_delete.trigger()
+    assert window.diagram.nodes == {}
+    window.undo_stack.undo()
+    assert len(window.diagram.nodes) == nodes
+
+
+def png_size(path: Path) -> tuple[int, int]:
+    header = path.read_bytes()[:24]
+    assert header[:8] == b"\x89PNG\r\n\x1a\n"
+    return struct.unpack(">II", header[16:24])
+
+
+def run_app(*args: str, tmp_path: Path) -> subprocess.CompletedProcess:
+    env = dict(os.environ, QT_QPA_PLATFORM="offscreen", LOOPWRIGHT_STATE_DIR=str(tmp_path / "state"),
+               XDG_CONFIG_HOME=str(tmp_path / "config"))
+    return subprocess.run([sys.executable, "-m", "app", *args], check=False, cwd=REPO, env=env, capture_output=True,
+                          text=True, timeout=300)
+
+
+def test_screenshot_command(tmp_path, example_path):
+    out = tmp_path / "shot.png"
+    done = run_app("--screenshot", str(out), str(example_path), tmp_path=tmp_path)
+    assert done.returncode == 0, done.stderr
+    assert png_size(out) == (1600, 1000)
+    assert out.stat().st_size > 20_000  # a real picture, not an empty frame
+
+
+def test_screenshot_of_a_bad_project_fails_in_one_line(tmp_path):
+    bad = tmp_path / "bad.loop.json"
+    bad.write_text("not json", encoding="utf-8")
+    done = run_app("--screenshot", str(tmp_path / "x.png"), str(bad), tmp_path=tmp_path)
+    assert done.returncode == 2
+    lines = done.stderr.strip().splitlines()
+    assert len(lines) == 1 and "E201" in lines[0]
+    assert not (tmp_path / "x.png").exists()
+
+
+@pytest.mark.parametrize("flag", ["--help"])
+def test_help(tmp_path, flag):
+    done = run_app(flag, tmp_path=tmp_path)
+    assert done.returncode == 0 and "--screenshot" in done.stdout
+
+
+def test_window_rebuilds_on_new_document(window, example_path):
+    assert window.files.open(example_path, ask=False)
+    old_scene = window.scene
+    window.files.new_project()
+    assert window.scene is not old_scene and window.view.scene() is window.scene
+    assert window.palette_panel.scene is window.scene
