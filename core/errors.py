@@ -48,6 +48,7 @@ CATALOGUE: dict[str, str] = {
     "E404": "parameter has no value",
     "E405": "analysis option invalid",
     "E406": "input does not reach the output",
+    "E407": "transfer function improper: no step response",
     # command line
     "E501": "command-line arguments invalid",
 }
