@@ -70,17 +70,45 @@ def check_transfer(num: str, den: str) -> dict[str, LoopwrightError]:
 
 
 def factored_text(num: str, den: str) -> str:
-    """The block's N/D with each side factored by sympy (display only).
+    """The block's N/D as gain · factors / factors, factored by sympy over the rationals (display only).
 
     >>> factored_text("K", "s^3 + 3s^2 + 2s")
     'K / (s·(s + 1)·(s + 2))'
+    >>> factored_text("0.8", "(60s+1)(8s+1)")
+    '0.8 / ((8·s + 1)·(60·s + 1))'
     """
-    n, d = (sympy.factor(e) for e in block_transfer(num, den))
-    if d == 1:
-        return _show(n)
-    top = f"({_show(n)})" if n.is_Add else _show(n)
-    bottom = f"({_show(d)})" if (d.is_Add or d.is_Mul) else _show(d)
-    return f"{top} / {bottom}"
+    n, d = block_transfer(num, den)
+    gain_n, top = _factor_texts(n)
+    gain_d, bottom = _factor_texts(d)
+    gain = gain_n / gain_d
+    if gain != 1 or not top:
+        top = [_gain_text(gain)] + top
+    top_text = "·".join(top).replace("-1·", "-", 1) if top[0] == "-1" else "·".join(top)
+    if not bottom:
+        return top_text.removeprefix("(").removesuffix(")") if len(top) == 1 else top_text
+    bottom_text = "·".join(bottom)
+    return f"{top_text} / ({bottom_text})" if len(bottom) > 1 else f"{top_text} / {bottom_text}"
+
+
+def _factor_texts(expr: sympy.Expr) -> tuple[sympy.Rational, list[str]]:
+    """The rational content and the texts of the irreducible factors (with parentheses and powers)."""
+    constant, factors = sympy.factor_list(expr)
+    texts = []
+    for factor, power in factors:
+        text = _show(factor)
+        if factor.is_Add:
+            text = f"({text})"
+        texts.append(f"{text}^{power}" if power > 1 else text)
+    return constant, texts
+
+
+def _gain_text(gain: sympy.Rational) -> str:
+    """``0.8`` for gains with a short exact decimal, else ``(1/3)``."""
+    value = float(gain)
+    short = f"{value:.6g}"
+    if gain.q != 1 and sympy.Rational(short) == gain and "e" not in short:
+        return short
+    return _show(gain) if gain.q == 1 else f"({_show(gain)})"
 
 
 def _show(expr: sympy.Expr) -> str:

@@ -138,11 +138,11 @@ class MainWindow(QMainWindow):
         width, height = max(self.width(), 1200), max(self.height(), 800)
         self.resizeDocks([d["palette"]], [140], Qt.Orientation.Horizontal)
         self.resizeDocks([d["inspector"]], [int(width * 0.27)], Qt.Orientation.Horizontal)
-        self.resizeDocks([d["inspector"], d["poles"]], [int(height * 0.32), int(height * 0.6)],
+        self.resizeDocks([d["inspector"], d["poles"]], [int(height * 0.3), int(height * 0.62)],
                          Qt.Orientation.Vertical)
         bottom = [d["polynomial"], d["routh"], d["range"]]
         self.resizeDocks(bottom, [28, 40, 32], Qt.Orientation.Horizontal)
-        self.resizeDocks([d["polynomial"]], [int(height * 0.36)], Qt.Orientation.Vertical)
+        self.resizeDocks([d["polynomial"]], [int(height * 0.41)], Qt.Orientation.Vertical)
 
     def showEvent(self, event) -> None:
         super().showEvent(event)
@@ -331,7 +331,9 @@ class MainWindow(QMainWindow):
         if nominal is None:
             return "Analysed"
         if nominal.stable:
-            return f"Stable{at}"
+            decay = report.decay
+            unmet = decay is not None and decay.nominal_ok is False
+            return f"Stable{at}" + ("; decay requirement not met" if unmet else "")
         places = []
         if nominal.rhp:
             places.append(f"{nominal.rhp} pole{'s' if nominal.rhp > 1 else ''} in the right half plane")
