@@ -304,6 +304,7 @@ class MainWindow(QMainWindow):
         """Let go of the previous document's signals and controller (a running analysis may finish)."""
         if self.signals is not None:
             self.signals.detach()
+            self.signals.deleteLater()  # after the panels let go of it in set_document
         if self.controller is not None:
             for signal in (self.controller.resultReady, self.controller.currentValueChanged,
                            self.controller.busyChanged, self.pole_map.valueDragged, self.pole_map.valueCommitted):
