@@ -19,7 +19,7 @@ from .errors import AnalysisError
 from .expression import expression_parameters, parse_polynomial, to_mpoly
 from .model import Diagram
 from .poles import Pole, certified_roots, dominant_pole, expand_multiplicity
-from .polynomial import ParametricPolynomial, mpoly_context, mpoly_text, to_fmpq
+from .polynomial import ParametricPolynomial, mpoly_context, mpoly_text, primitive_scale, to_fmpq
 from .routh import RouthArray, routh_array, routh_counts
 from .stable_range import StableRange, decay_range, margins, stable_range
 
@@ -192,6 +192,7 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
     if missing:
         raise AnalysisError("E404", f"parameter {', '.join(missing)} has no value; give one or tune it",
                             where=f"parameter {missing[0]}")
+    poly_mpoly = poly_mpoly * primitive_scale(poly_mpoly)  # integer coefficients, same roots and signs
     analysed = ParametricPolynomial.from_mpoly(poly_mpoly, parameter, values)
     if analysed.degree < 0:
         raise AnalysisError("E403", "the characteristic polynomial is identically zero", where="polynomial")
@@ -281,8 +282,10 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
     report.source = source or project.name
     report.warnings = list(red.warnings) + report.warnings
     if red.tf_num is not None:
-        report.transfer_function = {"num": mpoly_text(red.tf_num_reduced), "den": mpoly_text(red.tf_den_reduced),
-                                    "num_full": mpoly_text(red.tf_num), "den_full": mpoly_text(red.tf_den)}
+        scale, full_scale = primitive_scale(red.tf_den_reduced), primitive_scale(red.tf_den)
+        report.transfer_function = {
+            "num": mpoly_text(red.tf_num_reduced * scale), "den": mpoly_text(red.tf_den_reduced * scale),
+            "num_full": mpoly_text(red.tf_num * full_scale), "den_full": mpoly_text(red.tf_den * full_scale)}
         all_values = {k: v for k, v in values.items() if k in used}
         if (parameter is None or parameter in all_values) and not red.tf_num.is_zero():
             report.hidden_modes = _hidden_modes(red, all_values)

@@ -122,6 +122,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 2
     except KeyboardInterrupt:
         return 130
+    except BrokenPipeError:  # the reader went away (e.g. piped into head): nothing more to say
+        sys.stderr.close()
+        return 0
     except Exception as err:  # a bug of ours: say so in one line, never a traceback
         print(f"{PROGRAM}: internal error ({type(err).__name__}: {err}); please report it", file=sys.stderr)
         return 70

@@ -212,11 +212,15 @@ def _check_coefficients(expr: sympy.Expr, where: str | None, column: int | None)
 
 
 class _Parser:
-    def __init__(self, tokens: list[_Token], where: str | None):
+    def __init__(self, tokens: list[_Token], where: str | None, evaluate: bool = True):
         self.tokens = tokens
         self.pos = 0
         self.where = where
         self.depth = 0
+        self.evaluate = evaluate  # False keeps typed factors apart: (s-1)/(s-1) is not merged to 1
+
+    def _neg(self, expr: sympy.Expr) -> sympy.Expr:
+        return -expr if self.evaluate else sympy.Mul(sympy.Integer(-1), expr, evaluate=False)
 
     @property
     def tok(self) -> _Token:
@@ -260,8 +264,8 @@ class _Parser:
         while self.tok.kind in ("+", "-"):
             negate = self._advance().kind == "-"
             term = self._product()
-            terms.append(-term if negate else term)
-        result = sympy.Add(*terms)
+            terms.append(self._neg(term) if negate else term)
+        result = sympy.Add(*terms, evaluate=self.evaluate)
         _check_coefficients(result, self.where, column)
         return result
 
@@ -282,7 +286,7 @@ class _Parser:
                 if _is_identically_zero(divisor, self.where, divisor_column):
                     _fail("E110", "division by zero: the divisor is identically zero",
                           self.where, divisor_column)
-                factors.append(sympy.Pow(divisor, -1))
+                factors.append(sympy.Pow(divisor, -1, evaluate=self.evaluate))
                 after_division = True
             elif tok.kind in ("name", "("):
                 if after_division:
@@ -293,7 +297,7 @@ class _Parser:
                 _fail("E102", f"expected an operator (+ - * / ^) before '{tok.text}'", self.where, tok.column)
             else:
                 break
-        result = sympy.Mul(*factors)
+        result = sympy.Mul(*factors, evaluate=self.evaluate) if len(factors) > 1 else factors[0]
         _check_coefficients(result, self.where, column)
         return result
 
@@ -313,10 +317,10 @@ class _Parser:
         value = chain[-1][2]
         for k in range(len(chain) - 1, 0, -1):  # right-associative fold
             sign, column, _ = chain[k]
-            exponent = -value if sign else value
+            exponent = -value if sign else value  # exponents are plain integers: evaluate
             base_column, base = chain[k - 1][1], chain[k - 1][2]
             value = self._power(base, exponent, base_column, column)
-        return -value if negative else value
+        return self._neg(value) if negative else value
 
     def _power(self, base, exponent, base_column: int, column: int) -> sympy.Expr:
         if exponent.free_symbols:
@@ -331,7 +335,7 @@ class _Parser:
             if bits * int(exponent) > 1000 * 4:  # far beyond 1e300 (about 997 bits): refuse unbuilt
                 _fail("E105", "number too large: numerators and denominators must stay within 1e300",
                       self.where, base_column)
-        result = sympy.Pow(base, exponent)
+        result = sympy.Pow(base, exponent, evaluate=self.evaluate)
         _check_coefficients(result, self.where, base_column)
         return result
 
@@ -448,7 +452,7 @@ def _evaluate(expr: sympy.Expr, ctx: fmpq_mpoly_ctx) -> tuple[fmpq_mpoly, fmpq_m
     raise ExpressionError("E107", f"not a rational expression in s and parameters: {type(expr).__name__}")
 
 
-def _parse(text: str, where: str | None) -> tuple[sympy.Expr, list[_Token]]:
+def _parse(text: str, where: str | None, evaluate: bool = True) -> tuple[sympy.Expr, list[_Token]]:
     if not isinstance(text, str):
         raise TypeError(f"expression text must be str, not {type(text).__name__}")
     if len(text) > MAX_TEXT:
@@ -457,7 +461,7 @@ def _parse(text: str, where: str | None) -> tuple[sympy.Expr, list[_Token]]:
     if tokens[0].kind == "end":
         _fail("E102", "the expression is empty", where)
     try:
-        expr = _Parser(tokens, where).parse()
+        expr = _Parser(tokens, where, evaluate).parse()
     except RecursionError:  # pragma: no cover - MAX_NESTING keeps well below the interpreter limit
         _fail("E109", "expression nested too deeply", where)
     for number in expr.atoms(sympy.Rational):
@@ -527,14 +531,17 @@ def parse_fraction(text: str, where: str | None = None) -> tuple[sympy.Expr, sym
     """(numerator, denominator): expanded polynomials in s and parameters, rational coefficients.
 
     Terms are put over the least common multiple of their denominators; numerator and denominator
-    are never cancelled against each other (sympy already merges identical factors while parsing).
+    are never cancelled against each other, not even factors typed in one field: the text is parsed
+    without sympy's automatic merging, so ``(s-1)/(s-1)`` keeps its denominator.
 
     >>> parse_fraction("1/(T s + 1) + 0.5")
     (T*s/2 + 3/2, T*s + 1)
     >>> parse_fraction("1/(s^2 - 1) + 1/(s + 1)")
     (s, s**2 - 1)
+    >>> parse_fraction("(s - 1)/(s - 1)")
+    (s - 1, s - 1)
     """
-    expr = parse_expression(text, where)
+    expr = _parse(text, where, evaluate=False)[0]
     num, den = _fraction(expr, _context_for(expr), where)
     return _to_sympy(num), _to_sympy(den)
 
@@ -547,6 +554,8 @@ def block_transfer(num_text: str, den_text: str, where: str | None = None) -> tu
 
     >>> block_transfer("K/(s+2)", "s (s+1)")
     (K, s**3 + 3*s**2 + 2*s)
+    >>> block_transfer("(s-1)/(s-1)", "s+2")  # a typed factor is never merged away
+    (s - 1, s**2 + s - 2)
     >>> block_transfer("1", "0", where="node G")
     Traceback (most recent call last):
     ...
@@ -557,7 +566,7 @@ def block_transfer(num_text: str, den_text: str, where: str | None = None) -> tu
     for part, text, place in (("numerator", num_text, num_place), ("denominator", den_text, den_place)):
         if isinstance(text, str) and len(text) <= MAX_TEXT and not text.strip():
             _fail("E102", f"{part} is empty", place)
-        exprs.append(parse_expression(text, place))
+        exprs.append(_parse(text, place, evaluate=False)[0])
     ctx = _context_for(*exprs)
     n_num, d_num = _fraction(exprs[0], ctx, num_place)
     n_den, d_den = _fraction(exprs[1], ctx, den_place)

@@ -19,6 +19,7 @@ returned by :func:`mpoly_context` (generators ``s`` first, then parameter names 
 """
 from __future__ import annotations
 
+import math
 import numbers
 from dataclasses import dataclass
 from fractions import Fraction
@@ -29,6 +30,7 @@ from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz
 S = "s"  # the Laplace variable's name, reserved in every expression
 
 __all__ = ["S", "fmpq", "fmpq_poly", "to_fmpq", "mpoly_context", "mpoly_from_dict", "mpoly_text",
+           "primitive_scale",
            "poly_text", "ParametricPolynomial", "strip_leading_zeros"]
 
 
@@ -97,6 +99,25 @@ def mpoly_text(poly: fmpq_mpoly) -> str:
     names = poly.context().names()
     items = sorted(poly.to_dict().items(), key=lambda t: tuple(-e for e in t[0]))
     return _join_terms([(str(c), _monomial(names, e)) for e, c in items])
+
+
+def primitive_scale(poly: fmpq_mpoly) -> fmpq:
+    """The positive rational that makes the coefficients of ``poly`` coprime integers.
+
+    Scaling by a positive constant changes no root and no sign, so verdicts are unchanged.
+
+    >>> p = mpoly_from_dict((), {(2,): fmpq(1, 5), (0,): fmpq(3, 10)})
+    >>> primitive_scale(p), mpoly_text(p * primitive_scale(p))
+    (10, '2*s^2 + 3')
+    """
+    coeffs = list(poly.to_dict().values())
+    den = 1
+    for c in coeffs:
+        den = den * int(c.q) // math.gcd(den, int(c.q))
+    num = 0
+    for c in coeffs:
+        num = math.gcd(num, int(c.p) * (den // int(c.q)))
+    return fmpq(den, num) if num else fmpq(1)
 
 
 def poly_text(coeffs: Sequence, variable: str = S) -> str:

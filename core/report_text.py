@@ -22,12 +22,13 @@ def routh_table(report: Report) -> list[str]:
     """The Routh array as aligned text rows, ``s^k |`` labels on the left."""
     rd = report.routh.to_dict()
     rows, powers = rd["rows"], rd["powers"]
-    width = max((len(e) for row in rows for e in row), default=1)
+    ncols = max((len(row) for row in rows), default=0)
+    widths = [max((len(row[j]) for row in rows if j < len(row)), default=1) for j in range(ncols)]
     label_w = max(len(f"s^{p}") for p in powers) if powers else 3
     lines = []
     special = {s["row"]: s for s in rd.get("special", [])}
     for i, (power, row) in enumerate(zip(powers, rows)):
-        cells = "  ".join(e.rjust(width) for e in row)
+        cells = "  ".join(e.rjust(widths[j]) for j, e in enumerate(row)).rstrip()
         note = f"   <- {special[i]['note']}" if i in special else ""
         lines.append(f"  {f's^{power}'.rjust(label_w)} | {cells}{note}")
     return lines

@@ -91,3 +91,12 @@ def test_no_nominal_when_tuning_parameter_has_no_value():
     r = check_polynomial("s^2 + a s + 1", parameter="a")
     assert r.nominal is None
     assert r.stable_range.to_dict()["intervals"] == [[0.0, None]]  # s^2 + a s + 1 stable iff a > 0
+
+
+def test_factor_cancelled_inside_one_typed_field_is_still_a_mode():
+    # plant typed as one field "(s-1)/((s-1)(s+3))": the factor s - 1 must stay in the loop
+    # (internal stability: every typed denominator is a mode, textbook argument, from memory)
+    d = unity_loop(("2", "1"), ("(s-1)/((s-1)*(s+3))", "1"))
+    r = check_project(d)
+    assert any(abs(h.pole.re - 1) < 1e-12 and h.unstable for h in r.hidden_modes)
+    assert not r.nominal.stable
