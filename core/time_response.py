@@ -23,8 +23,8 @@ state update is a matrix exponential, the input constant between samples).
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Mapping
 
 import numpy as np
 from flint import fmpq

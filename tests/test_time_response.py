@@ -1,6 +1,7 @@
 """Step responses and their metrics, checked against scipy.signal and textbook closed forms."""
 from __future__ import annotations
 
+import itertools
 import math
 
 import numpy as np
@@ -42,7 +43,7 @@ def test_settling_time_near_four_over_sigma(zeta):
 def test_rise_time_falls_as_natural_frequency_rises():
     # Rise time scales as 1/wn for fixed zeta (time scaling of the standard form; from memory).
     rises = [step_response(second_order(0.5, wn)).metrics.rise_time for wn in (0.5, 1.0, 2.0, 4.0)]
-    assert all(a > b for a, b in zip(rises, rises[1:]))
+    assert all(a > b for a, b in itertools.pairwise(rises))
     assert rises[0] / rises[1] == pytest.approx(2.0, rel=5e-3)
 
 
