@@ -30,6 +30,7 @@ from app.canvas.scene import DiagramScene
 from app.canvas.view import ZOOM_STEP, DiagramView
 from app.commands import RenameCommand, push
 from app.controller import AnalysisController
+from app.export import ExportActions
 from app.files import Dialogs, ProjectFiles
 from app.inspector import Inspector
 from app.palette import Palette
@@ -209,6 +210,9 @@ class MainWindow(QMainWindow):
         file_menu.addSeparator()
         file_menu.addActions([self.act_save, self.act_save_as])
         file_menu.addSeparator()
+        self.exports = ExportActions(self)
+        file_menu.addMenu(self.exports.menu)
+        file_menu.addSeparator()
         file_menu.addAction(self.act_quit)
         self._fill_recent_menu()
 
@@ -218,6 +222,8 @@ class MainWindow(QMainWindow):
         edit.addActions([self.act_cut, self.act_copy, self.act_paste, self.act_delete])
         edit.addSeparator()
         edit.addActions([self.act_select_all, self.act_rename])
+        edit.addSeparator()
+        edit.addMenu(self.exports.routh_menu)
 
         view = bar.addMenu("&View")
         view.addActions([self.act_zoom_in, self.act_zoom_out, self.act_fit])
