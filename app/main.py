@@ -3,6 +3,8 @@
 Without a project the shipped example opens (as an unsaved copy). ``--screenshot OUT.png``
 builds the window at a fixed size, loads the project, waits until the analysis is finished and
 every panel is filled, saves the window as a PNG and exits 0; it works on the offscreen platform.
+``--report OUT.pdf|OUT.html`` writes the stability report the same way File > Export does
+(:mod:`app.report_export`), offscreen.
 A project that cannot be read: one line on stderr and exit status 2 (with ``--screenshot``), or an
 error dialog and an empty project (interactive).
 """
@@ -25,6 +27,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("project", nargs="?", help="a project file (.loop.json); default: the shipped example")
     parser.add_argument("--screenshot", metavar="OUT.png",
                         help="render the window with everything analysed to a PNG and exit")
+    parser.add_argument("--report", metavar="OUT.pdf|OUT.html",
+                        help="write the project's stability report (PDF or HTML) without a window and exit")
     return parser
 
 
@@ -105,6 +109,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     project = Path(args.project) if args.project else DEFAULT_EXAMPLE
     if args.screenshot:
         return screenshot(args.screenshot, project, copy=not args.project)
+    if args.report:
+        from app.report_export import report_command
+        return report_command(args.report, project, copy=not args.project)
     app = make_application(sys.argv[:1])
     from PySide6.QtCore import QSettings, QTimer
 
