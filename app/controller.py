@@ -215,12 +215,15 @@ class AnalysisController(QObject):
         self._result: AnalysisResult | None = None
         self._current: float | None = None
         self._dragging = False
+        self._disposed = False
+        self._worker: threading.Thread | None = None
         self._relay = _Relay(self)
         self._relay.finished.connect(self._on_finished)
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
         self._timer.setInterval(debounce_ms)
         self._timer.timeout.connect(self._start)
+        self._signals = signals
         signals.changed.connect(self.schedule)
         self.schedule()
 
@@ -248,19 +251,23 @@ class AnalysisController(QObject):
     # -- requests -------------------------------------------------------------------------------
     def schedule(self) -> None:
         """Note a model change: a new generation, analysed after the debounce interval."""
+        if self._disposed:
+            return
         self._generation += 1
         self._timer.start()
         self._set_busy(True)
 
     def analyse_now(self) -> None:
         """Skip the debounce wait (the result still arrives through ``resultReady``)."""
+        if self._disposed:
+            return
         self._generation += 1
         self._timer.stop()
         self._set_busy(True)
         self._start()
 
     def _start(self) -> None:
-        if self._running:
+        if self._running or self._disposed:
             return  # _on_finished starts again when the newest generation was not analysed
         self._running = True
         generation = self._generation
@@ -270,11 +277,14 @@ class AnalysisController(QObject):
             self._running = False
             self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
             return
-        threading.Thread(target=_work, args=(self._relay, project, generation),
-                         name="loopwright-analysis", daemon=True).start()
+        self._worker = threading.Thread(target=_work, args=(self._relay, project, generation),
+                                        name="loopwright-analysis", daemon=True)
+        self._worker.start()
 
     def _on_finished(self, result: AnalysisResult) -> None:
         self._running = False
+        if self._disposed:
+            return
         if result.generation != self._generation:
             if not self._timer.isActive():
                 self._start()  # stale: the newest change has not been analysed yet
@@ -314,12 +324,44 @@ class AnalysisController(QObject):
         """Make the current value the tuning parameter's nominal (one undoable command)."""
         self._dragging = False
         tuning = self._result.tuning if self._result is not None else None
-        if tuning is None or self._current is None:
+        if tuning is None or self._current is None or self._disposed:
             return
         param = self._diagram.parameters.get(tuning.name)
         if param is None or param.nominal == self._current:
             return
         set_nominal(self._diagram, self._undo_stack, tuning.name, self._current)
+
+    # -- end of life ------------------------------------------------------------------------------
+    def dispose(self, wait_ms: int = 0) -> bool:
+        """Stop for good: no more analyses, timers stopped, signals disconnected, a running analysis
+        abandoned (its result is dropped). Waits up to ``wait_ms`` for the worker thread; returns
+        True when no worker is left running. Safe to call twice.
+
+        The worker is a daemon thread that only reads its own copy of the project, so abandoning it
+        is safe: it cannot touch this controller's diagram and dies with the process.
+        """
+        if not self._disposed:
+            self._disposed = True
+            self._timer.stop()
+            try:
+                self._signals.changed.disconnect(self.schedule)
+            except (RuntimeError, TypeError):  # already gone or never connected
+                pass
+            try:
+                self._relay.finished.disconnect(self._on_finished)
+            except (RuntimeError, TypeError):
+                pass
+            self._generation += 1  # anything still in flight is stale
+            self._set_busy(False)
+        worker = self._worker
+        if worker is not None and worker.is_alive() and wait_ms > 0:
+            worker.join(wait_ms / 1000.0)
+        return worker is None or not worker.is_alive()
+
+    @property
+    def disposed(self) -> bool:
+        """Whether :meth:`dispose` was called."""
+        return self._disposed
 
     # -- tests and screenshots ------------------------------------------------------------------
     def wait_for_idle(self, timeout_ms: int = 5000) -> bool:

@@ -152,3 +152,31 @@ def test_live_value_and_commit_through_undo(qtbot):
     assert d.parameters["K"].nominal == 2.0
     assert ctl.wait_for_idle(10000)
     assert results[-1].tuning.nominal == 2.0 and ctl.current_value == 2.0
+
+
+def test_dispose_abandons_a_running_analysis_and_ignores_later_changes(qtbot, monkeypatch):
+    d = unity_loop()
+    gate = threading.Event()
+    real = controller_module.analyse_snapshot
+    started = []
+
+    def held(project, generation):
+        started.append(generation)
+        gate.wait(5)  # still running when the controller is disposed
+        return real(project, generation)
+    monkeypatch.setattr(controller_module, "analyse_snapshot", held)
+    ctl, _, results = make(qtbot, d)
+    ctl.analyse_now()
+    qtbot.waitUntil(lambda: len(started) == 1)
+    assert ctl.dispose() is False  # the worker is still alive and was not waited for
+    assert not ctl.busy and ctl.disposed
+    gate.set()
+    assert ctl.dispose(wait_ms=5000) is True  # second call: waits for the worker, no error
+    qtbot.wait(50)  # let a queued delivery (if any) arrive
+    assert results == []  # the abandoned result is dropped
+    d.set_parameter(Parameter("K", 5.0, 0.0, 10.0))  # the model changes after dispose: nothing runs
+    qtbot.wait(DEBOUNCE_WAIT_MS)
+    assert started == [started[0]] and not ctl.busy and results == []
+
+
+DEBOUNCE_WAIT_MS = 3 * controller_module.DEBOUNCE_MS
