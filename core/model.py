@@ -35,6 +35,25 @@ PARAMETER_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,63}$")
 Listener = Callable[[str, object], None]
 
 
+def _is_real(value) -> bool:
+    """True for an int or float that is not a bool (``True`` is an int in Python)."""
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _is_finite_real(value) -> bool:
+    return _is_real(value) and math.isfinite(value)
+
+
+def _checked_bends(bends, where: str) -> list[tuple[float, float]]:
+    """Waypoints as (x, y) float pairs, or E302 naming the first bad one."""
+    out = []
+    for i, b in enumerate(bends or []):
+        if not isinstance(b, (list, tuple)) or len(b) != 2 or not all(_is_finite_real(v) for v in b):
+            raise ModelError("E302", f"bend {i + 1} must be a pair of finite numbers", where=where)
+        out.append((float(b[0]), float(b[1])))
+    return out
+
+
 @dataclass
 class Node:
     """One node of the diagram. ``num``/``den``/``role`` matter for blocks, ``signs`` for sums."""
@@ -146,6 +165,8 @@ class Diagram:
     def node(self, node_id: str) -> Node:
         """The node with this id, or E301."""
         try:
+            if not isinstance(node_id, str):
+                raise KeyError(node_id)
             return self.nodes[node_id]
         except KeyError:
             raise ModelError("E301", f"there is no node '{node_id}'", where=f"node {node_id}") from None
@@ -167,7 +188,7 @@ class Diagram:
 
     def unique_id(self, stem: str) -> str:
         """A fresh node id built from ``stem`` (``G``, ``G2``, ``G3``...)."""
-        stem = re.sub(r"[^A-Za-z0-9_]", "_", stem) or "n"
+        stem = re.sub(r"[^A-Za-z0-9_]", "_", stem)[:56] or "n"
         if not stem[0].isalpha() and stem[0] != "_":
             stem = "n" + stem
         candidate, n = stem, 1
@@ -209,7 +230,7 @@ class Diagram:
     def move_node(self, node_id: str, x: float, y: float) -> None:
         """Place the node's centre at (x, y)."""
         node = self.node(node_id)
-        if not (math.isfinite(x) and math.isfinite(y)):
+        if not (_is_finite_real(x) and _is_finite_real(y)):
             raise ModelError("E302", "a position must be a finite number", where=f"node {node_id}")
         node.x, node.y = float(x), float(y)
         self._emit("node_moved", node_id)
@@ -230,7 +251,7 @@ class Diagram:
         self._check_node(candidate)
         if "signs" in changes:
             for w in self.wires:
-                if w.target == node_id and w.port >= len(candidate.signs):
+                if w.target == node_id and w.port >= candidate.input_count:
                     raise ModelError("E302", f"input {w.port + 1} still has a wire from '{w.source}'",
                                      where=f"node {node_id}")
         old = {k: getattr(node, k) for k in changes}
@@ -247,8 +268,12 @@ class Diagram:
         if node.kind not in NODE_KINDS:
             raise ModelError("E302", f"unknown node kind '{node.kind}' (one of {', '.join(NODE_KINDS)})",
                              where=where)
-        if not (math.isfinite(node.x) and math.isfinite(node.y)):
+        if not (_is_finite_real(node.x) and _is_finite_real(node.y)):
             raise ModelError("E302", "a position must be a finite number", where=where)
+        if not isinstance(node.label, str) or not isinstance(node.flipped, bool):
+            raise ModelError("E302", "label must be text and flipped true or false", where=where)
+        if not all(isinstance(t, str) for t in (node.role, node.num, node.den, node.signs)):
+            raise ModelError("E302", "role, num, den and signs must be text", where=where)
         if node.kind == "sum":
             if not (MIN_SUM_PORTS <= len(node.signs) <= MAX_SUM_PORTS) or set(node.signs) - {"+", "-"}:
                 raise ModelError("E302", f"signs must be {MIN_SUM_PORTS} to {MAX_SUM_PORTS} of '+' and '-'",
@@ -268,14 +293,14 @@ class Diagram:
             raise ModelError("E302", f"'{src.title}' is an output and has nothing to send", where=where)
         if dst.input_count == 0:
             raise ModelError("E302", f"'{dst.title}' is an input and takes no wire", where=where)
-        if not isinstance(port, int) or not 0 <= port < dst.input_count:
+        if not isinstance(port, int) or isinstance(port, bool) or not 0 <= port < dst.input_count:
             raise ModelError("E302", f"'{dst.title}' has no input {port + 1 if isinstance(port, int) else port}",
                              where=where)
         if self.wire_into(target, port) is not None:
             raise ModelError("E302", f"input {port + 1} of '{dst.title}' already has a wire", where=where)
         if source == target:
             raise ModelError("E302", "a node cannot feed itself directly", where=where)
-        wire = Wire(source, target, port, [tuple(map(float, b)) for b in (bends or [])])
+        wire = Wire(source, target, port, _checked_bends(bends, where))
         self.wires.insert(len(self.wires) if index is None else index, wire)
         self._emit("wire_added", wire.key)
         return wire
@@ -290,7 +315,8 @@ class Diagram:
     def set_wire_bends(self, key: str, bends: list[tuple[float, float]]) -> list[tuple[float, float]]:
         """Replace a wire's waypoints; return the old ones."""
         wire = self.wires[self.wire_index(key)]
-        old, wire.bends = wire.bends, [tuple(map(float, b)) for b in bends]
+        new = _checked_bends(bends, f"wire {key}")
+        old, wire.bends = wire.bends, new
         self._emit("wire_changed", key)
         return old
 
@@ -302,7 +328,7 @@ class Diagram:
         if not isinstance(p.name, str) or not PARAMETER_PATTERN.match(p.name) or p.name == "s":
             raise ModelError("E304", f"{p.name!r} is not a usable parameter name", where=where)
         values = (p.nominal, p.minimum, p.maximum)
-        if not all(isinstance(v, (int, float)) and math.isfinite(v) and abs(v) <= 1e300 for v in values):
+        if not all(_is_finite_real(v) and abs(v) <= 1e300 for v in values):
             raise ModelError("E304", "nominal, min and max must be finite numbers", where=where)
         if not p.minimum < p.maximum:
             raise ModelError("E304", "min must be below max", where=where)
@@ -314,17 +340,18 @@ class Diagram:
 
     def remove_parameter(self, name: str) -> Parameter:
         """Remove a parameter (and clear the tuning choice if it was that one)."""
-        if name not in self.parameters:
+        if not isinstance(name, str) or name not in self.parameters:
             raise ModelError("E304", f"there is no parameter '{name}'", where=f"parameter {name}")
         old = self.parameters.pop(name)
+        self._emit("parameters_changed", name)
         if self.sweep == name:
             self.sweep = None
-        self._emit("parameters_changed", name)
+            self._emit("settings_changed", "sweep")
         return old
 
     def set_sweep(self, name: str | None) -> str | None:
         """Choose the tuning parameter (None for none); return the previous choice."""
-        if name is not None and name not in self.parameters:
+        if name is not None and (not isinstance(name, str) or name not in self.parameters):
             raise ModelError("E304", f"there is no parameter '{name}' to tune", where=f"parameter {name}")
         old, self.sweep = self.sweep, name
         self._emit("settings_changed", "sweep")
@@ -344,7 +371,7 @@ class Diagram:
             raise ModelError("E302", f"decay mode must be one of {', '.join(DECAY_MODES)}", where="analysis")
         if "decay_value" in changes:
             v = changes["decay_value"]
-            if not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
+            if not _is_finite_real(v) or v < 0:
                 raise ModelError("E304", "the decay requirement must be a number >= 0", where="analysis")
         old = {k: getattr(self.analysis, k) for k in changes}
         for k, v in changes.items():

@@ -1,0 +1,785 @@
+"""Project files (``*.loop.json``): read, validate, migrate, write atomically, recover.
+
+Reading goes in three steps: bytes -> JSON (strict: UTF-8, no NaN/Infinity, no duplicate keys,
+bounded size and nesting) -> a plain, fully type-checked :class:`ProjectSpec` -> a
+:class:`~core.model.Diagram` built through its own methods, so the model's validation applies.
+Old files are lifted to :data:`CURRENT_VERSION` by the chained :data:`MIGRATIONS` first.
+
+Errors. Everything that goes wrong raises :class:`~core.errors.ProjectFileError` whose ``where``
+names the file and the node, wire or field at fault (``"belt.loop.json, node P, den"``).
+Codes are the E2xx of the catalogue (E201 not JSON or not UTF-8, E202 not a project file, E203
+newer version, E204 field missing, E205 wrong type or value, E206 wire to a missing node, E207
+duplicate id, E208 cannot read, E209 cannot save, E210 changed on disk), with one exception: when
+a block's typed polynomial text is invalid the parser's own E1xx code is kept (the text is the
+fault, not the file structure) and the original :class:`~core.errors.ExpressionError` is chained
+as ``__cause__``.
+
+Parameters named in blocks but missing from ``parameters`` are accepted and left missing: the
+analysis reports them (E404), and the file is not silently changed.
+
+Version 1 wrote the decay requirement as ``analysis.decay`` (sigma, 1/s); version 2 writes
+``decay_mode`` + ``decay_value``. Optional fields in both: node ``label``/``flipped``, wire
+``bends``, top-level ``notes`` and ``view`` (window state; dropped when it is not a JSON object of
+plain values, since it never changes meaning).
+
+>>> text = '''{"format": "loopwright-project", "version": 1, "name": "demo",
+...   "nodes": [{"id": "r", "kind": "input"}, {"id": "y", "kind": "output", "x": 100}],
+...   "wires": [{"from": "r", "to": "y"}], "analysis": {"input": "r", "output": "y", "decay": 0.5}}'''
+>>> d = loads_project(text, "demo.loop.json")
+>>> d.analysis.decay_mode, d.analysis.decay_value, d.node("y").x
+('sigma', 0.5, 100.0)
+>>> project_to_dict(d)["version"] == CURRENT_VERSION
+True
+>>> loads_project('{"format": "loopwright-project", "version": 99, "nodes": []}', "x")
+Traceback (most recent call last):
+core.errors.ProjectFileError: E203 at x: made by a newer Loopwright (version 99); this one reads up to 2
+"""
+from __future__ import annotations
+
+import errno
+import hashlib
+import json
+import math
+import os
+import re
+import secrets
+import stat
+import time
+from dataclasses import dataclass
+from itertools import accumulate
+from pathlib import Path
+from typing import Any, Callable, NamedTuple
+
+from .errors import ExpressionError, LoopwrightError, ModelError, ProjectFileError
+from .model import Diagram, Node, Parameter
+
+FORMAT = "loopwright-project"
+RECOVERY_FORMAT = "loopwright-recovery"
+CURRENT_VERSION = 2
+SUFFIX = ".loop.json"
+MAX_FILE_BYTES = 10 * 1024 * 1024
+MAX_NODES = 5000
+MAX_WIRES = 20000
+MAX_PARAMETERS = 500
+MAX_BENDS = 500
+MAX_DEPTH = 32          # JSON nesting; a valid project needs 5 (top, list, wire, bends, pair)
+MAX_VIEW_DEPTH = 4
+MAX_TEXT = 100_000      # notes
+MAX_SHORT_TEXT = 1_000  # name, label
+MAX_COORDINATE = 1e9
+DEFAULT_NAME = "untitled loop"
+SAVE_AS_HINT = "choose another folder with Save As"
+
+
+# -- the intermediate plain form --------------------------------------------------------------
+@dataclass(frozen=True)
+class NodeSpec:
+    id: str
+    kind: str
+    x: float
+    y: float
+    label: str
+    flipped: bool
+    role: str
+    num: str
+    den: str
+    signs: str
+
+
+@dataclass(frozen=True)
+class WireSpec:
+    source: str
+    target: str
+    port: int
+    bends: tuple[tuple[float, float], ...]
+
+
+@dataclass(frozen=True)
+class ParameterSpec:
+    name: str
+    nominal: float
+    minimum: float
+    maximum: float
+
+
+@dataclass(frozen=True)
+class ProjectSpec:
+    """A project file's content, every field type-checked, in the current version's shape."""
+
+    name: str
+    notes: str
+    parameters: tuple[ParameterSpec, ...]
+    sweep: str | None
+    nodes: tuple[NodeSpec, ...]
+    wires: tuple[WireSpec, ...]
+    analysis_input: str | None
+    analysis_output: str | None
+    decay_mode: str
+    decay_value: float
+    view: dict
+
+
+# -- migrations ---------------------------------------------------------------------------------
+def migrate_1_to_2(data: dict) -> dict:
+    """Version 1 -> 2: ``analysis.decay`` (sigma, 1/s) becomes ``decay_mode`` + ``decay_value``.
+
+    When a version-1 file already carries ``decay_mode``/``decay_value`` those win over ``decay``.
+
+    >>> migrate_1_to_2({"version": 1, "analysis": {"decay": 0.3}})["analysis"]
+    {'decay_mode': 'sigma', 'decay_value': 0.3}
+    """
+    out = dict(data, version=2)
+    analysis = data.get("analysis")
+    if isinstance(analysis, dict) and "decay" in analysis:
+        analysis = dict(analysis)
+        decay = analysis.pop("decay")
+        if "decay_value" not in analysis:
+            analysis.setdefault("decay_mode", "sigma")
+            analysis["decay_value"] = decay
+        out["analysis"] = analysis
+    return out
+
+
+MIGRATIONS: dict[int, Callable[[dict], dict]] = {1: migrate_1_to_2}
+
+
+def migrate(data: dict, where: str) -> dict:
+    """Lift a raw project dict to :data:`CURRENT_VERSION` through the chained migrations."""
+    version = data.get("version")
+    if version is None:
+        raise ProjectFileError("E204", "the 'version' field is missing", where=where)
+    if not _is_int(version) or version < 1:
+        raise ProjectFileError("E205", f"'version' must be a whole number from 1, not {version!r}", where=where)
+    if version > CURRENT_VERSION:
+        raise ProjectFileError("E203", f"made by a newer Loopwright (version {version}); "
+                                       f"this one reads up to {CURRENT_VERSION}", where=where)
+    while version < CURRENT_VERSION:
+        data = MIGRATIONS[version](data)
+        version = data["version"]
+    return data
+
+
+# -- JSON text ----------------------------------------------------------------------------------
+def _reject_constant(name: str):
+    raise ValueError(f"{name} is not allowed in a project file")
+
+
+def _finite_float(text: str) -> float:
+    value = float(text)
+    if not math.isfinite(value):
+        raise ValueError(f"number {text[:20]} is out of range")
+    return value
+
+
+def _object_without_duplicates(pairs: list[tuple[str, Any]]) -> dict:
+    out: dict = {}
+    for key, value in pairs:
+        if key in out:
+            raise ValueError(f"the key '{key[:40]}' appears twice in one object")
+        out[key] = value
+    return out
+
+
+_JSON_STRING = re.compile(r'"(?:[^"\\]|\\.)*"', re.DOTALL)
+_NOT_BRACKET = re.compile(r"[^\[\]{}]+")
+
+
+def _json_depth_ok(text: str) -> bool:
+    """Whether brackets outside strings nest at most :data:`MAX_DEPTH` deep (checked before parsing)."""
+    brackets = _NOT_BRACKET.sub("", _JSON_STRING.sub("", text))
+    return max(accumulate(1 if c in "[{" else -1 for c in brackets), default=0) <= MAX_DEPTH
+
+
+def _decode(raw: bytes | str, where: str) -> str:
+    if isinstance(raw, str):
+        return raw
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise ProjectFileError("E201", f"the file is not UTF-8 text (byte 0x{raw[exc.start]:02x} at offset "
+                                       f"{exc.start}); save it as UTF-8", where=where) from None
+
+
+def _parse_json(text: str, where: str) -> Any:
+    if not _json_depth_ok(text):
+        raise ProjectFileError("E201", f"the JSON is nested more than {MAX_DEPTH} levels deep", where=where)
+    try:
+        return json.loads(text, parse_constant=_reject_constant, parse_float=_finite_float,
+                          object_pairs_hook=_object_without_duplicates)
+    except json.JSONDecodeError as exc:
+        raise ProjectFileError("E201", f"not valid JSON: {exc.msg} (line {exc.lineno}, column {exc.colno})",
+                               where=where) from None
+    except (ValueError, RecursionError) as exc:
+        raise ProjectFileError("E201", f"not valid JSON: {exc}", where=where) from None
+
+
+# -- field checks -------------------------------------------------------------------------------
+def _is_int(v) -> bool:
+    return isinstance(v, int) and not isinstance(v, bool)
+
+
+def _is_number(v) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
+
+
+def _type_name(v) -> str:
+    return {bool: "true/false", int: "a whole number", float: "a number", str: "text", list: "a list",
+            dict: "an object", type(None): "null"}.get(type(v), type(v).__name__)
+
+
+class _Fields:
+    """Typed access to one JSON object's fields, every error naming the place in the file."""
+
+    def __init__(self, obj, where: str, what: str, known: tuple[str, ...]):
+        if not isinstance(obj, dict):
+            raise ProjectFileError("E205", f"{what} must be an object, not {_type_name(obj)}", where=where)
+        unknown = [k for k in obj if k not in known]
+        if unknown:
+            raise ProjectFileError("E205", f"{what} has an unknown field '{str(unknown[0])[:40]}' "
+                                           f"(known: {', '.join(known)})", where=where)
+        self.obj, self.where = obj, where
+
+    def _get(self, key, default, required):
+        if key not in self.obj:
+            if required:
+                raise ProjectFileError("E204", f"the '{key}' field is missing", where=self.where)
+            return default
+        return self.obj[key]
+
+    def text(self, key, default="", *, required=False, limit=MAX_SHORT_TEXT, nullable=False):
+        v = self._get(key, default, required)
+        if v is None and nullable:
+            return None
+        if not isinstance(v, str):
+            raise ProjectFileError("E205", f"'{key}' must be text, not {_type_name(v)}", where=self.where)
+        if len(v) > limit:
+            raise ProjectFileError("E205", f"'{key}' is longer than {limit} characters", where=self.where)
+        return v
+
+    def number(self, key, default=0.0, *, required=False, limit=1e300):
+        v = self._get(key, default, required)
+        if not _is_number(v) or abs(v) > limit:
+            raise ProjectFileError("E205", f"'{key}' must be a finite number"
+                                           f"{'' if limit >= 1e300 else f' within +/-{limit:g}'}, "
+                                           f"not {_type_name(v)}", where=self.where)
+        return float(v)
+
+    def integer(self, key, default=0):
+        v = self._get(key, default, False)
+        if not _is_int(v) or v < 0:
+            raise ProjectFileError("E205", f"'{key}' must be a whole number >= 0, not {_type_name(v)}",
+                                   where=self.where)
+        return v
+
+    def boolean(self, key, default=False):
+        v = self._get(key, default, False)
+        if not isinstance(v, bool):
+            raise ProjectFileError("E205", f"'{key}' must be true or false, not {_type_name(v)}",
+                                   where=self.where)
+        return v
+
+    def items(self, key, limit, *, required=False):
+        v = self._get(key, [], required)
+        if not isinstance(v, list):
+            raise ProjectFileError("E205", f"'{key}' must be a list, not {_type_name(v)}", where=self.where)
+        if len(v) > limit:
+            raise ProjectFileError("E205", f"'{key}' has {len(v)} entries; at most {limit} are allowed",
+                                   where=self.where)
+        return v
+
+
+NODE_FIELDS = {
+    "input": (), "output": (), "branch": (), "sum": ("signs",), "block": ("role", "num", "den"),
+}
+COMMON_NODE_FIELDS = ("id", "kind", "x", "y", "label", "flipped")
+
+
+def _node_spec(obj, source: str, index: int) -> NodeSpec:
+    place = f"{source}, node {index + 1}"
+    if isinstance(obj, dict) and isinstance(obj.get("id"), str):
+        place = f"{source}, node {obj['id'][:64]}"
+    if not isinstance(obj, dict):
+        raise ProjectFileError("E205", f"a node must be an object, not {_type_name(obj)}", where=place)
+    if "kind" not in obj:
+        raise ProjectFileError("E204", "the 'kind' field is missing", where=place)
+    kind = obj["kind"]
+    if not isinstance(kind, str) or kind not in NODE_FIELDS:
+        raise ProjectFileError("E205", f"unknown node kind {str(kind)[:40]!r} "
+                                       f"(one of {', '.join(NODE_FIELDS)})", where=place)
+    f = _Fields(obj, place, "a node", COMMON_NODE_FIELDS + NODE_FIELDS.get(kind, ()))
+    return NodeSpec(
+        id=f.text("id", required=True, limit=64), kind=f.text("kind", required=True),
+        x=f.number("x", limit=MAX_COORDINATE), y=f.number("y", limit=MAX_COORDINATE),
+        label=f.text("label"), flipped=f.boolean("flipped"),
+        role=f.text("role", "other"), num=f.text("num", "1", limit=MAX_TEXT),
+        den=f.text("den", "1", limit=MAX_TEXT), signs=f.text("signs", "+-"))
+
+
+def _wire_spec(obj, source: str, index: int) -> WireSpec:
+    place = f"{source}, wire {index + 1}"
+    if isinstance(obj, dict) and isinstance(obj.get("from"), str) and isinstance(obj.get("to"), str):
+        place = f"{source}, wire {obj['from'][:64]}->{obj['to'][:64]}"
+    f = _Fields(obj, place, "a wire", ("from", "to", "port", "bends"))
+    bends = []
+    for i, b in enumerate(f.items("bends", MAX_BENDS)):
+        if not (isinstance(b, list) and len(b) == 2 and all(_is_number(v) and abs(v) <= MAX_COORDINATE for v in b)):
+            raise ProjectFileError("E205", f"bend {i + 1} must be a pair [x, y] of finite numbers", where=place)
+        bends.append((float(b[0]), float(b[1])))
+    return WireSpec(f.text("from", required=True, limit=64), f.text("to", required=True, limit=64),
+                    f.integer("port"), tuple(bends))
+
+
+def _parameter_spec(obj, source: str, index: int) -> ParameterSpec:
+    place = f"{source}, parameter {index + 1}"
+    if isinstance(obj, dict) and isinstance(obj.get("name"), str):
+        place = f"{source}, parameter {obj['name'][:64]}"
+    f = _Fields(obj, place, "a parameter", ("name", "nominal", "min", "max"))
+    return ParameterSpec(f.text("name", required=True, limit=64), f.number("nominal", 1.0),
+                         f.number("min", 0.0), f.number("max", 10.0))
+
+
+def _plain_view(value, depth: int = 0) -> bool:
+    """Whether ``value`` is window state made of plain JSON values, nested at most a few levels."""
+    if value is None or isinstance(value, (bool, str)) or _is_number(value):
+        return True
+    if depth >= MAX_VIEW_DEPTH:
+        return False
+    if isinstance(value, list):
+        return all(_plain_view(v, depth + 1) for v in value)
+    if isinstance(value, dict):
+        return all(isinstance(k, str) and _plain_view(v, depth + 1) for k, v in value.items())
+    return False
+
+
+TOP_FIELDS = ("format", "version", "name", "notes", "parameters", "sweep", "nodes", "wires", "analysis", "view")
+
+
+def parse_spec(data, source: str = "<memory>") -> ProjectSpec:
+    """Check a decoded JSON value field by field and return it in the current version's plain form."""
+    if not isinstance(data, dict):
+        raise ProjectFileError("E202", f"a project file holds one JSON object, not {_type_name(data)}",
+                               where=source)
+    if data.get("format") != FORMAT:
+        found = data.get("format")
+        raise ProjectFileError("E202", f"not a Loopwright project file (format is "
+                                       f"{str(found)[:40]!r}, expected '{FORMAT}')", where=source)
+    data = migrate(data, source)
+    top = _Fields(data, source, "the project", TOP_FIELDS)
+    nodes = tuple(_node_spec(o, source, i) for i, o in enumerate(top.items("nodes", MAX_NODES, required=True)))
+    wires = tuple(_wire_spec(o, source, i) for i, o in enumerate(top.items("wires", MAX_WIRES)))
+    params = tuple(_parameter_spec(o, source, i)
+                   for i, o in enumerate(top.items("parameters", MAX_PARAMETERS)))
+    analysis = _Fields(data.get("analysis", {}), f"{source}, analysis", "'analysis'",
+                       ("input", "output", "decay_mode", "decay_value"))
+    view = data.get("view", {})
+    return ProjectSpec(
+        name=top.text("name", DEFAULT_NAME), notes=top.text("notes", limit=MAX_TEXT),
+        parameters=params, sweep=top.text("sweep", None, nullable=True, limit=64),
+        nodes=nodes, wires=wires,
+        analysis_input=analysis.text("input", None, nullable=True, limit=64),
+        analysis_output=analysis.text("output", None, nullable=True, limit=64),
+        decay_mode=analysis.text("decay_mode", "sigma"), decay_value=analysis.number("decay_value", 0.0),
+        view=view if isinstance(view, dict) and _plain_view(view) else {})
+
+
+# -- building the model ---------------------------------------------------------------------------
+def _model_error(exc: LoopwrightError, place: str, source: str) -> ProjectFileError:
+    """The file-level error for a refusal by the model or the expression parser at ``place``.
+
+    An expression error keeps its E1xx code and its own place, which already reads
+    ``node P, denominator, column 7``; the file name goes in front.
+    """
+    if isinstance(exc, ExpressionError):
+        return ProjectFileError(exc.code, exc.message, where=f"{source}, {exc.where}" if exc.where else place)
+    code = {"E303": "E207", "E301": "E206"}.get(exc.code, "E205")
+    return ProjectFileError(code, exc.message, where=place)
+
+
+def diagram_from_spec(spec: ProjectSpec, source: str = "<memory>") -> Diagram:
+    """Build a :class:`Diagram` through its methods; refusals become :class:`ProjectFileError`."""
+    d = Diagram(name=spec.name, notes=spec.notes)
+    for p in spec.parameters:
+        place = f"{source}, parameter {p.name}"
+        if p.name in d.parameters:
+            raise ProjectFileError("E207", f"the parameter '{p.name}' is defined twice", where=place)
+        try:
+            d.set_parameter(Parameter(p.name, p.nominal, p.minimum, p.maximum))
+        except LoopwrightError as exc:
+            raise _model_error(exc, place, source) from exc
+    for n in spec.nodes:
+        place = f"{source}, node {n.id}"
+        if n.id in d.nodes:
+            raise ProjectFileError("E207", f"the node id '{n.id}' is used twice", where=place)
+        try:
+            d.add_node(Node(n.id, n.kind, n.x, n.y, n.label, n.role, n.num, n.den, n.signs, n.flipped))
+        except LoopwrightError as exc:
+            raise _model_error(exc, place, source) from exc
+    for w in spec.wires:
+        place = f"{source}, wire {w.source}->{w.target}:{w.port}"
+        for end in (w.source, w.target):
+            if end not in d.nodes:
+                raise ProjectFileError("E206", f"the wire refers to node '{end}', which does not exist",
+                                       where=place)
+        try:
+            d.connect(w.source, w.target, w.port, bends=list(w.bends))
+        except LoopwrightError as exc:
+            raise _model_error(exc, place, source) from exc
+    for key, value in (("input", spec.analysis_input), ("output", spec.analysis_output)):
+        if value is not None and value not in d.nodes:
+            raise ProjectFileError("E206", f"the analysis {key} '{value}' is not a node of this diagram",
+                                   where=f"{source}, analysis")
+    try:
+        d.set_sweep(spec.sweep)
+    except ModelError as exc:
+        raise _model_error(exc, f"{source}, sweep", source) from exc
+    try:
+        d.set_analysis(input=spec.analysis_input, output=spec.analysis_output,
+                       decay_mode=spec.decay_mode, decay_value=spec.decay_value)
+    except ModelError as exc:
+        raise _model_error(exc, f"{source}, analysis", source) from exc
+    d.view = dict(spec.view)
+    return d
+
+
+def project_from_dict(data, source: str = "<memory>") -> Diagram:
+    """A :class:`Diagram` from a decoded JSON value (any version this program reads).
+
+    >>> d = project_from_dict({"format": "loopwright-project", "version": 2,
+    ...                        "nodes": [{"id": "r", "kind": "input"}]})
+    >>> list(d.nodes), d.name
+    (['r'], 'untitled loop')
+    """
+    return diagram_from_spec(parse_spec(data, source), source)
+
+
+def loads_project(text: str | bytes, source: str = "<memory>") -> Diagram:
+    """A :class:`Diagram` from the text (or UTF-8 bytes) of a project file."""
+    size = len(text.encode("utf-8")) if isinstance(text, str) else len(text)
+    if size > MAX_FILE_BYTES:
+        raise ProjectFileError("E208", f"the file is {size / 1e6:.1f} MB; project files are at most "
+                                       f"{MAX_FILE_BYTES // (1024 * 1024)} MB", where=source)
+    return project_from_dict(_parse_json(_decode(text, source), source), source)
+
+
+def _read_bytes(path: Path) -> bytes:
+    where = str(path)
+    try:
+        if path.is_dir():
+            raise ProjectFileError("E208", "this is a folder, not a project file", where=where)
+        with open(path, "rb") as fh:
+            raw = fh.read(MAX_FILE_BYTES + 1)
+    except FileNotFoundError:
+        raise ProjectFileError("E208", "there is no such file", where=where) from None
+    except PermissionError:
+        raise ProjectFileError("E208", "no permission to read this file", where=where) from None
+    except OSError as exc:
+        raise ProjectFileError("E208", f"cannot read the file: {exc.strerror or exc}", where=where) from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise ProjectFileError("E208", f"the file is larger than {MAX_FILE_BYTES // (1024 * 1024)} MB, "
+                                       "too large for a project file", where=where)
+    return raw
+
+
+def load_project(path) -> Diagram:
+    """Read a project file; every problem is a :class:`ProjectFileError` naming the file."""
+    path = Path(path)
+    return loads_project(_read_bytes(path), str(path))
+
+
+# -- writing --------------------------------------------------------------------------------------
+def _plain_number(v: float):
+    """Whole floats written as ints (``80`` rather than ``80.0``) for readable files."""
+    return int(v) if float(v).is_integer() and abs(v) < 2 ** 53 else float(v)
+
+
+def project_to_dict(diagram: Diagram) -> dict:
+    """The current-version JSON form of a diagram (only fields that carry something are written)."""
+    nodes = []
+    for n in diagram.nodes.values():
+        item = {"id": n.id, "kind": n.kind}
+        if n.kind == "block":
+            item.update(role=n.role, num=n.num, den=n.den)
+        elif n.kind == "sum":
+            item["signs"] = n.signs
+        item.update(x=_plain_number(n.x), y=_plain_number(n.y))
+        if n.label:
+            item["label"] = n.label
+        if n.flipped:
+            item["flipped"] = True
+        nodes.append(item)
+    wires = []
+    for w in diagram.wires:
+        item = {"from": w.source, "to": w.target, "port": w.port}
+        if w.bends:
+            item["bends"] = [[_plain_number(x), _plain_number(y)] for x, y in w.bends]
+        wires.append(item)
+    out = {"format": FORMAT, "version": CURRENT_VERSION, "name": diagram.name}
+    if diagram.notes:
+        out["notes"] = diagram.notes
+    out["parameters"] = [{"name": p.name, "nominal": _plain_number(p.nominal), "min": _plain_number(p.minimum),
+                          "max": _plain_number(p.maximum)} for p in diagram.parameters.values()]
+    out["sweep"] = diagram.sweep
+    out["nodes"], out["wires"] = nodes, wires
+    a = diagram.analysis
+    out["analysis"] = {"input": a.input, "output": a.output, "decay_mode": a.decay_mode,
+                       "decay_value": _plain_number(a.decay_value)}
+    if diagram.view and _plain_view(diagram.view):
+        out["view"] = diagram.view
+    return out
+
+
+def dumps_project(diagram: Diagram) -> str:
+    """Project file text: one node, wire or parameter per line, so diffs stay readable."""
+    data = project_to_dict(diagram)
+    lines = []
+    for key, value in data.items():
+        if isinstance(value, list) and value:
+            inner = ",\n".join("    " + json.dumps(v, ensure_ascii=False) for v in value)
+            lines.append(f"  {json.dumps(key)}: [\n{inner}\n  ]")
+        else:
+            lines.append(f"  {json.dumps(key)}: {json.dumps(value, ensure_ascii=False)}")
+    return "{\n" + ",\n".join(lines) + "\n}\n"
+
+
+class Fingerprint(NamedTuple):
+    """What a file looked like when it was read: a file counts as changed when size or hash differ."""
+
+    mtime_ns: int
+    size: int
+    sha256: str
+
+    def same_content(self, other: "Fingerprint | None") -> bool:
+        """Whether ``other`` describes the same bytes (a touched but unchanged file is the same)."""
+        return other is not None and (self.size, self.sha256) == (other.size, other.sha256)
+
+
+def file_fingerprint(path) -> Fingerprint:
+    """Modification time, size and SHA-256 of a file (E208 when it cannot be read)."""
+    path = Path(path)
+    raw = _read_bytes(path)
+    try:
+        mtime = path.stat().st_mtime_ns
+    except OSError as exc:
+        raise ProjectFileError("E208", f"cannot read the file: {exc.strerror or exc}", where=str(path)) from None
+    return Fingerprint(mtime, len(raw), hashlib.sha256(raw).hexdigest())
+
+
+def _os_problem(exc: OSError) -> str:
+    if exc.errno in (errno.ENOSPC, getattr(errno, "EDQUOT", -1)):
+        return "the disk is full"
+    if isinstance(exc, PermissionError) or exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
+        return "no permission to write there"
+    return exc.strerror or str(exc) or type(exc).__name__
+
+
+def _fsync_directory(directory: Path) -> None:
+    """Make a rename durable where the platform allows opening a directory (not on Windows)."""
+    try:
+        fd = os.open(directory, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
+
+
+def _write_temp(directory: Path, stem: str, data: bytes, mode: int | None = None) -> Path:
+    """A new hidden temp file beside the target holding ``data``, flushed and fsynced.
+
+    Created with mode 0o666 less the umask (like any new file), or ``mode`` to keep an existing
+    file's permissions.
+    """
+    temp = directory / f".{stem}.{secrets.token_hex(6)}.tmp"
+    fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0), 0o666)
+    try:
+        if mode is not None:
+            os.chmod(temp, mode)
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+    except BaseException:
+        _remove_quietly(Path(temp))
+        raise
+    return temp
+
+
+def _remove_quietly(path: Path) -> None:
+    try:
+        os.unlink(path)
+    except OSError:
+        pass
+
+
+def atomic_write(path, data: bytes, *, backup: bool = True) -> None:
+    """Replace ``path`` with ``data`` so that readers see the old file or the new one, never half.
+
+    The new bytes go to a temp file in the same folder (flushed and fsynced), the old file is
+    copied to ``NAME.bak`` (itself written atomically), then the temp file is renamed over
+    ``path`` and the folder fsynced. On any failure the old file is untouched, temp files are
+    removed and :class:`ProjectFileError` E209 says what and where.
+    """
+    path = Path(path)
+    where = str(path)
+    if path.is_dir():
+        raise ProjectFileError("E209", f"this is a folder; {SAVE_AS_HINT} and a file name", where=where)
+    directory = path.parent
+    if not directory.is_dir():
+        raise ProjectFileError("E209", f"the folder {directory} does not exist; {SAVE_AS_HINT}", where=where)
+    temps: list[Path] = []
+    try:
+        existing = path.is_file()
+        mode = stat.S_IMODE(path.stat().st_mode) if existing else None
+        temps.append(_write_temp(directory, path.name, data, mode))
+        if backup and existing:
+            old = path.read_bytes()
+            temps.append(_write_temp(directory, path.name + ".bak", old, mode))
+            os.replace(temps[-1], path.with_name(path.name + ".bak"))
+            temps.pop()
+        os.replace(temps[0], path)
+        temps.pop()
+    except OSError as exc:
+        raise ProjectFileError("E209", f"could not save in {directory}: {_os_problem(exc)}; "
+                                       f"the previous file is unchanged; {SAVE_AS_HINT}", where=where) from exc
+    finally:
+        for temp in temps:
+            _remove_quietly(temp)
+    _fsync_directory(directory)
+
+
+def save_project(diagram: Diagram, path, *, expected_fingerprint: Fingerprint | None = None,
+                 force: bool = False) -> Fingerprint:
+    """Write the diagram atomically, keeping the previous file as ``NAME.bak``; return the new fingerprint.
+
+    With ``expected_fingerprint`` (from :func:`file_fingerprint` when the file was opened or last
+    saved) the save is refused with E210 if the file's content changed on disk meanwhile, unless
+    ``force`` is true.
+
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> fp = save_project(Diagram("demo"), folder / "demo.loop.json")
+    >>> load_project(folder / "demo.loop.json").name, fp == file_fingerprint(folder / "demo.loop.json")
+    ('demo', True)
+    """
+    path = Path(path)
+    data = dumps_project(diagram).encode("utf-8")
+    if expected_fingerprint is not None and not force:
+        try:
+            current = file_fingerprint(path)
+        except ProjectFileError:
+            current = None
+        if not expected_fingerprint.same_content(current):
+            what = "was removed" if current is None else "was changed by another program"
+            raise ProjectFileError("E210", f"the file {what} since it was opened; save anyway to "
+                                           f"overwrite, or {SAVE_AS_HINT}", where=str(path))
+    atomic_write(path, data)
+    try:
+        mtime = path.stat().st_mtime_ns
+    except OSError:
+        mtime = 0
+    return Fingerprint(mtime, len(data), hashlib.sha256(data).hexdigest())
+
+
+# -- crash recovery ---------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Recovery:
+    """An autosaved copy found on start-up: where it is, which project it belongs to, when."""
+
+    path: Path
+    project_path: Path | None
+    saved_at: float
+    name: str
+
+
+def state_directory() -> Path:
+    """Per-user state folder: $LOOPWRIGHT_STATE_DIR, else $XDG_STATE_HOME/loopwright, else ~/.local/state/loopwright."""
+    override = os.environ.get("LOOPWRIGHT_STATE_DIR")
+    if override:
+        return Path(override)
+    base = os.environ.get("XDG_STATE_HOME") or str(Path.home() / ".local" / "state")
+    return Path(base) / "loopwright"
+
+
+def recovery_directory() -> Path:
+    """Where autosaved copies live."""
+    return state_directory() / "recovery"
+
+
+def recovery_path(project_path=None) -> Path:
+    """The autosave file for a project (by its absolute path), or for this process's untitled one.
+
+    >>> recovery_path("/home/a/belt.loop.json").name.startswith("belt-")
+    True
+    """
+    if project_path is None:
+        name = f"untitled-{os.getpid()}"
+    else:
+        absolute = str(Path(project_path).expanduser().absolute())
+        stem = Path(absolute).name.removesuffix(SUFFIX)[:40] or "project"
+        name = f"{stem}-{hashlib.sha256(absolute.encode('utf-8', 'surrogatepass')).hexdigest()[:12]}"
+    return recovery_directory() / f"{name}.recovery.json"
+
+
+def write_recovery(diagram: Diagram, project_path=None) -> Path:
+    """Autosave the diagram (atomically, no backup) to its :func:`recovery_path`; return that path."""
+    target = recovery_path(project_path)
+    try:
+        target.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise ProjectFileError("E209", f"cannot create the recovery folder: {_os_problem(exc)}",
+                               where=str(target.parent)) from exc
+    wrapper = {"format": RECOVERY_FORMAT, "version": 1,
+               "project_path": None if project_path is None else str(Path(project_path).absolute()),
+               "saved_at": time.time(), "project": project_to_dict(diagram)}
+    atomic_write(target, json.dumps(wrapper, ensure_ascii=False).encode("utf-8"), backup=False)
+    return target
+
+
+def _read_recovery(path: Path) -> dict:
+    data = _parse_json(_decode(_read_bytes(path), str(path)), str(path))
+    if not (isinstance(data, dict) and data.get("format") == RECOVERY_FORMAT and data.get("version") == 1
+            and isinstance(data.get("project"), dict) and _is_number(data.get("saved_at"))
+            and (data.get("project_path") is None or isinstance(data.get("project_path"), str))):
+        raise ProjectFileError("E202", "not a Loopwright recovery file", where=str(path))
+    return data
+
+
+def find_recoveries() -> list[Recovery]:
+    """Autosaved copies waiting to be restored or discarded, newest first (unreadable ones skipped)."""
+    directory = recovery_directory()
+    if not directory.is_dir():
+        return []
+    found = []
+    for path in directory.glob("*.recovery.json"):
+        try:
+            data = _read_recovery(path)
+        except ProjectFileError:
+            continue
+        name = data["project"].get("name")
+        found.append(Recovery(path, Path(data["project_path"]) if data["project_path"] else None,
+                              float(data["saved_at"]), name if isinstance(name, str) else DEFAULT_NAME))
+    return sorted(found, key=lambda r: r.saved_at, reverse=True)
+
+
+def load_recovery(path) -> Diagram:
+    """The diagram held in an autosaved copy."""
+    path = Path(path)
+    return project_from_dict(_read_recovery(path)["project"], str(path))
+
+
+def discard_recovery(path) -> None:
+    """Delete an autosaved copy (one inside :func:`recovery_directory`); a missing one is fine."""
+    path = Path(path)
+    if path.parent.resolve() != recovery_directory().resolve() or not path.name.endswith(".recovery.json"):
+        raise ProjectFileError("E209", "only autosaved copies in the recovery folder can be discarded",
+                               where=str(path))
+    try:
+        path.unlink()
+    except FileNotFoundError:
+        pass
+    except OSError as exc:
+        raise ProjectFileError("E209", f"cannot remove the autosaved copy: {_os_problem(exc)}",
+                               where=str(path)) from exc
