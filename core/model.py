@@ -24,6 +24,7 @@ from dataclasses import dataclass, field, replace
 from typing import Callable
 
 from .errors import ModelError
+from .requirements import Requirements
 
 NODE_KINDS = ("input", "output", "sum", "branch", "block")
 ROLES = ("gain", "controller", "actuator", "plant", "sensor", "other")
@@ -145,6 +146,7 @@ class Diagram:
         self.parameters: dict[str, Parameter] = {}
         self.sweep: str | None = None
         self.analysis = AnalysisSettings()
+        self.requirements = Requirements()
         self.view: dict = {}
         self._listeners: list[Listener] = []
 
@@ -377,6 +379,15 @@ class Diagram:
         for k, v in changes.items():
             setattr(self.analysis, k, float(v) if k == "decay_value" else v)
         self._emit("settings_changed", "analysis")
+        return old
+
+    def set_requirements(self, requirements: Requirements) -> Requirements:
+        """Replace the requirements (damping, overshoot, gain margin); return the old ones."""
+        if not isinstance(requirements, Requirements):
+            raise ModelError("E304", "requirements must be a Requirements value", where="requirements")
+        requirements.check()
+        old, self.requirements = self.requirements, requirements
+        self._emit("settings_changed", "requirements")
         return old
 
     def rename(self, name: str) -> str:
