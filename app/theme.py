@@ -2,7 +2,7 @@
 
 Role colours are the visual identity of DESIGN.md section 4 (controller teal, actuator violet,
 plant slate blue, sensor amber, gain and other grey). :func:`current_theme` picks the light or
-dark variant from the application's colour scheme or, failing that, its palette.
+dark variant from the application's palette (:func:`dark_palette` is a ready-made dark one).
 
 >>> light = Theme.light()
 >>> light.role_band("plant").name()
@@ -12,7 +12,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from PySide6.QtCore import Qt
 from PySide6.QtGui import QColor, QFont, QGuiApplication, QPalette
 
 ROLE_COLOURS = {
@@ -60,16 +59,41 @@ class Theme:
 
 
 def system_is_dark() -> bool:
-    """Whether the running application uses a dark colour scheme (palette as fallback)."""
+    """Whether the running application draws with a dark palette.
+
+    The palette decides, not the platform's colour-scheme hint: widgets are painted with the
+    palette, so panel colours must match it even where a style ignores the hint.
+    """
     app = QGuiApplication.instance()
     if app is None:
         return False
-    scheme = app.styleHints().colorScheme()
-    if scheme == Qt.ColorScheme.Dark:
-        return True
-    if scheme == Qt.ColorScheme.Light:
-        return False
     return app.palette().color(QPalette.ColorRole.Window).lightness() < 128
+
+
+def dark_palette() -> QPalette:
+    """A dark application palette in the canvas' dark colours (used by tests and screenshots).
+
+    >>> dark_palette().color(QPalette.ColorRole.Window).lightness() < 128
+    True
+    """
+    t = Theme.dark()
+    pal = QPalette()
+    roles = {
+        QPalette.ColorRole.Window: "#25282d", QPalette.ColorRole.WindowText: t.text.name(),
+        QPalette.ColorRole.Base: "#1e2126", QPalette.ColorRole.AlternateBase: "#2a2e35",
+        QPalette.ColorRole.Text: t.text.name(), QPalette.ColorRole.Button: "#2f333a",
+        QPalette.ColorRole.ButtonText: t.text.name(), QPalette.ColorRole.ToolTipBase: "#2f333a",
+        QPalette.ColorRole.ToolTipText: t.text.name(), QPalette.ColorRole.Highlight: "#3d6fb8",
+        QPalette.ColorRole.HighlightedText: "#ffffff", QPalette.ColorRole.PlaceholderText: t.muted_text.name(),
+        QPalette.ColorRole.Mid: "#3a3f47", QPalette.ColorRole.Dark: "#15171a", QPalette.ColorRole.Light: "#3f444c",
+        QPalette.ColorRole.Midlight: "#353940", QPalette.ColorRole.Shadow: "#000000",
+        QPalette.ColorRole.Link: "#5aa0ff", QPalette.ColorRole.BrightText: "#ff7b6b",
+    }
+    for role, name in roles.items():
+        pal.setColor(role, QColor(name))
+    for role in (QPalette.ColorRole.WindowText, QPalette.ColorRole.Text, QPalette.ColorRole.ButtonText):
+        pal.setColor(QPalette.ColorGroup.Disabled, role, QColor("#6c727c"))
+    return pal
 
 
 def current_theme() -> Theme:

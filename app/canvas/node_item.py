@@ -133,7 +133,8 @@ class NodeItem(QGraphicsItem):
         elif n.kind == "branch":
             self._body = QRectF(-BRANCH_RADIUS * 2, -BRANCH_RADIUS * 2, BRANCH_RADIUS * 4, BRANCH_RADIUS * 4)
             wanted = [(False, 0, QPointF(0, 0), None), (True, 0, QPointF(0, 0), None)]
-            self._bounds = self._body.adjusted(-2, -2, 2, 2)
+            r = BRANCH_HIT_RADIUS
+            self._bounds = self._body.united(QRectF(-r, -r, 2 * r, 2 * r))
         else:
             r = TERMINAL_RADIUS
             self._body = QRectF(-r, -r, 2 * r, 2 * r)
@@ -171,6 +172,42 @@ class NodeItem(QGraphicsItem):
                 port.prepareGeometryChange()
                 port.hit_radius = radius
             port.setPos(pos)
+            sign = None
+            if self.node.kind == "sum" and not out and i < len(self.node.signs):
+                sign = "+" if self.node.signs[i] == "+" else MINUS
+            port.describe(self.node.title, self.node.kind, sign)
+        self.setToolTip(self._tooltip())
+
+    def _tooltip(self) -> str:
+        n = self.node
+        if n.kind == "block":
+            return f"{n.title} ({n.role}): drag to move, edit its transfer function in the inspector"
+        if n.kind == "sum":
+            return "Summing junction: click a sign to flip it"
+        if n.kind == "branch":
+            return "Branch point: drag the dot to move it, drag from the ring (or Alt+drag) to draw a wire"
+        return f"{n.title}: the loop's {'input' if n.kind == 'input' else 'output'} terminal"
+
+    def hoverMoveEvent(self, event) -> None:
+        """Over a summing junction's sign: a pointing hand and "click to flip"."""
+        if self.node.kind == "sum":
+            index = self.sign_at(event.pos())
+            if index is None:
+                self.setToolTip(self._tooltip())
+                self.unsetCursor()
+            else:
+                sign = self.node.signs[index]
+                other = MINUS if sign == "+" else "+"
+                self.setToolTip(f"Sign of input {index + 1}: click to flip it to {other}")
+                self.setCursor(Qt.CursorShape.PointingHandCursor)
+        super().hoverMoveEvent(event)
+
+    def hoverEnterEvent(self, event) -> None:
+        scene = self.scene()
+        if self.node.kind == "branch" and scene is not None and hasattr(scene, "statusHint"):
+            scene.statusHint.emit("Branch point: drag from the ring to draw a wire (or Alt+drag from anywhere "
+                                  "on it); drag the dot to move it")
+        super().hoverEnterEvent(event)
 
     def _doc(self, text: str) -> QTextDocument:
         doc = QTextDocument()
@@ -186,7 +223,12 @@ class NodeItem(QGraphicsItem):
 
     def shape(self) -> QPainterPath:
         path = QPainterPath()
-        if self.node.kind in ("sum", "branch"):
+        if self.node.kind == "sum":
+            path.addEllipse(self._body.adjusted(-2, -2, 2, 2))
+            for spot in self._sign_spots:  # the signs are clickable: part of the item
+                path.addRect(QRectF(spot.x() - 7, spot.y() - 8, 14, 16))
+            path.setFillRule(Qt.FillRule.WindingFill)
+        elif self.node.kind == "branch":
             path.addEllipse(self._body.adjusted(-2, -2, 2, 2))
         elif self.node.kind in ("input", "output"):
             path.addRect(self._body.united(self._label_rect))
@@ -208,6 +250,11 @@ class NodeItem(QGraphicsItem):
         elif kind == "sum":
             self._paint_sum(painter)
         elif kind == "branch":
+            if self.isSelected():  # show the ring a wire starts from
+                ring = QPen(self.theme.rubber_wire, 1.0, Qt.PenStyle.DashLine)
+                painter.setPen(ring)
+                painter.setBrush(Qt.BrushStyle.NoBrush)
+                painter.drawEllipse(QPointF(0, 0), BRANCH_HIT_RADIUS - 2, BRANCH_HIT_RADIUS - 2)
             painter.setPen(Qt.PenStyle.NoPen)
             painter.setBrush(QBrush(self.theme.wire))
             painter.drawEllipse(QPointF(0, 0), BRANCH_RADIUS, BRANCH_RADIUS)

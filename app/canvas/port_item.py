@@ -27,6 +27,21 @@ class PortItem(QGraphicsItem):
         self.setAcceptHoverEvents(True)
         self._hovered = False
         self.hit_radius = HIT_RADIUS
+        self.hint = ""  # status-bar words on hover (outputs); the owner sets them with the tooltip
+
+    def describe(self, owner_title: str, owner_kind: str, sign: str | None = None) -> None:
+        """Set the tooltip and hover hint for a port of a node titled ``owner_title``."""
+        if owner_kind == "branch":
+            text = ("Branch point: drag from the ring to draw a wire (or Alt+drag from anywhere on it); "
+                    "drag the dot to move it")
+        elif self.is_output:
+            text = f"Output of {owner_title}: drag to an input to draw a wire"
+        else:
+            what = f"input {self.index + 1}" if owner_kind == "sum" else "input"
+            signed = f" (sign {sign}, click the sign to flip it)" if sign else ""
+            text = f"The {what} of {owner_title}{signed}: drop a wire here"
+        self.hint = text
+        self.setToolTip(text)
 
     def boundingRect(self) -> QRectF:
         r = self.hit_radius + 2
@@ -46,6 +61,9 @@ class PortItem(QGraphicsItem):
     def hoverEnterEvent(self, event) -> None:
         self._hovered = True
         self.update()
+        scene = self.scene()
+        if self.is_output and scene is not None and hasattr(scene, "statusHint"):
+            scene.statusHint.emit(self.hint)
 
     def hoverLeaveEvent(self, event) -> None:
         self._hovered = False

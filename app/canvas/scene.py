@@ -419,6 +419,9 @@ class DiagramScene(QGraphicsScene):
         ctrl = bool(event.modifiers() & (Qt.KeyboardModifier.ControlModifier | Qt.KeyboardModifier.ShiftModifier))
         sign = self._sign_hit(pos)
         item = self._item_at(pos)
+        alt = bool(event.modifiers() & Qt.KeyboardModifier.AltModifier)
+        if alt and isinstance(item, NodeItem) and item.output_port() is not None:
+            item = item.output_port()  # Alt+drag draws a wire from anywhere on a node with an output
         if sign is not None and not isinstance(item, PortItem):
             self.flip_sign(*sign)
         elif isinstance(item, PortItem):

@@ -1,10 +1,11 @@
 """The canvas view: zoom (Ctrl+wheel, +/- keys), pan (middle mouse or Space+drag), fit all."""
 from __future__ import annotations
 
-from PySide6.QtCore import QRectF, Qt
+from PySide6.QtCore import QEvent, QRectF, Qt
 from PySide6.QtGui import QPainter
 from PySide6.QtWidgets import QGraphicsView
 
+from ..theme import current_theme
 from .gestures import PanGesture
 from .scene import DiagramScene
 
@@ -54,6 +55,15 @@ class DiagramView(QGraphicsView):
         if self.zoom() > max_zoom:
             self.set_zoom(max_zoom)
         self.centerOn(rect.center())
+
+    def changeEvent(self, event) -> None:
+        """Follow a switch between the light and dark palettes."""
+        if event.type() in (QEvent.Type.PaletteChange, QEvent.Type.ApplicationPaletteChange):
+            scene = self.scene()
+            theme = current_theme()
+            if isinstance(scene, DiagramScene) and scene.theme != theme:
+                scene.set_theme(theme)
+        super().changeEvent(event)
 
     # -- input --------------------------------------------------------------------------------
     def wheelEvent(self, event) -> None:

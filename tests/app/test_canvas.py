@@ -362,3 +362,56 @@ def test_rendering_shows_role_bands_on_the_theme_canvas(qtbot, tmp_path, theme):
     assert image.pixelColor(3, 3) == theme.canvas
     for role in ("controller", "plant", "sensor"):
         assert _has_colour(image, QColor(ROLE_COLOURS[role])), role
+
+
+def test_alt_drag_from_a_branch_dot_draws_a_wire_and_a_plain_drag_moves_it(qtbot):
+    d = feedback_loop()
+    d.add_node(Node("b2", "branch", 460, 200))
+    d.add_node(Node("G2", "block", 640, 200, role="gain"))
+    c = Canvas(qtbot, d)
+    dot = QPointF(460, 200)
+    vp = c.view.viewport()
+    a, b = c.at(dot), c.at(c.port("G2", False))
+    qtbot.mousePress(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.AltModifier, a)
+    for i in range(1, 7):
+        qtbot.mouseMove(vp, a + (b - a) * i / 6)
+    qtbot.mouseRelease(vp, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.AltModifier, b)
+    assert "b2->G2:0" in [w.key for w in d.wires]
+    assert (d.node("b2").x, d.node("b2").y) == (460, 200)  # the dot did not move
+    c.drag(dot, dot + QPointF(0, 40))  # without Alt the dot moves the branch point
+    assert (d.node("b2").x, d.node("b2").y) == (460, 240)
+    c.consistent()
+
+
+def test_ports_and_signs_explain_themselves(canvas):
+    p_out = canvas.scene.node_items["P"].output_port()
+    assert "Output of P" in p_out.toolTip() and "drag to an input" in p_out.toolTip()
+    e_in = canvas.scene.node_items["e"].input_port(1)
+    assert "input 2 of e" in e_in.toolTip() and "\u2212" in e_in.toolTip()
+    branch_port = canvas.scene.node_items["b"].output_port()
+    assert "ring" in branch_port.toolTip()
+    # hovering the branch point puts the how-to in the status bar
+    canvas.qtbot.mouseMove(canvas.view.viewport(), canvas.at((300, 300)))
+    canvas.qtbot.mouseMove(canvas.view.viewport(), canvas.at((460, 0)))
+    assert any("drag from the ring" in h for h in canvas.hints)
+    # over a sign the tooltip offers the flip
+    item = canvas.scene.node_items["e"]
+    spot = item.mapToScene(item._sign_spots[1])
+    canvas.qtbot.mouseMove(canvas.view.viewport(), canvas.at(spot))
+    assert "click to flip it to +" in item.toolTip()
+
+
+def test_canvas_follows_a_switch_to_a_dark_palette(canvas):
+    from app.theme import dark_palette
+    app = QApplication.instance()
+    before = app.palette()
+    try:
+        app.setPalette(dark_palette())
+        QApplication.processEvents()
+        assert canvas.scene.theme == Theme.dark()
+        image = canvas.view.grab().toImage()
+        assert image.pixelColor(3, 3) == Theme.dark().canvas
+    finally:
+        app.setPalette(before)
+        QApplication.processEvents()
+    assert canvas.scene.theme == Theme.light()
