@@ -122,18 +122,24 @@ def plot_image(plot: pg.PlotWidget, scale: float = 2.0) -> QImage:
 
 
 def save_plot(plot: pg.PlotWidget, path) -> Path:
-    """Write a pyqtgraph plot to ``path``: PNG drawn at twice its size, SVG through pyqtgraph."""
+    """Write a pyqtgraph plot to ``path``: PNG drawn at twice its size, SVG through QSvgGenerator."""
     path = Path(path)
     suffix = _suffix(path, PICTURE_SUFFIXES)
     if suffix == ".png":
         if not plot_image(plot).save(str(path), "PNG"):
             raise ExportError(f"cannot write {path}")
         return path
-    from pyqtgraph.exporters import SVGExporter
-    try:
-        SVGExporter(plot.getPlotItem()).export(fileName=str(path))
-    except OSError as err:
-        raise ExportError(f"cannot write {path}: {err.strerror or err}") from None
+    generator = QSvgGenerator()
+    generator.setFileName(str(path))
+    generator.setResolution(round(plot.logicalDpiX()))
+    generator.setSize(plot.size())
+    generator.setViewBox(QRectF(0, 0, plot.width(), plot.height()))
+    generator.setTitle(getattr(plot.parent(), "TITLE", "Plot"))
+    painter = QPainter()
+    if not painter.begin(generator):
+        raise ExportError(f"cannot write {path}")
+    plot.render(painter)
+    painter.end()
     return path
 
 
