@@ -52,6 +52,7 @@ from typing import Any, Callable, NamedTuple
 
 from .errors import ExpressionError, LoopwrightError, ModelError, ProjectFileError
 from .model import Diagram, Node, Parameter
+from .requirements import Requirements
 
 FORMAT = "loopwright-project"
 RECOVERY_FORMAT = "loopwright-recovery"
@@ -117,6 +118,7 @@ class ProjectSpec:
     decay_mode: str
     decay_value: float
     view: dict
+    requirements: Requirements
 
 
 # -- migrations ---------------------------------------------------------------------------------
@@ -351,7 +353,22 @@ def _plain_view(value, depth: int = 0) -> bool:
     return False
 
 
-TOP_FIELDS = ("format", "version", "name", "notes", "parameters", "sweep", "nodes", "wires", "analysis", "view")
+TOP_FIELDS = ("format", "version", "name", "notes", "parameters", "sweep", "nodes", "wires", "analysis", "view",
+              "requirements")
+REQUIREMENT_FIELDS = ("min_damping", "max_overshoot", "min_gain_margin", "gain_margin_unit")
+
+
+def _requirements_spec(obj, source: str) -> Requirements:
+    """The optional ``requirements`` object (each entry optional; null or absent = not set)."""
+    place = f"{source}, requirements"
+    fields = _Fields(obj, place, "'requirements'", REQUIREMENT_FIELDS)
+    values = {k: None if obj.get(k) is None else fields.number(k) for k in REQUIREMENT_FIELDS[:3]}
+    requirements = Requirements(**values, gain_margin_unit=fields.text("gain_margin_unit", "factor", limit=16))
+    try:
+        requirements.check()
+    except ModelError as exc:
+        raise ProjectFileError("E205", exc.message, where=place) from exc
+    return requirements
 
 
 def parse_spec(data, source: str = "<memory>") -> ProjectSpec:
@@ -379,7 +396,8 @@ def parse_spec(data, source: str = "<memory>") -> ProjectSpec:
         analysis_input=analysis.text("input", None, nullable=True, limit=64),
         analysis_output=analysis.text("output", None, nullable=True, limit=64),
         decay_mode=analysis.text("decay_mode", "sigma"), decay_value=analysis.number("decay_value", 0.0),
-        view=view if isinstance(view, dict) and _plain_view(view) else {})
+        view=view if isinstance(view, dict) and _plain_view(view) else {},
+        requirements=_requirements_spec(data.get("requirements", {}), source))
 
 
 # -- building the model ---------------------------------------------------------------------------
@@ -437,6 +455,7 @@ def diagram_from_spec(spec: ProjectSpec, source: str = "<memory>") -> Diagram:
                        decay_mode=spec.decay_mode, decay_value=spec.decay_value)
     except ModelError as exc:
         raise _model_error(exc, f"{source}, analysis", source) from exc
+    d.set_requirements(spec.requirements)
     d.view = dict(spec.view)
     return d
 
@@ -523,6 +542,8 @@ def project_to_dict(diagram: Diagram) -> dict:
     a = diagram.analysis
     out["analysis"] = {"input": a.input, "output": a.output, "decay_mode": a.decay_mode,
                        "decay_value": _plain_number(a.decay_value)}
+    if not diagram.requirements.is_empty:
+        out["requirements"] = diagram.requirements.to_dict()
     if diagram.view and _plain_view(diagram.view):
         out["view"] = diagram.view
     return out
