@@ -169,3 +169,19 @@ def test_no_tuning_parameter_gives_no_range():
     assert joint_range(Requirements(min_damping=0.5), report) is None
     damping, = evaluate(Requirements(min_damping=0.5), report, None, None)
     assert damping.actual == pytest.approx(math.sqrt(0.5)) and damping.passed  # poles -1 ± j
+
+
+def test_requirements_round_trip_through_the_project_file():
+    from core.errors import ProjectFileError
+    from core.model import Diagram, Node
+    from core.project_file import dumps_project, loads_project, project_to_dict
+    d = Diagram("requirements round trip")
+    d.add_node(Node("r", "input"))
+    assert "requirements" not in project_to_dict(d)  # optional: left out when none is set
+    req = Requirements(min_damping=0.45, max_overshoot=12.5, min_gain_margin=6, gain_margin_unit="db")
+    d.set_requirements(req)
+    assert loads_project(dumps_project(d)).requirements == req
+    bad = dumps_project(d).replace('"min_damping": 0.45', '"min_damping": 1.5')
+    with pytest.raises(ProjectFileError) as err:
+        loads_project(bad, "bad.loop.json")
+    assert err.value.code == "E205" and "requirements" in err.value.where
