@@ -31,6 +31,7 @@ from core.model import Diagram
 from core.poles import pole_paths
 from core.polynomial import ParametricPolynomial, mpoly_context
 from core.project_file import project_from_dict, project_to_dict
+from core.requirements import TimeDomain, prepare
 
 DEBOUNCE_MS = 120
 PATH_SAMPLES = 400
@@ -64,6 +65,7 @@ class AnalysisResult:
     paths: np.ndarray = field(default_factory=lambda: np.empty((0, 0), dtype=complex))
     coefficient_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
     zero_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
+    time_domain: TimeDomain | None = None  # step transfer functions, requirements, joint range
 
     @property
     def ok(self) -> bool:
@@ -152,6 +154,7 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
         if tuning is not None and report.analysed.degree >= 1:
             result.path_values = np.linspace(tuning.minimum, tuning.maximum, PATH_SAMPLES)
             result.paths = pole_paths(report.analysed, result.path_values)
+        result.time_domain = _time_domain(diagram, report, tuning)
     except LoopwrightError as exc:
         result.report, result.error = None, exc
     except Exception as exc:  # noqa: BLE001 - the GUI must never crash on an analysis bug
@@ -160,6 +163,15 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
         traceback.print_exc()
     result.elapsed_ms = (time.perf_counter() - start) * 1000.0
     return result
+
+
+def _time_domain(diagram: Diagram, report: Report, tuning: TuningRange | None) -> TimeDomain | None:
+    """Step transfer functions and the requirements' joint range; a failure here only loses them."""
+    try:
+        return prepare(diagram, report, (tuning.minimum, tuning.maximum) if tuning is not None else None)
+    except Exception:  # noqa: BLE001 - the other panels keep their result
+        traceback.print_exc()
+        return None
 
 
 def _tuning_range(diagram: Diagram, report: Report) -> TuningRange | None:
