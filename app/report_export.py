@@ -6,9 +6,10 @@ fixed-size copy fed the same AnalysisResult at the nominal value), builds the pa
 :func:`app.report_html.report_html`, and writes either an HTML file with the pictures inside it
 (data URIs) or a PDF through Qt's own writer (QPdfWriter + QTextDocument, A4).
 
-Extra sections come from the panels themselves: any analysis panel with a ``report_html()``
-method (an HTML fragment for white paper) gets a section under its ``TITLE``, with its plot's
-picture when it draws one.
+Extra sections come from the panels themselves (``window.analysis_panels`` besides the pole
+map): a panel that draws a plot (attribute ``plot``) gets a section under its ``TITLE`` with the
+plot's picture, and a panel with a ``report_html()`` method (an HTML fragment for white paper,
+e.g. figures or verdicts) gets that fragment in its section.
 """
 from __future__ import annotations
 
@@ -82,11 +83,15 @@ def report_inputs(window, sources: dict[str, str] | None = None,
     placed = {k: (sources[k], _width(k, img)) for k, img in pictures.items() if k in sources}
     sections = []
     if result.report is not None:
+        plots = plot_panels(window)
         for panel in window.analysis_panels:
+            if panel is window.pole_map:
+                continue  # its picture sits with the poles
+            key = _key(panel) if panel in plots else None
             make = getattr(panel, "report_html", None)
-            if callable(make):
-                key = _key(panel) if panel in plot_panels(window) else None
-                sections.append(ReportSection(key or panel.TITLE.lower().replace(" ", "-"), panel.TITLE, make(), key))
+            body = make() if callable(make) else ""
+            if body or (key and key in placed):
+                sections.append(ReportSection(panel.TITLE.lower().replace(" ", "-"), panel.TITLE, body, key))
     path = window.files.path
     return ReportInputs(diagram=window.diagram, result=result, file_name=path.name if path else "not saved",
                         date=datetime.date.today().isoformat(), version=program_version(), pictures=placed,

@@ -257,3 +257,27 @@ def test_export_menu_writes_through_the_asked_path(loop_window, tmp_path):
     assert exports.export_diagram() is None
     texts = [a.text() for a in exports.menu.actions()]
     assert "Report as &PDF…" in texts and "Pole map…" in texts
+
+
+class FigurePanel:
+    """Stands in for a later analysis panel that offers its own report fragment."""
+
+    TITLE = "Figures check"
+
+    def report_html(self) -> str:
+        return "<table id='figures'><tr><td>settling</td><td>1.5 s</td></tr></table>"
+
+
+def test_panels_offering_report_fragments_and_plots_get_sections(loop_window, qtbot):
+    from app.panels import PoleMap
+
+    class SecondPlot(PoleMap):  # any panel with a pyqtgraph ``plot`` gets its picture in a section
+        TITLE = "Second plot"
+
+    extra = SecondPlot()
+    qtbot.addWidget(extra)
+    loop_window.analysis_panels += [FigurePanel(), extra]
+    page = Page(report_page(loop_window))
+    assert page.tables["figures"] == [["settling", "1.5 s"]]
+    assert "figures-check" in page.text and "second-plot" in page.text
+    assert len(page.images) == 3  # diagram, pole map, the second plot
