@@ -35,6 +35,8 @@ from app.files import Dialogs, ProjectFiles
 from app.inspector import Inspector
 from app.palette import Palette
 from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
+from app.panels.requirements_panel import RequirementsPanel
+from app.panels.step_panel import StepPanel
 from app.parameters_panel import ParametersPanel
 from core.errors import LoopwrightError
 from core.model import Diagram
@@ -78,7 +80,10 @@ class MainWindow(QMainWindow):
         self.routh_panel = RouthPanel(self)
         self.range_panel = RangePanel(self)
         self.pole_map = PoleMap(self)
-        self.analysis_panels = [self.polynomial_panel, self.routh_panel, self.range_panel, self.pole_map]
+        self.step_panel = StepPanel(self)
+        self.requirements_panel = RequirementsPanel(self)
+        self.analysis_panels = [self.polynomial_panel, self.routh_panel, self.range_panel, self.pole_map,
+                                self.step_panel, self.requirements_panel]
         self._build_status_bar()
         self.set_document(Diagram())
         self.palette_panel = Palette(self.scene, self)
@@ -131,6 +136,9 @@ class MainWindow(QMainWindow):
         stable = self._dock("range", RangePanel.TITLE, self.range_panel, bottom)
         self.splitDockWidget(polynomial, routh, Qt.Orientation.Horizontal)
         self.splitDockWidget(routh, stable, Qt.Orientation.Horizontal)
+        self.tabifyDockWidget(stable, self._dock("step", StepPanel.TITLE, self.step_panel, bottom))
+        self.tabifyDockWidget(stable, self._dock("requirements", RequirementsPanel.TITLE, self.requirements_panel, bottom))
+        stable.raise_()
         self._arrange_docks()
 
     def _arrange_docks(self) -> None:
@@ -294,6 +302,7 @@ class MainWindow(QMainWindow):
             self.palette_panel.set_scene(self.scene)
         self.inspector.set_document(diagram, self.signals, self.undo_stack)
         self.parameters.set_document(diagram, self.signals, self.undo_stack)
+        self.requirements_panel.set_document(diagram, self.signals, self.undo_stack)
         self.signals.settingsChanged.connect(self._on_settings_changed)
         self.controller = AnalysisController(diagram, self.signals, self.undo_stack, self)
         for panel in self.analysis_panels:
