@@ -229,11 +229,20 @@ class Bound:
     exact: str | None = None
     search_edge: bool = False
 
-    def text(self) -> str:
-        """Exact text, or the decimal with '≈' (and '…' at a search edge)."""
+    def text(self, short: bool = False) -> str:
+        """Exact text, or the decimal with '≈' (and '…' at a search edge). ``short``: an exact end
+        longer than a plain number (a root of a polynomial) as its decimal instead.
+
+        >>> Bound(1.4142135623730951, "root of K^2 - 2 near 1.41421356237310").text(short=True)
+        '1.41421'
+        """
         if self.exact is not None:
-            return self.exact
+            return f"{self.value:.6g}" if short and not _plain(self.exact) else self.exact
         return f"≈{self.value:.6g}" + ("…" if self.search_edge else "")
+
+
+def _plain(text: str) -> bool:
+    return len(text) <= 24 and all(c.isdigit() or c in "-/." for c in text)
 
 
 Interval = tuple[Bound | None, Bound | None]  # open interval; None is an unbounded end
@@ -254,9 +263,9 @@ class JointRange:
         """Whether a value lies inside (floating point)."""
         return _inside(self.intervals, value)
 
-    def text(self) -> str:
-        """``(0, 3) ∪ (4, ≈5.2)``, or 'none'."""
-        return intervals_text(self.intervals)
+    def text(self, short: bool = False) -> str:
+        """``(0, 3) ∪ (4, ≈5.2)``, or 'none' (``short`` as in :meth:`Bound.text`)."""
+        return intervals_text(self.intervals, short)
 
     def to_dict(self) -> dict:
         """JSON-ready fields (floats with None for unbounded ends)."""
@@ -267,11 +276,11 @@ class JointRange:
                 "span": list(self.span) if self.span else None, "notes": self.notes}
 
 
-def intervals_text(intervals: list[Interval]) -> str:
+def intervals_text(intervals: list[Interval], short: bool = False) -> str:
     """Text of a union of open intervals."""
     if not intervals:
         return "none"
-    return " ∪ ".join(f"({'−∞' if a is None else a.text()}, {'+∞' if b is None else b.text()})"
+    return " ∪ ".join(f"({'−∞' if a is None else a.text(short)}, {'+∞' if b is None else b.text(short)})"
                       for a, b in intervals)
 
 

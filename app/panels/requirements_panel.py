@@ -1,0 +1,331 @@
+"""Requirements panel: the requirements (editable, each edit one undoable command), their verdicts
+at the current value with PASS/FAIL badges and margins, and the tuning-parameter range that is
+stable and meets them all (exact, or marked numeric).
+
+The decay requirement is the model's own (analysis settings; its mode is chosen in the parameters
+panel). The gain margin is the factor by which the tuning parameter may *rise* before the loop
+loses stability — the stable range's rise factor; when the parameter is not a gain it is a
+parameter margin in the same sense.
+"""
+from __future__ import annotations
+
+import math
+
+from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtWidgets import QComboBox, QGridLayout, QLabel, QLineEdit, QVBoxLayout, QWidget
+
+from app.commands import ModelCommand, SetAnalysisCommand, push
+from app.panels.common import MINUS, MessageLabel, colour, number, number_css, steady_label
+from app.theme import figure_font, label_font
+from core.errors import LoopwrightError
+from core.model import Diagram
+from core.requirements import Requirements, Verdict, evaluate, intervals_text
+from core.time_response import step_response
+
+DECAY_LABELS = {"sigma": ("Decay rate σ ≥", "1/s"), "half_time": ("Time to half amplitude ≤", "s"),
+                "settling": ("Settling time 2 % ≤", "s")}
+ROWS = ("decay", "damping", "overshoot", "gain margin")
+EXACT_PARTS = ("stable", "decay", "gain margin")
+GAIN_MARGIN_TIP = ("Gain margin: the factor by which the tuning parameter may rise before the loop "
+                   "loses stability (the stable range's rise factor). When the tuning parameter is "
+                   "not a gain, this is a parameter margin in the same sense.")
+
+
+class SetRequirementsCommand(ModelCommand):
+    """Replace the diagram's requirements (one undo step)."""
+
+    def __init__(self, diagram: Diagram, requirements: Requirements):
+        super().__init__("requirements")
+        self.diagram, self.requirements = diagram, requirements
+        self.old: Requirements | None = None
+
+    def apply(self) -> None:
+        self.old = self.diagram.set_requirements(self.requirements)
+
+    def revert(self) -> None:
+        self.diagram.set_requirements(self.old)
+
+
+def read_optional(text: str) -> float | None:
+    """A typed number, or None for an empty field; ValueError for anything else.
+
+    >>> read_optional(" 0,5 "), read_optional("")
+    (0.5, None)
+    """
+    text = text.strip().replace(",", ".")
+    if not text:
+        return None
+    value = float(text)
+    if not math.isfinite(value):
+        raise ValueError(text)
+    return value
+
+
+def badge_style(passed: bool | None) -> str:
+    """Stylesheet of a PASS / FAIL / — badge."""
+    fill = colour("stable" if passed else "unstable").name() if passed is not None else colour("muted").name()
+    return (f"background: {fill}; color: white; border-radius: 4px; padding: 1px 6px; "
+            "font-weight: bold; font-size: 8.5pt;")
+
+
+def figure(x: float | None, unit: str) -> str:
+    """A verdict figure with its unit; '∞' for an unlimited margin, '—' for none."""
+    if x is None:
+        return "—"
+    if x == float("inf"):
+        return "∞"
+    sep = "" if unit in ("%", "×", "") else " "
+    return f"{number(x, 4)}{sep}{unit}" if unit != "×" else f"×{number(x, 4)}"
+
+
+class RequirementsPanel(QWidget):
+    """Bind it to a document with :meth:`set_document`; feed it results and the current value."""
+
+    TITLE = "Requirements"
+    message = Signal(str)
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.diagram: Diagram | None = None
+        self.undo_stack = None
+        self._signals = None
+        self._result = None
+        self._value: float | None = None
+        self.verdicts: list[Verdict] = []
+        self.problem = MessageLabel(self)
+        self.error = MessageLabel(self)
+        grid = QGridLayout()
+        grid.setHorizontalSpacing(8)
+        grid.setVerticalSpacing(3)
+        for column, title in enumerate(("Requirement", "Required", "", "At current value", "", "Margin")):
+            head = QLabel(title, self)
+            head.setFont(label_font(8.5, bold=True))
+            grid.addWidget(head, 0, column)
+        self.labels: dict[str, QLabel] = {}
+        self.edits: dict[str, QLineEdit] = {}
+        self.units: dict[str, QLabel] = {}
+        self.actuals: dict[str, QLabel] = {}
+        self.badges: dict[str, QLabel] = {}
+        self.margins: dict[str, QLabel] = {}
+        for row, key in enumerate(ROWS, start=1):
+            label = QLabel(self)
+            label.setFont(label_font(9))
+            edit = QLineEdit(self)
+            edit.setFont(figure_font(9.5))
+            edit.setMaximumWidth(90)
+            edit.setPlaceholderText("not set")
+            edit.editingFinished.connect(lambda k=key: self._commit(k))
+            unit = QLabel(self)
+            actual, margin = steady_label(QLabel(self)), steady_label(QLabel(self))
+            for w in (actual, margin):
+                w.setFont(figure_font(9.5))
+            badge = QLabel(self)
+            badge.setAlignment(Qt.AlignmentFlag.AlignCenter)
+            badge.setMinimumWidth(44)
+            self.labels[key], self.edits[key], self.units[key] = label, edit, unit
+            self.actuals[key], self.badges[key], self.margins[key] = actual, badge, margin
+            for column, w in enumerate((label, edit, unit, actual, badge, margin)):
+                grid.addWidget(w, row, column)
+        self.gm_unit = QComboBox(self)
+        self.gm_unit.addItem("×", "factor")
+        self.gm_unit.addItem("dB", "db")
+        self.gm_unit.activated.connect(lambda _i: self._commit("gain margin"))
+        grid.addWidget(self.gm_unit, ROWS.index("gain margin") + 1, 2)
+        self.units["gain margin"].hide()
+        self.labels["damping"].setText("Damping ratio ζ ≥")
+        self.labels["overshoot"].setText("Overshoot ≤")
+        self.units["overshoot"].setText("%")
+        self.labels["gain margin"].setText("Gain margin ≥")
+        for w in (self.labels["gain margin"], self.edits["gain margin"], self.gm_unit):
+            w.setToolTip(GAIN_MARGIN_TIP)
+        self.edits["decay"].setToolTip("The decay requirement of the analysis (its kind is chosen in "
+                                       "Parameters); empty or 0 = none")
+        grid.setColumnStretch(3, 1)
+        grid.setColumnStretch(5, 1)
+        self.range_text = QLabel(self)
+        self.range_text.setWordWrap(True)
+        self.range_text.setTextFormat(Qt.TextFormat.RichText)
+        self.range_text.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.range_text.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(6, 4, 6, 4)
+        layout.addWidget(self.error)
+        layout.addLayout(grid)
+        layout.addWidget(self.problem)
+        layout.addWidget(self.range_text, 1)
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(0)
+        self._timer.timeout.connect(self._update_verdicts)
+        self._fill_editors()
+
+    # -- document -----------------------------------------------------------------------------------
+    def set_document(self, diagram: Diagram, signals, undo_stack) -> None:
+        """Edit this diagram's requirements through ``undo_stack``; follow its settings changes."""
+        if self._signals is not None:
+            try:
+                self._signals.settingsChanged.disconnect(self._on_settings)
+            except (RuntimeError, TypeError):
+                pass
+        self.diagram, self._signals, self.undo_stack = diagram, signals, undo_stack
+        signals.settingsChanged.connect(self._on_settings)
+        self._fill_editors()
+
+    def _on_settings(self, what: str) -> None:
+        if what in ("requirements", "analysis"):
+            self._fill_editors()
+
+    def _fill_editors(self) -> None:
+        d = self.diagram
+        req = d.requirements if d is not None else Requirements()
+        mode = d.analysis.decay_mode if d is not None else "sigma"
+        decay = d.analysis.decay_value if d is not None else 0.0
+        label, unit = DECAY_LABELS[mode]
+        self.labels["decay"].setText(label)
+        self.units["decay"].setText(unit)
+        for key, value in (("decay", decay or None), ("damping", req.min_damping),
+                           ("overshoot", req.max_overshoot), ("gain margin", req.min_gain_margin)):
+            edit = self.edits[key]
+            if not edit.hasFocus():
+                edit.setText("" if value is None else f"{value:.12g}")
+            edit.setEnabled(d is not None)
+        self.gm_unit.setCurrentIndex(max(0, self.gm_unit.findData(req.gain_margin_unit)))
+        self.gm_unit.setEnabled(d is not None)
+
+    # -- edits --------------------------------------------------------------------------------------
+    def _commit(self, key: str) -> None:
+        if self.diagram is None:
+            return
+        edit = self.edits[key]
+        try:
+            value = read_optional(edit.text())
+        except ValueError:
+            self._complain(f"{self.labels[key].text()} '{edit.text()}' is not a number")
+            return
+        if key == "decay":
+            value = value or 0.0
+            if value != self.diagram.analysis.decay_value:
+                self._push(SetAnalysisCommand(self.diagram, decay_value=value))
+            return
+        field = {"damping": "min_damping", "overshoot": "max_overshoot", "gain margin": "min_gain_margin"}[key]
+        old = self.diagram.requirements
+        try:
+            new = old.with_changes(**{field: value, "gain_margin_unit": self.gm_unit.currentData()})
+        except LoopwrightError as err:
+            self._complain(str(err))
+            return
+        if new != old:
+            self._push(SetRequirementsCommand(self.diagram, new))
+
+    def _push(self, command) -> None:
+        try:
+            push(self.undo_stack, command)
+        except LoopwrightError as err:
+            self._complain(str(err))
+            return
+        self.problem.show_message(None)
+
+    def _complain(self, text: str) -> None:
+        self.problem.show_message(text)
+        self.message.emit(text)
+
+    # -- results ------------------------------------------------------------------------------------
+    def show_result(self, result) -> None:
+        """Take a new AnalysisResult: the joint range at once, the verdicts at the current value."""
+        self._result = result
+        if result.tuning is not None:
+            self._value = result.tuning.nominal
+        self.error.show_message(result.message)
+        self.range_text.setText(self.range_html())
+        self._update_verdicts()
+
+    def set_current_value(self, value: float) -> None:
+        """Re-judge at the tuning parameter's current value (coalesced per event-loop pass)."""
+        self._value = float(value)
+        self._timer.start()
+
+    def _update_verdicts(self) -> None:
+        result = self._result
+        td = getattr(result, "time_domain", None) if result is not None else None
+        if result is None or result.report is None or td is None:
+            self.verdicts = []
+        else:
+            report = result.report
+            value = self._value if report.parameter is not None else None
+            step = None
+            reference = td.transfers.get(td.reference)
+            if td.requirements.max_overshoot is not None and reference is not None:
+                try:
+                    step = step_response(reference, value)
+                except LoopwrightError:
+                    step = None
+            self.verdicts = evaluate(td.requirements, report, step, value)
+        by_name = {v.name: v for v in self.verdicts}
+        for key in ROWS:
+            verdict = by_name.get(key)
+            self._show_row(key, verdict)
+
+    def _show_row(self, key: str, v: Verdict | None) -> None:
+        badge = self.badges[key]
+        if v is None:
+            self.actuals[key].setText("")
+            self.margins[key].setText("")
+            badge.setText("")
+            badge.setStyleSheet("")
+            return
+        unit = "×" if v.unit == "×" else v.unit
+        self.actuals[key].setText(figure(v.actual, unit))
+        self.actuals[key].setToolTip(v.note)
+        badge.setText({True: "PASS", False: "FAIL", None: "—"}[v.passed])
+        badge.setStyleSheet(badge_style(v.passed))
+        badge.setToolTip(("exact" if v.exact else "numeric (floating point)") + (f": {v.note}" if v.note else ""))
+        margin = "" if v.margin is None else (
+            "∞" if v.margin == float("inf") else
+            f"{'+' if v.margin >= 0 else MINUS}{number(abs(v.margin), 3)}{'' if unit in ('%', '×', '') else ' '}"
+            f"{'' if unit == '×' else unit}")
+        self.margins[key].setText(margin + ("" if v.exact or not margin else "  ≈"))
+
+    def range_html(self) -> str:
+        """The range meeting everything, with each criterion's own set below it."""
+        result = self._result
+        css = f"<style>{number_css()} td {{ padding: 1px 8px 1px 0; }}</style>"
+        if result is None or result.report is None:
+            return ""
+        td = getattr(result, "time_domain", None)
+        if td is None:
+            return css + "<span class='muted'>No time-domain results for this loop.</span>"
+        joint = td.joint
+        name = result.report.parameter
+        if joint is None:
+            if name is None:
+                return css + "<span class='muted'>Choose a tuning parameter to see the range meeting the requirements.</span>"
+            return css + "<span class='muted'>No requirement set: the range meeting them all is the stable range.</span>"
+        kind = "<span class='good'>exact</span>" if joint.exact else "<span class='warn'>numeric</span>"
+        text = joint.text(short=True).replace("-", MINUS)
+        head = (f"<p style='margin:6px 0 2px 0'><b>Stable and meeting all:</b> {name} in "
+                f"<span class='num'>{text}</span> &nbsp;({kind})</p>")
+        if not joint.intervals:
+            head = (f"<p style='margin:6px 0 2px 0'><b>Stable and meeting all:</b> "
+                    f"<span class='bad'>no value of {name}</span> &nbsp;({kind})</p>")
+        rows = "".join(f"<tr><td>{key}</td><td class='num'>{_intervals(ivs)}</td>"
+                       f"<td class='muted'>{'exact' if key in EXACT_PARTS else 'numeric'}</td></tr>"
+                       for key, ivs in joint.parts.items())
+        notes = "".join(f"<div class='muted'>{n}</div>" for n in joint.notes)
+        roots = _irrational_ends(joint)
+        if roots:
+            notes += "<div class='muted'>exact ends: " + "; ".join(roots) + "</div>"
+        return css + head + f"<table>{rows}</table>" + notes
+
+
+def _intervals(intervals) -> str:
+    return intervals_text(intervals, short=True).replace("-", MINUS)
+
+
+def _irrational_ends(joint) -> list[str]:
+    """``1.46182 = root of …`` for every exact end of the joint range that is not a plain number."""
+    out = []
+    for iv in joint.intervals:
+        for b in iv:
+            if b is not None and b.exact is not None and b.text(short=True) != b.exact:
+                out.append(f"<span class='num'>{b.text(short=True)}</span> = {b.exact.replace('-', MINUS)}")
+    return out
