@@ -24,7 +24,7 @@ from PySide6.QtGui import QFont, QImage, QPageLayout, QPageSize, QPdfWriter, QTe
 
 from app.about import program_version
 from app.export import ExportError, diagram_image, plot_image, plot_panels
-from app.report_html import ReportInputs, ReportSection, report_html
+from app.report_html import OWN_SECTIONS, ReportInputs, ReportSection, report_html
 
 REPORT_SUFFIXES = (".html", ".pdf")
 PLOT_SIZE = (640, 400)     # widget size of the plot panels drawn for the report
@@ -85,8 +85,8 @@ def report_inputs(window, sources: dict[str, str] | None = None,
     if result.report is not None:
         plots = plot_panels(window)
         for panel in window.analysis_panels:
-            if panel is window.pole_map:
-                continue  # its picture sits with the poles
+            if panel.TITLE in OWN_SECTIONS:
+                continue  # the page builds these sections itself
             key = _key(panel) if panel in plots else None
             make = getattr(panel, "report_html", None)
             body = make() if callable(make) else ""

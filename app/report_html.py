@@ -7,6 +7,9 @@ for the PDF) draw: tables with attributes, a few class selectors, ``<sup>``. Sec
 (``meta``, ``caution``, ``diagram``, ``blocks``, ``parameters``, ``polynomial``, ``routh``,
 ``range``, ``poles``, ``warnings`` and one per extra section) so they can be found again.
 
+The step response and requirements sections appear when the AnalysisResult carries the
+time-domain part (``result.time_domain``) and a reference step or a requirement exists.
+
 Pictures are named by key (``diagram``, ``plot-<panel>``); the caller maps each key to an image
 source (a data URI for the HTML file, a resource name for the PDF) and its width in CSS pixels.
 """
@@ -50,6 +53,10 @@ td.special { background-color: #fdf3dc; }
 table.caution { border-collapse: collapse; margin: 8px 0 6px 0; }
 table.caution td { background-color: #fff4dc; border: 2px solid #d99a1e; padding: 7px 10px; }
 """
+
+
+STEP_PICTURE = "plot-step-response"
+OWN_SECTIONS = ("Pole map", "Step response", "Requirements")  # panels whose sections are built here
 
 
 @dataclass
@@ -337,6 +344,66 @@ def poles_html(inputs: ReportInputs) -> str:
     return "".join(out)
 
 
+def _reference_step(inputs: ReportInputs):
+    """The unit-step response from the reference input at the nominal value, or None."""
+    from core.errors import LoopwrightError
+    from core.time_response import step_response
+    td = getattr(inputs.result, "time_domain", None)
+    reference = td.transfers.get(td.reference) if td is not None and td.reference else None
+    if reference is None:
+        return None
+    try:
+        return step_response(reference, inputs.nominal_value if inputs.result.report.parameter else None)
+    except LoopwrightError:
+        return None
+
+
+def step_html(inputs: ReportInputs, step) -> str:
+    """The step response from the reference at the nominal value: picture and figures (as the
+    Step response panel writes them)."""
+    if step is None:
+        return ""
+    from app.panels.step_panel import READOUTS, readout_texts
+    texts = readout_texts(step)
+    td = inputs.result.time_domain
+    rows = [[title, _num(esc(texts[key]))] for key, title in READOUTS]
+    return ("<h2 id='step'>Step response</h2>"
+            f"<p>Unit step at the reference input {esc(td.reference)}, at the nominal values.</p>"
+            + _picture(inputs, STEP_PICTURE, "step response") + _grid("step-figures", ["Figure", "Value"], rows)
+            + (f"<p class='muted'>{esc(step.note)}</p>" if getattr(step, "note", "") else ""))
+
+
+def requirements_html(inputs: ReportInputs, step) -> str:
+    """Each requirement's verdict at the nominal value and the range of the tuning parameter
+    meeting them all (empty when no requirement is set)."""
+    td = getattr(inputs.result, "time_domain", None)
+    if td is None:
+        return ""
+    from app.panels.requirements_panel import figure
+    from core.requirements import evaluate
+    report = inputs.result.report
+    value = inputs.nominal_value if report.parameter else None
+    verdicts = evaluate(td.requirements, report, step, value)
+    if not verdicts and td.joint is None:
+        return ""
+    words = {True: "<span class='good'>PASS</span>", False: "<span class='bad'>FAIL</span>", None: "—"}
+    rows = [[esc(v.label or v.name), _num(esc(figure(v.required, v.unit))), _num(esc(figure(v.actual, v.unit))),
+             words[v.passed], "exact" if v.exact else "numeric"] for v in verdicts]
+    out = ["<h2 id='requirements'>Requirements</h2>"]
+    if rows:
+        at = f" at the nominal {esc(report.parameter)} = {_num(number(value))}" if value is not None else ""
+        out.append(f"<p>Verdicts{at}.</p>")
+        out.append(_grid("requirement-verdicts", ["Requirement", "Required", "Actual", "Verdict", "Decision"], rows))
+    joint = td.joint
+    if joint is not None:
+        text = (_num(esc(joint.text()).replace("-", MINUS)) if joint.intervals
+                else f"<span class='bad'>no value of {esc(joint.parameter)}</span>")
+        kind = "exact" if joint.exact else "numeric"
+        out.append(f"<p id='joint-range'><b>Stable and meeting all:</b> {esc(joint.parameter)} in {text} ({kind})</p>")
+        out += [f"<p class='muted'>{esc(n)}</p>" for n in joint.notes]
+    return "".join(out)
+
+
 def warnings_html(inputs: ReportInputs) -> str:
     """Warnings of the analysis (hidden modes have their own list) and notes at the nominal value."""
     report = inputs.result.report
@@ -358,8 +425,10 @@ def report_html(inputs: ReportInputs) -> str:
     """The whole report as one HTML page."""
     parts = [header_html(inputs), verdict_html(inputs), diagram_html(inputs)]
     if inputs.result.report is not None:
+        step = _reference_step(inputs)
         parts += [polynomial_html(inputs), routh_html(inputs), range_html(inputs), poles_html(inputs),
-                  extra_html(inputs), warnings_html(inputs)]
+                  step_html(inputs, step), requirements_html(inputs, step), extra_html(inputs),
+                  warnings_html(inputs)]
     return ("<!DOCTYPE html><html><head><meta charset='utf-8'>"
             f"<title>{esc(inputs.diagram.name)} — stability report</title><style>{STYLE}</style></head>"
             f"<body>{''.join(parts)}</body></html>")

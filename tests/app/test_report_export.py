@@ -131,8 +131,8 @@ def test_html_report_holds_every_section_with_the_reports_numbers(loop_window, t
                    key=lambda z: (z.real, z.imag))
     want = sorted(np.roots([1, 3, 2, 2]), key=lambda z: (z.real, z.imag))
     assert np.allclose(shown, want, atol=1e-4)
-    # pictures: the diagram and the pole map, as PNG data
-    assert len(page.images) == 2
+    # pictures: the diagram, the pole map and (with the time-domain part) the step response, as PNG data
+    assert len(page.images) == 2 + ("step" in page.text)
     for src in page.images:
         assert base64.b64decode(src.split(",", 1)[1])[:8] == PNG_MAGIC
 
@@ -280,4 +280,32 @@ def test_panels_offering_report_fragments_and_plots_get_sections(loop_window, qt
     page = Page(report_page(loop_window))
     assert page.tables["figures"] == [["settling", "1.5 s"]]
     assert "figures-check" in page.text and "second-plot" in page.text
-    assert len(page.images) == 3  # diagram, pole map, the second plot
+    assert len(page.images) == 3 + ("step" in page.text)  # diagram, pole map, [step,] the second plot
+
+
+def test_step_response_and_requirements_sections(window, make_loop, analysed):
+    from scipy import signal
+
+    from core.requirements import Requirements
+    loop = make_loop()
+    loop.set_requirements(Requirements(min_damping=0.3, max_overshoot=60.0))
+    window.set_document(loop)
+    analysed(window)
+    page = Page(report_page(window))
+    figures = dict(page.tables["step-figures"][1:])
+    # scipy reference: unit step of 2 / (s^3 + 3s^2 + 2s + 2), the unity loop at K = 2
+    _t, y = signal.step(([2.0], [1.0, 3.0, 2.0, 2.0]), T=np.linspace(0, 60, 60001))
+    overshoot = (y.max() - 1.0) * 100
+    assert float(figures["Overshoot"].split()[0]) == pytest.approx(overshoot, abs=0.1)
+    assert float(plain(figures["Steady-state value"])) == pytest.approx(1.0)
+    verdicts = {row[0]: row for row in page.tables["requirement-verdicts"][1:]}
+    # numpy reference: the smallest damping ratio of the roots of s^3 + 3s^2 + 2s + 2
+    roots = np.roots([1, 3, 2, 2])
+    zeta = min(-r.real / abs(r) for r in roots)
+    damping = next(row for label, row in verdicts.items() if "damping" in label)
+    assert float(damping[2]) == pytest.approx(zeta, abs=1e-3)
+    assert damping[3] == ("PASS" if zeta >= 0.3 else "FAIL")
+    over = next(row for label, row in verdicts.items() if "overshoot" in label)
+    assert over[3] == ("PASS" if overshoot <= 60 else "FAIL")
+    assert "Stable and meeting all" in page.text["joint-range"]
+    assert len(page.images) == 3  # diagram, pole map, step response
