@@ -11,7 +11,7 @@ import html
 import re
 from functools import lru_cache
 
-from PySide6.QtCore import Qt
+from PySide6.QtCore import QEvent, Qt
 from PySide6.QtGui import QColor
 from PySide6.QtWidgets import QLabel, QSizePolicy, QWidget
 
@@ -73,6 +73,11 @@ def _css(is_dark: bool) -> str:
             f".good {{ color: {colour('stable').name()}; font-weight: bold; }}")
 
 
+def is_palette_change(event) -> bool:
+    """Whether a widget's ``changeEvent`` reports a new palette (e.g. a switch to dark)."""
+    return event.type() in (QEvent.Type.PaletteChange, QEvent.Type.ApplicationPaletteChange)
+
+
 def number_css() -> str:
     """CSS for rich text: class ``num`` in the figure font, class ``math`` in the math font."""
     return _css(dark())
@@ -92,8 +97,18 @@ class MessageLabel(QLabel):
         super().__init__(parent)
         self.setWordWrap(True)
         self.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        self.setStyleSheet(f"color: {colour('unstable').name()}; padding: 4px;")
+        self._apply_theme()
         self.hide()
+
+    def _apply_theme(self) -> None:
+        style = f"color: {colour('unstable').name()}; padding: 4px;"
+        if self.styleSheet() != style:  # setting a style sheet sends another palette change
+            self.setStyleSheet(style)
+
+    def changeEvent(self, event) -> None:
+        if is_palette_change(event):
+            self._apply_theme()
+        super().changeEvent(event)
 
     def show_message(self, message: str | None) -> None:
         """Show ``message``, or hide the label for None."""

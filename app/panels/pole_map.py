@@ -13,9 +13,9 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QPalette
-from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSlider, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QSlider, QVBoxLayout, QWidget
 
-from app.panels.common import MessageLabel, colour, complex_number, number, steady_label
+from app.panels.common import MessageLabel, colour, complex_number, is_palette_change, number
 from app.theme import figure_font
 
 SLIDER_STEPS = 1000
@@ -85,8 +85,12 @@ class PoleMap(QWidget):
         self._range = (0.0, 1.0)
         self._updating = False
         self.message = MessageLabel(self)
-        self.caption = steady_label(QLabel(self))
+        self.caption = QLabel(self)
         self.caption.setFont(figure_font(9))
+        self.caption.setWordWrap(True)  # two fixed lines: a slider frame never relayouts the panel
+        self.caption.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
+        self.caption.setFixedHeight(2 * self.caption.fontMetrics().lineSpacing() + 4)
+        self.caption.setAlignment(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignTop)
         self.plot = pg.PlotWidget(self)
         self._make_items()
         self.slider = QSlider(Qt.Orientation.Horizontal, self)
@@ -117,32 +121,45 @@ class PoleMap(QWidget):
         item.setLabel("bottom", "Re s", units="1/s")
         item.setLabel("left", "Im s", units="rad/s")
         item.setMenuEnabled(False)
-        base = self.palette().color(QPalette.ColorRole.Base)
-        text = self.palette().color(QPalette.ColorRole.Text)
-        plot.setBackground(base)
-        for axis in ("bottom", "left"):
-            plot.getAxis(axis).setPen(pg.mkPen(colour("axis")))
-            plot.getAxis(axis).setTextPen(pg.mkPen(text))
-        self.rhp = pg.LinearRegionItem((0, 1), movable=False, brush=pg.mkBrush(colour("rhp")),
-                                       pen=pg.mkPen(None))
-        self.forbidden = pg.LinearRegionItem((-1, 0), movable=False, brush=pg.mkBrush(colour("forbidden")),
-                                             pen=pg.mkPen(None))
-        self.decay_line = pg.InfiniteLine(0, angle=90, movable=False,
-                                          pen=pg.mkPen(colour("decay"), width=1.4, style=Qt.PenStyle.DashLine))
-        self.imag_axis = pg.InfiniteLine(0, angle=90, movable=False, pen=pg.mkPen(colour("axis"), width=1.2))
-        self.real_axis = pg.InfiniteLine(0, angle=0, movable=False, pen=pg.mkPen(colour("axis"), width=0.8))
+        item.hideButtons()  # no auto-range button floating in the corner
+        self.rhp = pg.LinearRegionItem((0, 1), movable=False, pen=pg.mkPen(None))
+        self.forbidden = pg.LinearRegionItem((-1, 0), movable=False, pen=pg.mkPen(None))
+        self.decay_line = pg.InfiniteLine(0, angle=90, movable=False)
+        self.imag_axis = pg.InfiniteLine(0, angle=90, movable=False)
+        self.real_axis = pg.InfiniteLine(0, angle=0, movable=False)
         for it in (self.rhp, self.forbidden, self.decay_line, self.imag_axis, self.real_axis):
             it.setZValue(-10)
             plot.addItem(it, ignoreBounds=True)
-        self.paths = pg.PlotDataItem([], [], connect="finite", pen=pg.mkPen(colour("path"), width=1))
-        self.zeros = pg.ScatterPlotItem(symbol="o", size=11, brush=pg.mkBrush(None),
-                                        pen=pg.mkPen(colour("zero"), width=1.8))
-        self.poles = pg.ScatterPlotItem(symbol="x", size=12, pen=pg.mkPen(colour("pole"), width=1.4),
-                                        brush=pg.mkBrush(colour("pole")), hoverable=True,
-                                        hoverSize=17, tip=self._tip)
+        self.paths = pg.PlotDataItem([], [], connect="finite")
+        self.zeros = pg.ScatterPlotItem(symbol="o", size=11, brush=pg.mkBrush(None))
+        self.poles = pg.ScatterPlotItem(symbol="x", size=12, hoverable=True, hoverSize=17, tip=self._tip)
         for it in (self.paths, self.zeros, self.poles):
             plot.addItem(it)
+        self._apply_theme()
         item.getViewBox().sigXRangeChanged.connect(self._cover_right_half_plane)
+
+    def _apply_theme(self) -> None:
+        """Colour every plot item from the current (light or dark) palette."""
+        plot = self.plot
+        plot.setBackground(self.palette().color(QPalette.ColorRole.Base))
+        text = self.palette().color(QPalette.ColorRole.Text)
+        for axis in ("bottom", "left"):
+            plot.getAxis(axis).setPen(pg.mkPen(colour("axis")))
+            plot.getAxis(axis).setTextPen(pg.mkPen(text))
+        self.rhp.setBrush(pg.mkBrush(colour("rhp")))
+        self.forbidden.setBrush(pg.mkBrush(colour("forbidden")))
+        self.decay_line.setPen(pg.mkPen(colour("decay"), width=1.4, style=Qt.PenStyle.DashLine))
+        self.imag_axis.setPen(pg.mkPen(colour("axis"), width=1.2))
+        self.real_axis.setPen(pg.mkPen(colour("axis"), width=0.8))
+        self.paths.setPen(pg.mkPen(colour("path"), width=1))
+        self.zeros.setPen(pg.mkPen(colour("zero"), width=1.8))
+        self.poles.setPen(pg.mkPen(colour("pole"), width=1.4))
+        self.poles.setBrush(pg.mkBrush(colour("pole")))
+
+    def changeEvent(self, event) -> None:
+        if is_palette_change(event) and hasattr(self, "poles"):
+            self._apply_theme()
+        super().changeEvent(event)
 
     def _cover_right_half_plane(self, _box, x_range) -> None:
         """Keep the pale red shading from the imaginary axis to the right edge of the view."""
@@ -228,13 +245,14 @@ class PoleMap(QWidget):
 
     def _caption(self, poles: np.ndarray, value: float | None) -> str:
         report = self._result.report
-        at = f"{report.parameter} = {number(value)}: " if report.parameter and value is not None else ""
+        at = f"{report.parameter} = {number(value)} · " if report.parameter and value is not None else ""
         if poles.size == 0:
             return at + "no poles"
         dom = poles[np.argmax(poles.real + 1e-12 * poles.imag)]
         wn = abs(dom)
-        zeta = f"ζ {number(-dom.real / wn, 3)}, " if wn > 0 else ""
-        return f"{at}slowest pole {complex_number(dom, 4)}  ({zeta}ωn {number(wn, 4)} rad/s)"
+        where = number(dom.real, 4) if dom.imag == 0 else f"{number(dom.real, 4)} ± j{number(abs(dom.imag), 4)}"
+        zeta = f"ζ {number(-dom.real / wn, 3)} · " if wn > 0 else ""
+        return f"{at}slowest pole {where} · {zeta}ωn {number(wn, 4)} rad/s"
 
     # -- slider and spin box ----------------------------------------------------------------------
     def _set_controls_enabled(self, on: bool) -> None:

@@ -11,6 +11,7 @@ from app.panels.common import (
     MessageLabel,
     colour,
     complex_number,
+    is_palette_change,
     math_html,
     number,
     number_css,
@@ -104,6 +105,9 @@ class PolynomialPanel(QWidget):
         self.view.setOpenLinks(False)
         self.view.document().setDefaultStyleSheet(number_css())
         self.at_value = steady_label(QLabel(self))
+        self.at_value.setWordWrap(True)  # two fixed lines: a slider frame never relayouts the panel
+        self.at_value.setFixedHeight(2 * self.at_value.fontMetrics().lineSpacing() + 8)
+        self.at_value.setAlignment(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignTop)
         self.at_value.setTextFormat(Qt.TextFormat.RichText)
         self.at_value.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         layout = QVBoxLayout(self)
@@ -123,6 +127,16 @@ class PolynomialPanel(QWidget):
         self.view.setHtml(self.html())
         bar.setValue(keep)
         self.at_value.setText(self.at_value_html())
+
+    def changeEvent(self, event) -> None:
+        if is_palette_change(event) and hasattr(self, "at_value"):
+            self.view.document().setDefaultStyleSheet(number_css())
+            if self._result is not None:
+                value = self._value
+                self.show_result(self._result)
+                if value is not None:
+                    self.set_current_value(value)
+        super().changeEvent(event)
 
     def set_current_value(self, value: float) -> None:
         """Follow the tuning parameter's current value (the "at value" line)."""

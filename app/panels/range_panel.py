@@ -4,14 +4,34 @@ with how stability is lost there; margins at nominal; the verdict at the current
 """
 from __future__ import annotations
 
+import html
 import math
+import re
 from dataclasses import dataclass, field
 
 from PySide6.QtCore import QPointF, QRectF, QSize, Qt
-from PySide6.QtGui import QColor, QPainter, QPainterPath, QPalette, QPen
-from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
+from PySide6.QtGui import QColor, QGuiApplication, QPainter, QPainterPath, QPalette, QPen
+from PySide6.QtWidgets import (
+    QFrame,
+    QHBoxLayout,
+    QLabel,
+    QScrollArea,
+    QSizePolicy,
+    QToolButton,
+    QVBoxLayout,
+    QWidget,
+)
 
-from app.panels.common import MINUS, MessageLabel, colour, number, number_css, steady_label
+from app.panels.common import (
+    MINUS,
+    MessageLabel,
+    colour,
+    is_palette_change,
+    math_html,
+    number,
+    number_css,
+    steady_label,
+)
 from app.theme import figure_font, label_font
 from core.polynomial import to_fmpq
 from core.routh import is_hurwitz, routh_counts
@@ -177,15 +197,47 @@ class NumberLine(QWidget):
             x += 26 + p.fontMetrics().horizontalAdvance(text)
 
 
+SHORT_EXACT = 28  # exact texts longer than this are summarised on screen (full text: Copy exact)
+
+
+def _plain(exact: str) -> str:
+    return exact.replace("-", MINUS)
+
+
+def exact_summary(exact: str, name: str) -> str:
+    """Exact endpoint text as rich text for the panel: a rational as it is, a root of a short
+    polynomial written out without its decimal (shown elsewhere), a long one summarised by degree.
+
+    >>> exact_summary("20020/3249", "K")
+    '20020/3249'
+    >>> exact_summary("root of 2*K^2 - 3 near 1.22474487139159", "K")
+    'root of 2K<sup>2</sup> − 3'
+    >>> exact_summary("root of 98531853088*K^11 + 70827113850250847*K^10 - 125813400206225556 near 0.2", "K")
+    'root of a degree-11 polynomial in K'
+    """
+    m = re.fullmatch(r"root of (.*) near \S+", exact)
+    if m is None:
+        return html.escape(_plain(exact))
+    poly = m.group(1)
+    if len(poly) <= 2 * SHORT_EXACT:
+        return "root of " + math_html(poly)
+    degree = max((int(e) for e in re.findall(r"\^(\d+)", poly)), default=1)
+    return f"root of a degree-{degree} polynomial in {html.escape(name)}"
+
+
 def _interval_text(iv, exact) -> str:
-    """``(0, 6)``, with decimals after it when the exact ends are not plain decimals."""
-    ends = [("−∞" if iv[0] is None else exact[0].replace("-", MINUS)),
-            ("+∞" if iv[1] is None else exact[1].replace("-", MINUS))]
-    text = f"({ends[0]}, {ends[1]})"
+    """``(0, 6)`` in decimals; the exact ends after it when they are short and differ."""
     decimals = [("−∞" if iv[0] is None else number(iv[0])), ("+∞" if iv[1] is None else number(iv[1]))]
-    if decimals != ends:
-        text += f" <span class='muted'>≈ ({decimals[0]}, {decimals[1]})</span>"
+    text = f"({decimals[0]}, {decimals[1]})"
+    ends = [("−∞" if iv[0] is None else _plain(exact[0])), ("+∞" if iv[1] is None else _plain(exact[1]))]
+    if ends != decimals and all(len(e) <= SHORT_EXACT for e in ends):
+        text += f" <span class='muted'>= ({html.escape(ends[0])}, {html.escape(ends[1])})</span>"
     return text
+
+
+def _interval_plain(iv, exact) -> str:
+    ends = ["−∞" if iv[0] is None else _plain(exact[0]), "+∞" if iv[1] is None else _plain(exact[1])]
+    return f"({ends[0]}, {ends[1]})"
 
 
 class RangePanel(QWidget):
@@ -201,17 +253,31 @@ class RangePanel(QWidget):
         self.line = NumberLine(self)
         self.verdict = steady_label(QLabel(self))
         self.verdict.setTextFormat(Qt.TextFormat.RichText)
-        self.details = QLabel(self)
+        self.details = QLabel()
         self.details.setWordWrap(True)
         self.details.setTextFormat(Qt.TextFormat.RichText)
         self.details.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         self.details.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+        self.details.setMinimumWidth(160)  # long words never widen the panel
+        self.scroll = QScrollArea(self)
+        self.scroll.setWidget(self.details)
+        self.scroll.setWidgetResizable(True)
+        self.scroll.setFrameShape(QFrame.Shape.NoFrame)
+        self.scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        self.copy_button = QToolButton(self)
+        self.copy_button.setText("Copy exact")
+        self.copy_button.setToolTip("Copy the stable intervals and endpoints with their exact values as text")
+        self.copy_button.clicked.connect(self.copy_exact)
+        self.copy_button.setEnabled(False)
+        top = QHBoxLayout()
+        top.addWidget(self.verdict, 1)
+        top.addWidget(self.copy_button)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(6, 4, 6, 4)
         layout.addWidget(self.message)
         layout.addWidget(self.line)
-        layout.addWidget(self.verdict)
-        layout.addWidget(self.details, 1)
+        layout.addLayout(top)
+        layout.addWidget(self.scroll, 1)
 
     # -- public -----------------------------------------------------------------------------------
     def show_result(self, result) -> None:
@@ -223,6 +289,7 @@ class RangePanel(QWidget):
         report = result.report
         has_range = report is not None and report.stable_range is not None
         self.line.setVisible(has_range)
+        self.copy_button.setEnabled(has_range)
         if report is None:
             self.details.setText("")
             self.verdict.setText("")
@@ -246,6 +313,14 @@ class RangePanel(QWidget):
             self.details.setText(self.details_html())
         self._update_verdict()
 
+    def changeEvent(self, event) -> None:
+        if is_palette_change(event) and hasattr(self, "scroll") and self._result is not None:
+            value = self._value
+            self.show_result(self._result)  # rich text colours follow the palette
+            if value is not None:
+                self.set_current_value(value)
+        super().changeEvent(event)
+
     def set_current_value(self, value: float) -> None:
         """Move the marker and the verdict to the tuning parameter's current value."""
         self._value = value = float(value)
@@ -265,14 +340,46 @@ class RangePanel(QWidget):
         else:
             out.append(f"<p style='margin:2px 0' class='bad'>Stable for no value of {name}.</p>")
         if rng["endpoints"]:
-            rows = "".join(
-                f"<tr><td class='num'>{name} = {e['exact'].replace('-', MINUS)}</td>"
-                f"<td class='num muted'>≈ {number(e['value'], 10)}</td>"
-                f"<td>{how_lost(e['kind'], e['omega'])}</td></tr>" for e in rng["endpoints"])
-            out.append(f"<p style='margin:6px 0 2px 0'><b>Endpoints</b></p><table>{rows}</table>")
+            rows = "".join(self._endpoint_rows(name, e) for e in rng["endpoints"])
+            out.append(f"<p style='margin:6px 0 2px 0'><b>Endpoints</b></p>"
+                       f"<table cellspacing='0'>{rows}</table>")
         out.append(self._margins_html(name))
         out.append(self._decay_html(name))
         return "".join(out)
+
+    @staticmethod
+    def _endpoint_rows(name: str, e: dict) -> str:
+        """The decimal value first, how stability is lost beside it; the exact value below in small
+        muted type (summarised when long; Copy exact gives the full text)."""
+        decimal = number(e["value"], 10)
+        exact = _plain(e["exact"])
+        same = exact == decimal
+        head = (f"<tr><td class='num' style='white-space:nowrap'><b>{name} {'=' if same else '≈'} {decimal}</b>"
+                f"</td><td>{how_lost(e['kind'], e['omega'])}</td></tr>")
+        if same:
+            return head
+        summary = exact_summary(e["exact"], name)
+        shown = html.escape(f"{name} = {exact}") if summary == html.escape(exact) else f"{name} = {summary}"
+        return head + (f"<tr><td colspan='2' class='num muted' style='font-size:small; padding-bottom:4px'>"
+                       f"exact: {shown}</td></tr>")
+
+    def exact_text(self) -> str:
+        """Plain text of the stable intervals and endpoints with their full exact values."""
+        report = self._result.report if self._result is not None else None
+        if report is None or report.stable_range is None:
+            return ""
+        name = report.parameter
+        rng = report.stable_range.to_dict()
+        ivs = " ∪ ".join(_interval_plain(iv, ex) for iv, ex in zip(rng["intervals"], rng["exact_intervals"]))
+        lines = [f"Stable for {name} in {ivs}" if ivs else f"Stable for no value of {name}"]
+        for e in rng["endpoints"]:
+            lines.append(f"{name} = {_plain(e['exact'])}  (≈ {number(e['value'], 15)}): "
+                         f"{how_lost(e['kind'], e['omega'])}")
+        return "\n".join(lines)
+
+    def copy_exact(self) -> None:
+        """Put :meth:`exact_text` on the clipboard."""
+        QGuiApplication.clipboard().setText(self.exact_text())
 
     def _margins_html(self, name: str) -> str:
         m = self._result.report.margins

@@ -26,12 +26,13 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.panels.common import MINUS, MessageLabel, colour, number, number_css
+from app.panels.common import MINUS, MessageLabel, colour, is_palette_change, number, number_css
 from app.theme import figure_font
 from core.polynomial import to_fmpq
 from core.report_text import routh_table
 from core.routh import RationalFunction, RouthArray
 
+ENTRY_CHARS = 24  # symbolic entries wider than this wrap within their cell (full text in the tooltip)
 SUPERSCRIPTS = str.maketrans("0123456789", "⁰¹²³⁴⁵⁶⁷⁸⁹")
 EPS = "ε"
 
@@ -47,6 +48,15 @@ def entry_display(text: str, uses_eps: bool) -> str:
         text = re.sub(r"\beps_?\b", EPS, text)
     text = re.sub(r"(?<![\d/.])(\d+)\*(?=[A-Za-z(ε])", r"\1", text).replace("*", "·")
     return re.sub(r"(^|[\s(/])-", lambda m: m.group(1) + MINUS, text)
+
+
+def cell_text(text: str, uses_eps: bool) -> str:
+    """Entry text for a table cell: :func:`entry_display` with powers as superscript digits.
+
+    >>> cell_text("-3*K^2 + 1/2*K", False)
+    '−3K² + 1/2·K'
+    """
+    return re.sub(r"\^(\d+)", lambda m: m.group(1).translate(SUPERSCRIPTS), entry_display(text, uses_eps))
 
 
 def _powers(text: str) -> str:
@@ -143,7 +153,9 @@ class RouthPanel(QWidget):
         self.caption = QLabel(self)
         self.caption.setWordWrap(True)
         self.table = QTableWidget(self)
-        self.table.setFont(figure_font())
+        self.table.setFont(figure_font(9))
+        self.table.setWordWrap(True)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideMiddle)
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.ContiguousSelection)
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
@@ -179,6 +191,11 @@ class RouthPanel(QWidget):
             self._value = result.tuning.nominal
         self._build()
 
+    def changeEvent(self, event) -> None:
+        if is_palette_change(event) and hasattr(self, "_delegate") and self._result is not None:
+            self._build()  # tints and header colours follow the palette
+        super().changeEvent(event)
+
     def set_current_value(self, value: float) -> None:
         """Re-evaluate the value columns at the tuning parameter's current value."""
         self._value = value = float(value)
@@ -193,7 +210,10 @@ class RouthPanel(QWidget):
         """Put :meth:`text` on the clipboard."""
         QGuiApplication.clipboard().setText(self.text())
 
-    # -- layout of the table: row 0 is a group header; columns: symbolic | values | sign ---------
+    # -- layout of the table ------------------------------------------------------------------------
+    # Row 0 holds group headers. The first column comes first, with its value at the current value
+    # and its sign right beside it, so the stability reading never scrolls out of view; the other
+    # columns follow (entries, then their values).
     @property
     def _array(self) -> RouthArray | None:
         report = self._result.report if self._result is not None else None
@@ -202,14 +222,25 @@ class RouthPanel(QWidget):
     def _width(self) -> int:
         return max((len(r) for r in self._array.rows), default=1)
 
-    def _value_column(self, j: int) -> int:
-        return self._width() + j if self._has_values() else -1
-
-    def _sign_column(self) -> int:
-        return 2 * self._width() if self._has_values() else self._width()
-
     def _has_values(self) -> bool:
         return self._array is not None and self._array.parameter is not None
+
+    def _entry_column(self, j: int) -> int:
+        """Table column of array column ``j``'s symbolic entries."""
+        if j == 0:
+            return 0
+        return self._sign_column() + j
+
+    def _value_column(self, j: int) -> int:
+        """Table column of array column ``j``'s values at the current value (-1 without them)."""
+        if not self._has_values():
+            return -1
+        if j == 0:
+            return 1
+        return self._sign_column() + self._width() - 1 + j
+
+    def _sign_column(self) -> int:
+        return 2 if self._has_values() else 1
 
     def _build(self) -> None:
         arr = self._array
@@ -229,39 +260,56 @@ class RouthPanel(QWidget):
         table.setColumnCount(columns)
         table.horizontalHeader().hide()
         table.setVerticalHeaderLabels([""] + [self._row_label(i) for i in range(len(arr.rows))])
+        for c in range(columns):
+            table.setItemDelegateForColumn(c, None)
         table.setItemDelegateForColumn(self._sign_column(), self._delegate)
-        self._group_header(0, width, f"entries in {arr.parameter}" if arr.parameter else "entries")
+        name = arr.parameter
+        self._group_header(0, 1, f"first column{f' in {name}' if name else ''}")
         if self._has_values():
-            self._group_header(width, width, "")
+            self._group_header(1, 1, "")
         self._group_header(self._sign_column(), 1, "sign")
+        if width > 1:
+            self._group_header(self._entry_column(1), width - 1, "other columns")
+            if self._has_values():
+                self._group_header(self._value_column(1), width - 1, "")
         tint, special = QBrush(colour("tint")), QBrush(colour("special"))
         special_rows = {s.row for s in arr.special}
         display = arr.rows_text()
         for i, row in enumerate(display):
             for j in range(width):
-                item = QTableWidgetItem(entry_display(row[j], arr.uses_eps) if j < len(row) else "")
+                text = cell_text(row[j], arr.uses_eps) if j < len(row) else ""
+                item = QTableWidgetItem(text)
                 item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
+                item.setToolTip(text if len(text) > ENTRY_CHARS else "")
                 if j == 0:
                     item.setBackground(tint)
                 elif i in special_rows:
                     item.setBackground(special)
-                table.setItem(i + 1, j, item)
+                table.setItem(i + 1, self._entry_column(j), item)
         self.notes.setText(self._notes_html())
         self._fill_values()
         self._size_columns()
         table.setMaximumHeight(self._content_height())
 
     def _size_columns(self) -> None:
-        """Fit columns once per result; value columns get room for any value, so a slider
-        frame never relayouts the table."""
+        """Fit columns once per result. Symbolic entries are capped at :data:`ENTRY_CHARS`
+        characters and wrap within their cell (full text in the tooltip); value columns get room
+        for any value, so a slider frame never relayouts the table."""
         table = self.table
         table.resizeColumnsToContents()
+        metrics = table.fontMetrics()
+        cap = metrics.horizontalAdvance("0" * ENTRY_CHARS) + 12
+        room = metrics.horizontalAdvance(f"{MINUS}0.000000e-00") + 12
+        header = metrics.horizontalAdvance("first column in KK") + 12
+        for j in range(self._width()):
+            c = self._entry_column(j)
+            floor = header if j == 0 else 0
+            table.setColumnWidth(c, max(min(table.columnWidth(c), cap), floor))
+            if self._has_values():
+                v = self._value_column(j)
+                table.setColumnWidth(v, max(table.columnWidth(v), room))
+        table.setColumnWidth(self._sign_column(), 44)
         table.resizeRowsToContents()
-        room = table.fontMetrics().horizontalAdvance(f"{MINUS}0.000000e-00") + 12
-        if self._has_values():
-            for j in range(self._width()):
-                table.setColumnWidth(self._value_column(j), max(table.columnWidth(self._value_column(j)), room))
-        table.setColumnWidth(self._sign_column(), 52)
 
     def _row_label(self, i: int) -> str:
         arr = self._array
@@ -289,12 +337,11 @@ class RouthPanel(QWidget):
         value = self._value if self._has_values() else None
         if self._has_values():
             name = arr.parameter
-            self.caption.setText(f"Left: entries as functions of {name}. Right: their values at "
-                                 f"{name} = {number(value)}. First column tinted; a red arrow marks "
-                                 "each sign change down the first column.")
-            table.item(0, width).setText(f"at {name} = {number(value)}")
+            self.caption.setText(f"The first column (tinted) with its value and sign at {name} = {number(value)}; "
+                                 "a red arrow marks each sign change. Hover an entry for its full text.")
+            table.item(0, 1).setText(f"at {name} = {number(value)}")
         else:
-            self.caption.setText("First column tinted; a red arrow marks each sign change down the first column.")
+            self.caption.setText("The first column (tinted) and its sign; a red arrow marks each sign change.")
         exact = to_fmpq(value) if value is not None else None
         self.values = [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
         tint, special = QBrush(colour("tint")), QBrush(colour("special"))
@@ -303,7 +350,8 @@ class RouthPanel(QWidget):
             if self._has_values():
                 for j in range(width):
                     ev = row[j] if j < len(row) else None
-                    item = table.item(i + 1, width + j) or QTableWidgetItem()
+                    column = self._value_column(j)
+                    item = table.item(i + 1, column) or QTableWidgetItem()
                     item.setText(ev.text if ev else "")
                     item.setToolTip(ev.exact if ev else "")
                     item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
@@ -311,8 +359,8 @@ class RouthPanel(QWidget):
                         item.setBackground(tint)
                     elif i in special_rows:
                         item.setBackground(special)
-                    if table.item(i + 1, width + j) is None:
-                        table.setItem(i + 1, width + j, item)
+                    if table.item(i + 1, column) is None:
+                        table.setItem(i + 1, column, item)
         signs = [row[0].sign for row in self.values]
         self.change_rows = {i for i in range(len(signs) - 1)
                             if signs[i] is not None and signs[i + 1] is not None and signs[i] * signs[i + 1] < 0}

@@ -10,6 +10,7 @@ from fractions import Fraction
 import numpy as np
 import pytest
 import sympy
+from PySide6.QtCore import Qt
 from PySide6.QtGui import QGuiApplication
 from test_controller import unity_loop
 
@@ -183,3 +184,103 @@ def test_panels_clear_on_error_result(loop, qtbot):
     assert panels["routh"].table.rowCount() == 0
     assert panels["map"].plotted_poles().size == 0
     assert not panels["map"].slider.isEnabled()
+
+
+@pytest.fixture
+def fifth_order(qtbot):
+    """A fifth-order loop with long symbolic Routh entries: K(s + 1)/s * 8/(s + 8) * 3/((s + 0.6)(s + 5))
+    with a 25/(s + 25) sensor (invented demo numbers), K tuned over 0..20."""
+    d = Diagram(name="fifth order")
+    for node in (Node("r", "input"), Node("e", "sum", signs="+-"),
+                 Node("C", "block", role="controller", num="K (s+1)", den="s"),
+                 Node("A", "block", role="actuator", num="8", den="s+8"),
+                 Node("P", "block", role="plant", num="3", den="(s+0.6)(s+5)"), Node("b", "branch"),
+                 Node("H", "block", role="sensor", num="25", den="s+25"), Node("y", "output")):
+        d.add_node(node)
+    for src, dst, port in (("r", "e", 0), ("e", "C", 0), ("C", "A", 0), ("A", "P", 0), ("P", "b", 0),
+                           ("b", "y", 0), ("b", "H", 0), ("H", "e", 1)):
+        d.connect(src, dst, port)
+    d.set_parameter(Parameter("K", 2.0, 0.0, 20.0))
+    d.set_sweep("K")
+    d.set_analysis(input="r", output="y")
+    ctl = AnalysisController(d, ModelSignals(d))
+    assert ctl.wait_for_idle(20000) and ctl.result.ok, ctl.result.message
+    return ctl
+
+
+def test_routh_first_column_value_and_sign_fit_a_narrow_panel(fifth_order, qtbot):
+    ctl = fifth_order
+    panel = RouthPanel()
+    qtbot.addWidget(panel)
+    panel.resize(420, 420)
+    panel.show()
+    attach(panel, ctl)
+    table = panel.table
+    arr = ctl.result.report.routh
+    assert max(len(t) for row in arr.rows_text() for t in row) > 40  # long entries: the case to handle
+    # the first column, its value and its sign are the leftmost columns and are not scrolled away
+    right = table.columnViewportPosition(panel._sign_column()) + table.columnWidth(panel._sign_column())
+    assert panel._sign_column() == 2 and right <= table.viewport().width()
+    # a long entry keeps its full text in the tooltip, and the cell is wider than nothing
+    long_row = max(range(len(arr.rows)), key=lambda i: len(arr.rows_text()[i][0]))
+    item = table.item(long_row + 1, 0)
+    assert item.toolTip() and item.toolTip() == item.text()
+    # values of the first column at K = 2 agree with numpy: all positive, the loop is stable there
+    # (reference: numpy.roots of the characteristic polynomial at K = 2)
+    assert all(v.sign == 1 for v in [row[0] for row in panel.values])
+    coeffs = ctl.result.coefficients_at(2.0)
+    assert np.all(np.roots(coeffs).real < 0)
+
+
+def test_range_panel_shows_decimals_first_and_copies_exact_values(fifth_order, qtbot):
+    ctl = fifth_order
+    panel = RangePanel()
+    qtbot.addWidget(panel)
+    panel.resize(360, 400)
+    attach(panel, ctl)
+    rng = ctl.result.report.stable_range.to_dict()
+    upper = rng["endpoints"][-1]
+    assert upper["exact"].startswith("root of")  # an algebraic endpoint
+    text = panel.details.text()
+    assert f"K ≈ {upper['value']:.10g}" in text  # the decimal leads
+    assert " near " not in text  # the exact form is shown without repeating the decimal
+    panel.copy_exact()
+    copied = QGuiApplication.clipboard().text()
+    assert upper["exact"].replace("-", "\u2212") in copied  # the full exact text is copyable
+    # reference: numpy; just below the upper end all roots are in the left half plane, just above not
+    assert np.all(np.roots(ctl.result.coefficients_at(upper["value"] * 0.999)).real < 0)
+    assert np.any(np.roots(ctl.result.coefficients_at(upper["value"] * 1.001)).real > 0)
+    assert panel.details.minimumSizeHint().width() <= 360
+
+
+def test_pole_map_caption_wraps_within_the_panel(loop, qtbot):
+    _, _, panels = loop
+    pole_map = panels["map"]
+    pole_map.resize(300, 400)
+    pole_map.show()
+    caption = pole_map.caption
+    assert caption.wordWrap() and "slowest pole" in caption.text()
+    lines = caption.fontMetrics().boundingRect(0, 0, caption.width(), 1000, int(Qt.TextFlag.TextWordWrap),
+                                               caption.text()).height()
+    assert lines <= caption.height()  # fits in its two fixed lines
+
+
+def test_panels_follow_a_switch_to_the_dark_palette(loop, qtbot):
+    from PySide6.QtWidgets import QApplication
+
+    from app.panels.common import colour
+    from app.theme import dark_palette
+    _, _, panels = loop
+    app = QApplication.instance()
+    before = app.palette()
+    try:
+        app.setPalette(dark_palette())
+        QApplication.processEvents()
+        routh = panels["routh"]
+        assert routh.table.item(1, 0).background().color() == colour("tint")  # the dark tint now
+        assert colour("tint").lightness() < 128
+        assert panels["map"].plot.backgroundBrush().color().lightness() < 128
+        assert colour("stable").name() in panels["range"].verdict.text()
+    finally:
+        app.setPalette(before)
+        QApplication.processEvents()
