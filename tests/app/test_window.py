@@ -60,7 +60,7 @@ def test_menus(window):
     titles = {a.text().replace("&", ""): a for a in window.menuBar().actions()}
     assert list(titles) == ["File", "Edit", "View", "Help"]
     file_items = [a.text().replace("&", "") for a in titles["File"].menu().actions() if a.text()]
-    assert file_items == ["New", "Open…", "Open Recent", "Open Example", "Save", "Save As…", "Quit"]
+    assert file_items == ["New", "Open…", "Open Recent", "Open Example", "Save", "Save As…", "Export", "Quit"]
     examples = [a.text() for a in window.example_menu.actions()]
     assert examples == [name for name, _ in shipped_examples()]
     assert len(examples) == len(list((REPO / "resources" / "examples").glob("*.loop.json")))
