@@ -182,7 +182,8 @@ def _object_without_duplicates(pairs: list[tuple[str, Any]]) -> dict:
     return out
 
 
-_JSON_STRING = re.compile(r'"(?:[^"\\]|\\.)*"', re.DOTALL)
+# a string, or an unterminated one running to the end: always matches at a quote, so linear time
+_JSON_STRING = re.compile(r'"[^"\\]*(?:\\.[^"\\]*)*"?', re.DOTALL)
 _NOT_BRACKET = re.compile(r"[^\[\]{}]+")
 
 
@@ -221,7 +222,16 @@ def _is_int(v) -> bool:
 
 
 def _is_number(v) -> bool:
-    return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
+    """A JSON number: an int of any size (never converted to float here) or a finite float."""
+    return _is_int(v) or (isinstance(v, float) and math.isfinite(v))
+
+
+_LONE_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
+def _is_text(v) -> bool:
+    """Text that can be written back as UTF-8 (JSON escapes can spell lone surrogates; those cannot)."""
+    return isinstance(v, str) and not _LONE_SURROGATE.search(v)
 
 
 def _type_name(v) -> str:
@@ -254,6 +264,9 @@ class _Fields:
             return None
         if not isinstance(v, str):
             raise ProjectFileError("E205", f"'{key}' must be text, not {_type_name(v)}", where=self.where)
+        if not _is_text(v):
+            raise ProjectFileError("E205", f"'{key}' holds an unpaired surrogate escape (not Unicode text)",
+                                   where=self.where)
         if len(v) > limit:
             raise ProjectFileError("E205", f"'{key}' is longer than {limit} characters", where=self.where)
         return v
@@ -261,9 +274,10 @@ class _Fields:
     def number(self, key, default=0.0, *, required=False, limit=1e300):
         v = self._get(key, default, required)
         if not _is_number(v) or abs(v) > limit:
+            found = "a number out of that range" if _is_number(v) else _type_name(v)
             raise ProjectFileError("E205", f"'{key}' must be a finite number"
                                            f"{'' if limit >= 1e300 else f' within +/-{limit:g}'}, "
-                                           f"not {_type_name(v)}", where=self.where)
+                                           f"not {found}", where=self.where)
         return float(v)
 
     def integer(self, key, default=0):
@@ -342,14 +356,14 @@ def _parameter_spec(obj, source: str, index: int) -> ParameterSpec:
 
 def _plain_view(value, depth: int = 0) -> bool:
     """Whether ``value`` is window state made of plain JSON values, nested at most a few levels."""
-    if value is None or isinstance(value, (bool, str)) or _is_number(value):
+    if value is None or isinstance(value, bool) or _is_text(value) or _is_number(value):
         return True
     if depth >= MAX_VIEW_DEPTH:
         return False
     if isinstance(value, list):
         return all(_plain_view(v, depth + 1) for v in value)
     if isinstance(value, dict):
-        return all(isinstance(k, str) and _plain_view(v, depth + 1) for k, v in value.items())
+        return all(_is_text(k) and _plain_view(v, depth + 1) for k, v in value.items())
     return False
 
 
@@ -763,6 +777,7 @@ def _read_recovery(path: Path) -> dict:
     data = _parse_json(_decode(_read_bytes(path), str(path)), str(path))
     if not (isinstance(data, dict) and data.get("format") == RECOVERY_FORMAT and data.get("version") == 1
             and isinstance(data.get("project"), dict) and _is_number(data.get("saved_at"))
+            and abs(data["saved_at"]) < 1e300
             and (data.get("project_path") is None or isinstance(data.get("project_path"), str))):
         raise ProjectFileError("E202", "not a Loopwright recovery file", where=str(path))
     return data
