@@ -30,8 +30,8 @@ NODE_KINDS = ("input", "output", "sum", "branch", "block")
 ROLES = ("gain", "controller", "actuator", "plant", "sensor", "other")
 DECAY_MODES = ("sigma", "half_time", "settling")
 MIN_SUM_PORTS, MAX_SUM_PORTS = 2, 4
-ID_PATTERN = re.compile(r"^[A-Za-z_][A-Za-z0-9_]{0,63}$")
-PARAMETER_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,63}$")
+ID_PATTERN = re.compile(r"[A-Za-z_][A-Za-z0-9_]{0,63}")  # used with fullmatch: "$" would allow a final newline
+PARAMETER_PATTERN = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,63}")
 
 Listener = Callable[[str, object], None]
 
@@ -264,7 +264,7 @@ class Diagram:
 
     def _check_node(self, node: Node) -> None:
         where = f"node {node.id}"
-        if not isinstance(node.id, str) or not ID_PATTERN.match(node.id):
+        if not isinstance(node.id, str) or not ID_PATTERN.fullmatch(node.id):
             raise ModelError("E302", f"node id {node.id!r} must be a letter or _ then letters, digits or _",
                              where=where)
         if node.kind not in NODE_KINDS:
@@ -327,7 +327,7 @@ class Diagram:
         """Add or replace a parameter; return the one it replaced."""
         p = parameter
         where = f"parameter {p.name}"
-        if not isinstance(p.name, str) or not PARAMETER_PATTERN.match(p.name) or p.name == "s":
+        if not isinstance(p.name, str) or not PARAMETER_PATTERN.fullmatch(p.name) or p.name == "s":
             raise ModelError("E304", f"{p.name!r} is not a usable parameter name", where=where)
         values = (p.nominal, p.minimum, p.maximum)
         if not all(_is_finite_real(v) and abs(v) <= 1e300 for v in values):
