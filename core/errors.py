@@ -12,6 +12,8 @@ True
 """
 from __future__ import annotations
 
+import re
+
 CATALOGUE: dict[str, str] = {
     # typed expressions (block polynomials, characteristic polynomials)
     "E101": "unexpected character in an expression",
@@ -66,8 +68,22 @@ class LoopwrightError(Exception):
         self.where = where
 
     def __str__(self) -> str:
+        """One line: control and bidirectional-override characters (from hostile files) escaped."""
         place = f" at {self.where}" if self.where else ""
-        return f"{self.code}{place}: {self.message}"
+        return _one_line(f"{self.code}{place}: {self.message}")
+
+
+# C0/C1 controls, line/paragraph separators and bidi embeddings/overrides/isolates
+_UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+
+
+def _one_line(text: str) -> str:
+    r"""Escape characters that would break a line or reorder it on a terminal.
+
+    >>> _one_line("node P\n\x1b[31m")
+    'node P\\n\\x1b[31m'
+    """
+    return _UNPRINTABLE.sub(lambda m: m.group().encode("unicode_escape").decode("ascii"), text)
 
 
 class ExpressionError(LoopwrightError):
