@@ -28,7 +28,7 @@ from core.analysis import Report, check_project
 from core.errors import LoopwrightError
 from core.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.model import Diagram
-from core.poles import pole_paths
+from core.poles import path_sensitivity, pole_paths
 from core.polynomial import ParametricPolynomial, mpoly_context
 from core.project_file import project_from_dict, project_to_dict
 from core.requirements import TimeDomain, prepare
@@ -53,11 +53,14 @@ class AnalysisResult:
 
     ``path_values`` (m,) and ``paths`` (m, degree) hold the poles over the tuning parameter's
     min..max; ``coefficient_table`` turns a parameter value into float coefficients fast.
+    ``float_warning`` says when the drawn (floating-point) poles at the nominal value disagree
+    with the exact root counts; it is also added to the report's warnings.
     """
 
     generation: int
     report: Report | None = None
     error: LoopwrightError | None = None
+    float_warning: str | None = None
     internal_error: str | None = None
     elapsed_ms: float = 0.0
     tuning: TuningRange | None = None
@@ -154,6 +157,9 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
         if tuning is not None and report.analysed.degree >= 1:
             result.path_values = np.linspace(tuning.minimum, tuning.maximum, PATH_SAMPLES)
             result.paths = pole_paths(report.analysed, result.path_values)
+        result.float_warning = float_sensitivity(result, tuning)
+        if result.float_warning is not None:
+            report.warnings.append(result.float_warning)
         result.time_domain = _time_domain(diagram, report, tuning)
     except LoopwrightError as exc:
         result.report, result.error = None, exc
@@ -172,6 +178,15 @@ def _time_domain(diagram: Diagram, report: Report, tuning: TuningRange | None) -
     except Exception:  # noqa: BLE001 - the other panels keep their result
         traceback.print_exc()
         return None
+
+
+def float_sensitivity(result: AnalysisResult, tuning: TuningRange | None) -> str | None:
+    """A warning when the poles drawn at the nominal value (numpy) disagree with the exact counts."""
+    nominal = result.report.nominal
+    if nominal is None:
+        return None
+    drawn = result.poles_at(tuning.nominal if tuning is not None else None)
+    return path_sensitivity(drawn, nominal.rhp, nominal.jw)
 
 
 def _tuning_range(diagram: Diagram, report: Report) -> TuningRange | None:

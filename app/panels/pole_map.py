@@ -173,7 +173,7 @@ class PoleMap(QWidget):
     def show_result(self, result) -> None:
         """Show a new AnalysisResult: paths, decay line, slider range; poles at the current value."""
         self._result = result
-        self.message.show_message(result.message)
+        self.message.show_message(result.message or result.float_warning)
         report = result.report
         tuning = result.tuning
         if tuning is not None:
