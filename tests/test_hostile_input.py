@@ -184,7 +184,7 @@ def test_command_line_process_exit_status(name, tmp_path):
     raw = HOSTILE_FILES[name][0].replace(b"touch MARKER", f"touch {marker}".encode())
     path = tmp_path / "hostile.loop.json"
     path.write_bytes(raw)
-    done = subprocess.run([sys.executable, "-m", "core", "check", str(path)], cwd=ROOT, capture_output=True,
+    done = subprocess.run([sys.executable, "-m", "core", "check", str(path)], check=False, cwd=ROOT, capture_output=True,
                           text=True, timeout=120)
     assert done.returncode == 2 and done.stdout == ""
     assert len(done.stderr.splitlines()) == 1 and "Traceback" not in done.stderr, done.stderr
@@ -198,7 +198,7 @@ def test_screenshot_on_hostile_file(name, tmp_path):
     out = tmp_path / "shot.png"
     env = dict(os.environ, QT_QPA_PLATFORM="offscreen", LOOPWRIGHT_STATE_DIR=str(tmp_path / "state"),
                XDG_CONFIG_HOME=str(tmp_path / "config"))
-    done = subprocess.run([sys.executable, "-m", "app", "--screenshot", str(out), str(path)], cwd=ROOT, env=env,
+    done = subprocess.run([sys.executable, "-m", "app", "--screenshot", str(out), str(path)], check=False, cwd=ROOT, env=env,
                           capture_output=True, text=True, timeout=300)
     assert done.returncode == 2
     lines = done.stderr.strip().splitlines()
