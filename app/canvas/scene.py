@@ -364,7 +364,8 @@ class DiagramScene(QGraphicsScene):
             allowed = {f.name for f in fields(Node)}
             nodes = [Node(**{k: v for k, v in n.items() if k in allowed}) for n in data["nodes"]]
             wires = [(w["source"], w["target"], int(w["port"]), w.get("bends") or []) for w in data["wires"]]
-        except (ValueError, KeyError, TypeError, AttributeError):
+        except (ValueError, KeyError, TypeError, AttributeError, OverflowError, RecursionError):
+            # another program's clipboard: nested too deep for json, or a port of 1e400
             self.statusHint.emit("The clipboard holds nothing that can be pasted here.")
             return []
         self._paste_count += 1
