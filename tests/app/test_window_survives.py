@@ -170,8 +170,8 @@ def test_corrupt_recovery_file_is_skipped_not_fatal(qtbot, dialogs, state_dir):
 CLIPBOARDS = [
     b"[" * 100_000,                                                      # nested past the recursion limit
     b'{"nodes": [{"id": "Z", "kind": "block", "x": 1e400, "y": 0}], "wires": []}',
-    b'{"nodes": [{"id": "Z", "kind": "input"}, {"id": "Q", "kind": "output"}], '
-    b'"wires": [{"source": "Z", "target": "Q", "port": 1e400}]}',
+    (b'{"nodes": [{"id": "Z", "kind": "input"}, {"id": "Q", "kind": "output"}], '
+     b'"wires": [{"source": "Z", "target": "Q", "port": 1e400}]}'),
     b'{"nodes": [{"id": "Z", "kind": "input"}], "wires": [{"source": "Z", "target": "Z", "port": "x"}]}',
     b'{"nodes": [{"id": "__import__(\'os\')", "kind": "block", "num": "exec(1)"}], "wires": []}',
     b'{"nodes": "abc", "wires": 5}',
@@ -194,7 +194,7 @@ def test_hostile_clipboard_paste_changes_nothing(window, make_loop, payload):
 
 
 def test_analysis_bug_is_shown_not_raised(window, make_loop, analysed, monkeypatch):
-    import app.controller as controller
+    from app import controller
 
     def broken(_diagram):
         raise ZeroDivisionError("a bug of ours")
