@@ -85,8 +85,12 @@ def pole_paths(poly: ParametricPolynomial, values: Sequence[float]) -> np.ndarra
         return np.empty((vals.size, max(n, 0)), dtype=complex)
     coeff = np.stack([_eval_poly_float(c, vals) for c in poly.coeffs], axis=1)  # (m, n+1)
     lead = coeff[:, 0]
-    scale = np.max(np.abs(coeff), axis=1)
-    ok = np.abs(lead) > 1e-14 * np.where(scale > 0, scale, 1.0)
+    # the order drops where the leading coefficient vanishes against the size of its own terms
+    # (not against the other coefficients: a loop's coefficients may span twenty decades)
+    lead_poly = poly.coeffs[0]
+    lead_size = _eval_poly_float(fmpq_poly([abs(lead_poly[i]) for i in range(lead_poly.degree() + 1)]),
+                                 np.abs(vals))
+    ok = np.abs(lead) > 1e-14 * lead_size
     out = np.full((vals.size, n), np.nan + 0j)
     if np.any(ok):
         c = coeff[ok] / lead[ok, None]
