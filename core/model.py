@@ -42,7 +42,11 @@ def _is_real(value) -> bool:
 
 
 def _is_finite_real(value) -> bool:
-    return _is_real(value) and math.isfinite(value)
+    """A real number that a float can hold (huge integers are refused, not an OverflowError)."""
+    try:
+        return _is_real(value) and math.isfinite(value) and abs(value) <= 1e300
+    except OverflowError:
+        return False
 
 
 def _checked_bends(bends, where: str) -> list[tuple[float, float]]:

@@ -291,3 +291,11 @@ def test_rename_and_unsubscribe(loop):
 def test_parameter_names_in_blocks(loop):
     loop.update_node("P", num="Kp*(T_1*s+1)")
     assert loop.parameter_names_in_blocks() == {"K", "Kp", "T_1"}
+
+
+def test_huge_integer_position_is_refused_with_our_error():
+    # a Python int beyond float range must give E302, not OverflowError
+    d = Diagram()
+    with pytest.raises(ModelError) as err:
+        d.add_node(Node("r", "input", x=10**400))
+    assert err.value.code == "E302"
