@@ -75,7 +75,8 @@ def dominant_pole(poles: Sequence[Pole]) -> Pole | None:
 def pole_paths(poly: ParametricPolynomial, values: Sequence[float]) -> np.ndarray:
     """Roots at each parameter value: array (len(values), degree) complex, NaN where absent.
 
-    Vectorised: companion matrices for every value, one batched ``numpy.linalg.eigvals`` call.
+    Vectorised: batched companion-matrix eigenvalues at every ``ANCHOR_STRIDE``-th value, and
+    a batched Aberth-Ehrlich polish for the values between (see :func:`_roots_along`).
     Where the leading coefficient vanishes the order drops and the missing roots are NaN.
     Successive rows are matched greedily so each column traces one continuous path.
     """
@@ -93,19 +94,91 @@ def pole_paths(poly: ParametricPolynomial, values: Sequence[float]) -> np.ndarra
     ok = np.abs(lead) > 1e-14 * lead_size
     out = np.full((vals.size, n), np.nan + 0j)
     if np.any(ok):
-        c = coeff[ok] / lead[ok, None]
-        comp = np.zeros((c.shape[0], n, n))
-        comp[:, 0, :] = -c[:, 1:]
-        if n > 1:
-            idx = np.arange(n - 1)
-            comp[:, idx + 1, idx] = 1.0
-        out[ok] = np.linalg.eigvals(comp)
+        out[ok] = _roots_along(coeff[ok] / lead[ok, None])
     for i in np.flatnonzero(~ok):  # order drops: fewer roots, numpy.roots strips leading zeros
         row = np.trim_zeros(coeff[i], "f")
         if row.size > 1:
             r = np.roots(row)
             out[i, : r.size] = r
     return _match_paths(out)
+
+
+EPS = np.finfo(float).eps
+ANCHOR_STRIDE = 8  # eigenvalues at every 8th value; the values between are refined from them
+
+
+def _companion_roots(monic: np.ndarray) -> np.ndarray:
+    """Roots of each monic row (m, n+1) as eigenvalues of its companion matrix (batched)."""
+    m, n = monic.shape[0], monic.shape[1] - 1
+    comp = np.zeros((m, n, n))
+    comp[:, 0, :] = -monic[:, 1:]
+    if n > 1:
+        idx = np.arange(n - 1)
+        comp[:, idx + 1, idx] = 1.0
+    return np.linalg.eigvals(comp)
+
+
+def _roots_along(monic: np.ndarray) -> np.ndarray:
+    """Roots of many monic polynomials that change smoothly from row to row.
+
+    Companion eigenvalues at anchor rows, then for the rows between: start from the anchors'
+    roots interpolated (after matching) and polish all roots of a row at once with the
+    Aberth-Ehrlich iteration, which keeps them apart. Rows that do not converge (near
+    multiple roots) fall back to companion eigenvalues, so the result is never worse than
+    eigenvalues alone.
+    """
+    m = monic.shape[0]
+    if m <= 4 * ANCHOR_STRIDE:
+        return _companion_roots(monic)
+    anchors = np.unique(np.r_[np.arange(0, m, ANCHOR_STRIDE), m - 1])
+    out = np.empty((m, monic.shape[1] - 1), dtype=complex)
+    out[anchors] = _match_paths(_companion_roots(monic[anchors]))
+    between = np.setdiff1d(np.arange(m), anchors)
+    right = np.searchsorted(anchors, between)
+    lo, hi = anchors[right - 1], anchors[right]
+    w = ((between - lo) / (hi - lo))[:, None]
+    guess = (1 - w) * out[lo] + w * out[hi]
+    roots, converged = _aberth(monic[between], guess)
+    out[between] = roots
+    redo = between[~converged]
+    if redo.size:
+        out[redo] = _companion_roots(monic[redo])
+    return out
+
+
+def _aberth(monic: np.ndarray, z: np.ndarray, iterations: int = 12, tol: float = 1e-12):
+    """Aberth-Ehrlich iteration on every row at once; returns (roots, converged per row)."""
+    z = z.copy()
+    n = z.shape[1]
+    eye = np.eye(n, dtype=bool)
+    active = np.ones(z.shape[0], dtype=bool)
+    for _ in range(iterations):
+        rows = np.flatnonzero(active)
+        if rows.size == 0:
+            break
+        zr, cr = z[rows], monic[rows]
+        p = np.ones_like(zr)
+        dp = np.zeros_like(zr)
+        bound = np.ones(zr.shape)  # sum |c_k| |z|^k: the size of p(z)'s rounding error
+        az, ac = np.abs(zr), np.abs(cr)
+        for k in range(1, n + 1):  # Horner for p, p' and the bound together
+            dp = dp * zr + p
+            p = p * zr + cr[:, k:k + 1]
+            bound = bound * az + ac[:, k:k + 1]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            newton = p / dp
+            diff = zr[:, :, None] - zr[:, None, :]
+            diff[:, eye] = np.inf
+            step = newton / (1 - newton * np.sum(1.0 / diff, axis=2))
+        step[~np.isfinite(step)] = 0.0
+        # a root is done when the step is negligible or p(z) is at its rounding level already
+        done = (np.abs(step) <= tol * np.maximum(1.0, az)) | (np.abs(p) <= 2 * n * EPS * bound)
+        step[done] = 0.0
+        z[rows] = zr - step
+        small = np.all(done, axis=1)
+        active[rows[small]] = False
+    converged = ~active & np.all(np.isfinite(z), axis=1)
+    return z, converged
 
 
 def _eval_poly_float(c: fmpq_poly, vals: np.ndarray) -> np.ndarray:
