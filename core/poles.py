@@ -11,8 +11,8 @@ they are drawn, not trusted; :func:`path_sensitivity` says where floats disagree
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 import numpy as np
 from flint import fmpq_poly
