@@ -57,13 +57,44 @@ class NewWireGesture:
         if target is None:
             self.scene.statusHint.emit("Drop the wire on a free input port to connect it.")
             return
-        self.scene.try_push(ConnectCommand(self.scene.diagram, self.source.node_id, target.node_id, target.index))
+        bends = return_path(self.scene, self.source, target)
+        self.scene.try_push(ConnectCommand(self.scene.diagram, self.source.node_id, target.node_id, target.index,
+                                           bends=bends))
 
     def cancel(self) -> None:
         for port in self.candidates:
             port.set_highlight(None)
         if self.rubber.scene() is not None:
             self.scene.removeItem(self.rubber)
+
+
+CLEARANCE = 30.0  # how far a return wire runs below (or above) the nodes it passes
+
+
+def return_path(scene: DiagramScene, source: PortItem, target: PortItem) -> list[tuple[float, float]]:
+    """Bends for a wire that runs back against the flow (out to the right, into a port further
+    left): down, under every node in between, and back, so a feedback wire never crosses the
+    forward path. Above instead when the target's input faces up. Empty for any other wire."""
+    s, t = source.scenePos(), target.scenePos()
+    if source.direction != (1, 0) or t.x() >= s.x() - 1:
+        return []
+    up = target.direction == (0, 1)
+    left, right = t.x() - 2 * CLEARANCE, s.x() + 2 * CLEARANCE
+    y = (min(s.y(), t.y()) - CLEARANCE) if up else (max(s.y(), t.y()) + CLEARANCE)
+    rects = [item.sceneBoundingRect() for item in scene.node_items.values()]
+    moved = True
+    while moved:
+        moved = False
+        for r in rects:
+            if r.right() > left and r.left() < right and r.top() - CLEARANCE / 2 < y < r.bottom() + CLEARANCE / 2:
+                y = (r.top() - CLEARANCE) if up else (r.bottom() + CLEARANCE)
+                moved = True
+    snap = scene.snap
+    out_x = snap(s.x() + CLEARANCE)
+    y = snap(y)
+    if target.direction in ((0, 1), (0, -1)):
+        return [(out_x, y), (snap(t.x()), y)]
+    return [(out_x, y), (snap(t.x() - CLEARANCE), y)]
 
 
 class MoveGesture:

@@ -41,6 +41,7 @@ from .wire_item import WireItem
 NODE_MIME = "application/x-loopwright-node"
 CLIPBOARD_MIME = "application/x-loopwright-nodes"
 DOT_SPACING = 2 * GRID
+CHAIN_GAP = 50.0  # room left for a wire between a selected node and the next one placed beside it
 PORT_SNAP = 14.0  # how close (scene px) a dropped wire end must be to an input port
 
 # default id stem, numerator, denominator of a new block by role
@@ -270,7 +271,7 @@ class DiagramScene(QGraphicsScene):
         For a summing junction ``role`` is its input count ("2", "3" or "4")."""
         node = self.default_node(kind, role)
         exact = pos is not None
-        centre = pos if exact else self._view_centre()
+        centre = pos if exact else (self._chain_spot(node) or self._view_centre())
         x, y = self._free_spot(node, centre, exact)
         node.x, node.y = x, y
         commands: list[ModelCommand] = [AddNodeCommand(self.diagram, node)]
@@ -282,7 +283,23 @@ class DiagramScene(QGraphicsScene):
         if not self.try_push(Macro(f"add {node.id}", commands) if len(commands) > 1 else commands[0]):
             return None
         self.select_node(node.id)
+        item = self.node_items[node.id]
+        for view in self.views():
+            view.ensureVisible(item.sceneBoundingRect(), 40, 40)
         return node.id
+
+    def _chain_spot(self, node: Node) -> QPointF | None:
+        """Beside the one selected node, on its row, downstream (to the right, or to the left of a
+        flipped node): clicking palette entries one after another lays out a chain."""
+        selected = self.selected_node_ids()
+        if len(selected) != 1:
+            return None
+        anchor = self.node_items[selected[0]]
+        probe = NodeItem(node, self.theme).boundingRect()
+        bounds = anchor.sceneBoundingRect()
+        if anchor.node.flipped:
+            return QPointF(bounds.left() - CHAIN_GAP - probe.right(), anchor.node.y)
+        return QPointF(bounds.right() + CHAIN_GAP - probe.left(), anchor.node.y)
 
     def _view_centre(self) -> QPointF:
         views = self.views()

@@ -122,6 +122,8 @@ class PoleMap(QWidget):
         item.setLabel("left", "Im s", units="rad/s")
         item.setMenuEnabled(False)
         item.hideButtons()  # no auto-range button floating in the corner
+        for axis in ("bottom", "left"):
+            item.getAxis(axis).enableAutoSIPrefix(False)  # 1/s and rad/s always, never m1/s or mrad/s
         self.rhp = pg.LinearRegionItem((0, 1), movable=False, pen=pg.mkPen(None))
         self.forbidden = pg.LinearRegionItem((-1, 0), movable=False, pen=pg.mkPen(None))
         self.decay_line = pg.InfiniteLine(0, angle=90, movable=False)

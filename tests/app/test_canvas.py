@@ -415,3 +415,34 @@ def test_canvas_follows_a_switch_to_a_dark_palette(canvas):
         app.setPalette(before)
         QApplication.processEvents()
     assert canvas.scene.theme == Theme.light()
+
+
+def test_a_wire_drawn_back_to_the_left_runs_under_the_forward_path(qtbot):
+    d = Diagram("back wire")
+    for n in [Node("e", "sum", 0, 0, signs="+-"), Node("C", "block", 150, 0, role="controller"),
+              Node("P", "block", 300, 0, role="plant", num="1", den="s^3 + 2s^2 + 3s + 1")]:
+        d.add_node(n)
+    d.connect("e", "C", 0)
+    d.connect("C", "P", 0)
+    c = Canvas(qtbot, d)
+    c.drag(c.port("P", True), c.port("e", False, 1))  # the feedback wire into the sum's lower input
+    wire = c.scene.wire_items["P->e:1"]
+    lowest = max(y for _, y in wire.points)
+    for node_id in ("C", "P"):
+        assert lowest > c.scene.node_items[node_id].sceneBoundingRect().bottom(), node_id
+    # only the run under the blocks is below them: the wire ends at the sum's lower port
+    assert wire.points[-1] == c.port("e", False, 1).toTuple()
+    c.consistent()
+
+
+def test_palette_clicks_in_a_row_lay_out_a_left_to_right_chain(qtbot):
+    c = Canvas(qtbot, Diagram("empty"))
+    palette = Palette(c.scene)
+    qtbot.addWidget(palette)
+    for key in [("input", ""), ("sum", "2"), ("block", "controller"), ("block", "plant"), ("output", "")]:
+        qtbot.mouseClick(palette.buttons[key], Qt.MouseButton.LeftButton)
+    nodes = list(c.diagram.nodes.values())
+    assert len({n.y for n in nodes}) == 1  # one row
+    rects = [c.scene.node_items[n.id].sceneBoundingRect() for n in nodes]
+    assert all(a.right() < b.left() for a, b in pairwise(rects))  # left to right, no overlap
+    c.consistent()
