@@ -15,7 +15,8 @@ _EXPORTS = {
     "LoopwrightError": "errors",
 }
 
-__all__ = sorted(_EXPORTS)
+__all__ = ["CAUTION", "Diagram", "LoopwrightError", "Node", "Parameter", "Report", "Wire",
+           "check_polynomial", "check_project", "load_project", "save_project"]
 
 
 def __getattr__(name):

@@ -12,7 +12,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from typing import Sequence
+from collections.abc import Sequence
 
 from .errors import LoopwrightError, UsageError
 
@@ -22,7 +22,7 @@ PROGRAM = "loopwright-check"
 class _Parser(argparse.ArgumentParser):
     """argparse that reports a usage problem as one catalogued line instead of exiting."""
 
-    def error(self, message: str):  # noqa: D401 - argparse hook
+    def error(self, message: str):
         raise UsageError("E501", message, where="command line")
 
 
@@ -64,7 +64,7 @@ def _decay(args) -> tuple[str, float] | None:
 
 def run(args) -> int:
     """Analyse as the parsed arguments say; print the report; return the exit status."""
-    from .analysis import check_polynomial, check_project
+    from .analysis import check_polynomial
     from .report_text import report_text
 
     at = _parse_at(args.at)
@@ -91,8 +91,8 @@ def run(args) -> int:
 def _check_project_with_values(path: str, at: dict[str, str], decay):
     from .analysis import check_project
     from .errors import AnalysisError
-    from .project_file import load_project
     from .polynomial import to_fmpq
+    from .project_file import load_project
 
     project = load_project(path)
     for name, text in at.items():
@@ -125,7 +125,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:  # the reader went away (e.g. piped into head): nothing more to say
         sys.stderr.close()
         return 0
-    except Exception as err:  # a bug of ours: say so in one line, never a traceback
+    except Exception as err:  # noqa: BLE001 - a bug of ours: one line, never a traceback
         print(f"{PROGRAM}: internal error ({type(err).__name__}: {err}); please report it", file=sys.stderr)
         return 70
 

@@ -20,8 +20,8 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
-from typing import Callable
 
 from .errors import ModelError
 from .requirements import Requirements
@@ -280,10 +280,10 @@ class Diagram:
             raise ModelError("E302", "label must be text and flipped true or false", where=where)
         if not all(isinstance(t, str) for t in (node.role, node.num, node.den, node.signs)):
             raise ModelError("E302", "role, num, den and signs must be text", where=where)
-        if node.kind == "sum":
-            if not (MIN_SUM_PORTS <= len(node.signs) <= MAX_SUM_PORTS) or set(node.signs) - {"+", "-"}:
-                raise ModelError("E302", f"signs must be {MIN_SUM_PORTS} to {MAX_SUM_PORTS} of '+' and '-'",
-                                 where=where)
+        bad_signs = not (MIN_SUM_PORTS <= len(node.signs) <= MAX_SUM_PORTS) or set(node.signs) - {"+", "-"}
+        if node.kind == "sum" and bad_signs:
+            raise ModelError("E302", f"signs must be {MIN_SUM_PORTS} to {MAX_SUM_PORTS} of '+' and '-'",
+                             where=where)
         if node.kind == "block":
             if node.role not in ROLES:
                 raise ModelError("E302", f"unknown role '{node.role}' (one of {', '.join(ROLES)})", where=where)

@@ -21,17 +21,27 @@ from __future__ import annotations
 
 import math
 import numbers
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Iterable, Mapping, Sequence
 
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz
 
 S = "s"  # the Laplace variable's name, reserved in every expression
 
-__all__ = ["S", "fmpq", "fmpq_poly", "to_fmpq", "mpoly_context", "mpoly_from_dict", "mpoly_text",
-           "primitive_scale",
-           "poly_text", "ParametricPolynomial", "strip_leading_zeros"]
+__all__ = [
+    "ParametricPolynomial",
+    "S",
+    "fmpq",
+    "fmpq_poly",
+    "mpoly_context",
+    "mpoly_from_dict",
+    "mpoly_text",
+    "poly_text",
+    "primitive_scale",
+    "strip_leading_zeros",
+    "to_fmpq",
+]
 
 
 def to_fmpq(value) -> fmpq:
@@ -175,13 +185,13 @@ class ParametricPolynomial:
         object.__setattr__(self, "coeffs", coeffs[i:] or (fmpq_poly([]),))
 
     @classmethod
-    def from_coefficients(cls, coeffs: Sequence, parameter: str | None = None) -> "ParametricPolynomial":
+    def from_coefficients(cls, coeffs: Sequence, parameter: str | None = None) -> ParametricPolynomial:
         """From a list (highest power first) of numbers or fmpq_poly values."""
         return cls(tuple(coeffs), parameter)
 
     @classmethod
     def from_mpoly(cls, poly: fmpq_mpoly, parameter: str | None = None,
-                   values: Mapping[str, object] | None = None) -> "ParametricPolynomial":
+                   values: Mapping[str, object] | None = None) -> ParametricPolynomial:
         """Substitute ``values`` for every parameter but ``parameter`` and collect powers of s.
 
         Raises KeyError naming the first parameter that has neither a value nor is the tuning one.
@@ -231,7 +241,7 @@ class ParametricPolynomial:
             out.append(acc)
         return out
 
-    def shifted(self, sigma) -> "ParametricPolynomial":
+    def shifted(self, sigma) -> ParametricPolynomial:
         """The polynomial in z with s = z - sigma (roots move right by sigma).
 
         >>> ParametricPolynomial.from_coefficients([1, 3, 2]).shifted(1).text()

@@ -45,10 +45,11 @@ import re
 import secrets
 import stat
 import time
+from collections.abc import Callable
 from dataclasses import dataclass
 from itertools import accumulate
 from pathlib import Path
-from typing import Any, Callable, NamedTuple
+from typing import Any, NamedTuple
 
 from .errors import ExpressionError, LoopwrightError, ModelError, ProjectFileError
 from .model import Diagram, Node, Parameter
@@ -583,7 +584,7 @@ class Fingerprint(NamedTuple):
     size: int
     sha256: str
 
-    def same_content(self, other: "Fingerprint | None") -> bool:
+    def same_content(self, other: Fingerprint | None) -> bool:
         """Whether ``other`` describes the same bytes (a touched but unchanged file is the same)."""
         return other is not None and (self.size, self.sha256) == (other.size, other.sha256)
 

@@ -15,7 +15,7 @@ EXAMPLES = sorted((ROOT / "resources" / "examples").glob("*.loop.json"))
 
 
 def run_cli(*args):
-    return subprocess.run([sys.executable, "-m", "core", *args], cwd=ROOT, capture_output=True, text=True,
+    return subprocess.run([sys.executable, "-m", "core", *args], cwd=ROOT, capture_output=True, text=True, check=False,
                           timeout=120)
 
 

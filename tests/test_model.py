@@ -12,8 +12,18 @@ import math
 import pytest
 
 from core.errors import ExpressionError, ModelError
-from core.model import (DECAY_MODES, MAX_SUM_PORTS, MIN_SUM_PORTS, NODE_KINDS, ROLES, Diagram, Node, Parameter,
-                        RemovedNode, Wire)
+from core.model import (
+    DECAY_MODES,
+    MAX_SUM_PORTS,
+    MIN_SUM_PORTS,
+    NODE_KINDS,
+    ROLES,
+    Diagram,
+    Node,
+    Parameter,
+    RemovedNode,
+    Wire,
+)
 
 
 def snapshot(d: Diagram):

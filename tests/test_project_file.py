@@ -18,9 +18,18 @@ from hypothesis import strategies as st
 
 from core import project_file as pf
 from core.errors import LoopwrightError, ProjectFileError
-from core.model import Diagram, Node, Parameter
-from core.project_file import (CURRENT_VERSION, MIGRATIONS, dumps_project, file_fingerprint, load_project,
-                               loads_project, project_from_dict, project_to_dict, save_project)
+from core.model import Diagram, Parameter
+from core.project_file import (
+    CURRENT_VERSION,
+    MIGRATIONS,
+    dumps_project,
+    file_fingerprint,
+    load_project,
+    loads_project,
+    project_from_dict,
+    project_to_dict,
+    save_project,
+)
 
 EXAMPLES = sorted((Path(__file__).resolve().parent.parent / "resources" / "examples").glob("*.loop.json"))
 
