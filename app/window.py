@@ -35,6 +35,7 @@ from app.files import Dialogs, ProjectFiles
 from app.inspector import Inspector
 from app.palette import Palette
 from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
+from app.panels.common import colour
 from app.panels.requirements_panel import RequirementsPanel
 from app.panels.step_panel import StepPanel
 from app.parameters_panel import ParametersPanel
@@ -71,7 +72,6 @@ class MainWindow(QMainWindow):
         self.scene: DiagramScene | None = None
         self.view: DiagramView | None = None
         self.controller: AnalysisController | None = None
-        self._retired: list[AnalysisController] = []
 
         self.palette_panel: Palette | None = None
         self.inspector = Inspector(self)
@@ -316,7 +316,7 @@ class MainWindow(QMainWindow):
         QTimer.singleShot(0, self.view.fit_all)
 
     def _retire(self) -> None:
-        """Let go of the previous document's signals and controller (a running analysis may finish)."""
+        """Let go of the previous document's signals and controller (a running analysis is dropped)."""
         if self.signals is not None:
             self.signals.detach()
             self.signals.deleteLater()  # after the panels let go of it in set_document
@@ -324,14 +324,8 @@ class MainWindow(QMainWindow):
             for signal in (self.controller.resultReady, self.controller.currentValueChanged,
                            self.controller.busyChanged, self.pole_map.valueDragged, self.pole_map.valueCommitted):
                 signal.disconnect()
-            self._retired.append(self.controller)
-        still_running = []
-        for controller in self._retired:
-            if controller.busy:
-                still_running.append(controller)
-            else:
-                controller.deleteLater()
-        self._retired = still_running
+            self.controller.dispose()
+            self.controller.deleteLater()
 
     def _show_verdict(self, result) -> None:
         self.verdict.setText(self._verdict_text(result))
@@ -361,9 +355,9 @@ class MainWindow(QMainWindow):
     def _verdict_style(result) -> str:
         report = result.report
         if report is None or report.nominal is None:
-            return "color: #8a5a00; padding: 0 6px;"
-        colour = "#1b7f3b" if report.nominal.stable else "#c62828"
-        return f"color: {colour}; font-weight: 600; padding: 0 6px;"
+            return f"color: {colour('warning').name()}; padding: 0 6px;"
+        meaning = "stable" if report.nominal.stable else "unstable"
+        return f"color: {colour(meaning).name()}; font-weight: 600; padding: 0 6px;"
 
     def _on_settings_changed(self, what: str) -> None:
         if what == "name":
@@ -411,6 +405,8 @@ class MainWindow(QMainWindow):
             return
         self.files.forget_recoveries()
         self.files.autosave_timer.stop()
+        if self.controller is not None:
+            self.controller.dispose()
         if not self.rendering:
             settings = QSettings()
             settings.setValue("window/geometry", self.saveGeometry())
