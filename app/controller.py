@@ -129,10 +129,10 @@ def coefficient_table(poly: ParametricPolynomial) -> np.ndarray:
 
 def zero_table(report: Report) -> np.ndarray:
     """Coefficient table of the closed-loop numerator (other parameters at nominal); empty if none."""
-    tf = report.transfer_function
-    if not tf:
+    transfer = report.transfer_function
+    if not transfer:
         return np.empty((0, 0))
-    text = tf["num"]
+    text = transfer["num"]
     mp = to_mpoly(parse_polynomial(text, where="transfer function numerator"),
                   mpoly_context(expression_parameters(text)))
     try:

@@ -187,13 +187,13 @@ def polynomial_html(inputs: ReportInputs) -> str:
     fac = factored(report.analysed)
     rows.append(["Factored over Q", f"<span class='math'>{math_html(fac)}</span>" if fac
                  else "<span class='muted'>does not factor over the rationals</span>"])
-    tf = report.transfer_function
-    if tf:
+    transfer = report.transfer_function
+    if transfer:
         rows.append(["Closed-loop transfer function, input to output",
-                     f"<span class='math' id='tf'>({math_html(tf['num'])}) / ({math_html(tf['den'])})</span>"])
-        if (tf["num"], tf["den"]) != (tf["num_full"], tf["den_full"]):
+                     f"<span class='math' id='transfer'>({math_html(transfer['num'])}) / ({math_html(transfer['den'])})</span>"])
+        if (transfer["num"], transfer["den"]) != (transfer["num_full"], transfer["den_full"]):
             rows.append(["Before cancelling common factors",
-                         f"<span class='math'>({math_html(tf['num_full'])}) / ({math_html(tf['den_full'])})</span>"])
+                         f"<span class='math'>({math_html(transfer['num_full'])}) / ({math_html(transfer['den_full'])})</span>"])
     body = "".join(f"<tr><td class='muted' width='30%'>{k}</td><td>{v}</td></tr>" for k, v in rows)
     out = ["<h2 id='polynomial'>Characteristic polynomial</h2>",
            f"<table id='polynomial-forms' cellspacing='0' cellpadding='3' width='100%'>{body}</table>"]

@@ -281,15 +281,15 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
                                 decay or (settings.decay_mode, settings.decay_value))
     report.source = source or project.name
     report.warnings = list(red.warnings) + report.warnings
-    if red.tf_num is not None:
-        scale, full_scale = primitive_scale(red.tf_den_reduced), primitive_scale(red.tf_den)
+    if red.closed_num is not None:
+        scale, full_scale = primitive_scale(red.closed_den_reduced), primitive_scale(red.closed_den)
         report.transfer_function = {
-            "num": mpoly_text(red.tf_num_reduced * scale), "den": mpoly_text(red.tf_den_reduced * scale),
-            "num_full": mpoly_text(red.tf_num * full_scale), "den_full": mpoly_text(red.tf_den * full_scale)}
+            "num": mpoly_text(red.closed_num_reduced * scale), "den": mpoly_text(red.closed_den_reduced * scale),
+            "num_full": mpoly_text(red.closed_num * full_scale), "den_full": mpoly_text(red.closed_den * full_scale)}
         all_values = {k: v for k, v in values.items() if k in used}
-        if (parameter is None or parameter in all_values) and not red.tf_num.is_zero():
+        if (parameter is None or parameter in all_values) and not red.closed_num.is_zero():
             report.hidden_modes = _hidden_modes(red, all_values)
-            report.zeros = _roots_at(red.tf_num_reduced, all_values)
+            report.zeros = _roots_at(red.closed_num_reduced, all_values)
         for mode in report.hidden_modes:
             where = f" (from {', '.join(mode.blocks)})" if mode.blocks else ""
             state = "UNSTABLE" if mode.unstable else "stable"

@@ -7,7 +7,7 @@ It enumerates every simple loop, forward path and set of non-touching loops, so 
 exponentially: meant for small diagrams.
 
 Both results are multiplied by the product of every block's denominator, so they are polynomials
-comparable directly with ``Reduction.tf_num`` and ``Reduction.characteristic``. Because the loops
+comparable directly with ``Reduction.closed_num`` and ``Reduction.characteristic``. Because the loops
 of one term never share a node, each block's N_i or D_i enters a term once, and each term is a
 plain product: no fraction arithmetic at all.
 """

@@ -9,7 +9,7 @@ which equals det(M) for the polynomial system matrix M (block rows scaled by the
 *not rescaled*: its value is exactly Delta times the product, Delta's Mason form starting with 1.
 So a pole-zero cancellation never hides a mode.
 
-The transfer function from the input to the output is ``tf_num / tf_den`` with ``tf_den ==
+The transfer function from the input to the output is ``closed_num / closed_den`` with ``closed_den ==
 characteristic`` (Cramer's rule on M). The reduced pair divides both by ``hidden_factor``, their
 gcd made monic (the coefficient of its leading term, lex order with s first, is 1); its roots are
 the hidden modes. A zero transfer function (output not reachable) is a warning, not an error:
@@ -34,7 +34,7 @@ gives the same result by Mason's gain formula, for checking.
 ...     _ = d.connect(a, b, port)
 >>> red = reduce_diagram(d, "r", "y")
 >>> from core.polynomial import mpoly_text
->>> mpoly_text(red.characteristic), mpoly_text(red.tf_num_reduced), mpoly_text(red.tf_den_reduced)
+>>> mpoly_text(red.characteristic), mpoly_text(red.closed_num_reduced), mpoly_text(red.closed_den_reduced)
 ('s^2 + 2*s - 3', '1', 's + 3')
 >>> mpoly_text(red.hidden_factor), red.hidden_blocks, red.loops
 ('s - 1', ['P'], [['e', 'C', 'P']])
@@ -70,10 +70,10 @@ class Reduction:
 
     parameters: list[str]
     characteristic: fmpq_mpoly
-    tf_num: fmpq_mpoly | None = None
-    tf_den: fmpq_mpoly | None = None
-    tf_num_reduced: fmpq_mpoly | None = None
-    tf_den_reduced: fmpq_mpoly | None = None
+    closed_num: fmpq_mpoly | None = None
+    closed_den: fmpq_mpoly | None = None
+    closed_num_reduced: fmpq_mpoly | None = None
+    closed_den_reduced: fmpq_mpoly | None = None
     hidden_factor: fmpq_mpoly | None = None
     hidden_blocks: list[str] = field(default_factory=list)
     loops: list[list[str]] = field(default_factory=list)
@@ -158,8 +158,8 @@ def _is_unit_loop(graph: SignalGraph, loop: list[str]) -> bool:
 # -- results and warnings --------------------------------------------------------------------------
 def _set_transfer_function(red: Reduction, graph: SignalGraph, num: fmpq_mpoly) -> None:
     hidden = num.gcd(red.characteristic)
-    red.tf_num, red.tf_den = num, red.characteristic
-    red.tf_num_reduced, red.tf_den_reduced = num / hidden, red.characteristic / hidden
+    red.closed_num, red.closed_den = num, red.characteristic
+    red.closed_num_reduced, red.closed_den_reduced = num / hidden, red.characteristic / hidden
     red.hidden_factor = hidden
     if hidden.degrees()[0] > 0:
         red.hidden_blocks = [b for b in graph.order if b in graph.blocks

@@ -59,8 +59,8 @@ def report_text(report: Report) -> str:
     if d["analysed_polynomial"] != d["polynomial"]:
         out.append(f"With other parameters at nominal: {d['analysed_polynomial']}")
     if d["transfer_function"]:
-        tf = d["transfer_function"]
-        out.append(f"Closed-loop transfer function: ({tf['num']}) / ({tf['den']})")
+        transfer = d["transfer_function"]
+        out.append(f"Closed-loop transfer function: ({transfer['num']}) / ({transfer['den']})")
     out.append(f"Tuning parameter: {d['parameter'] or 'none'}")
     out.append("")
     out.append("Routh array" + (f" (entries in {d['parameter']})" if d["parameter"] else "") + ":")

@@ -63,9 +63,9 @@ def test_unity_feedback_characteristic_is_d_plus_n():
     N, D = K * (s + 2), s * (s + 1) * (s + 5)
     assert red.parameters == ["K"]
     assert same_poly(red.characteristic, D + N)  # closed loop 1 + G = 0 -> D + N = 0 (textbook, from memory)
-    assert red.tf_den == red.characteristic
-    assert same_ratio(red.tf_num, red.tf_den, G / (1 + G))  # T = G/(1+G) (textbook, from memory)
-    assert same_poly(red.tf_num, N)  # numerator N * Delta_1 with Delta_1 = 1 (Mason 1956, from memory)
+    assert red.closed_den == red.characteristic
+    assert same_ratio(red.closed_num, red.closed_den, G / (1 + G))  # T = G/(1+G) (textbook, from memory)
+    assert same_poly(red.closed_num, N)  # numerator N * Delta_1 with Delta_1 = 1 (Mason 1956, from memory)
     assert red.hidden_factor.is_one() and red.hidden_blocks == []
     assert red.loops == [["e", "G"]]
 
@@ -75,7 +75,7 @@ def test_series_blocks_multiply():
              [("r", "A"), ("A", "B"), ("B", "y")])
     red = reduce_diagram(d, "r", "y")
     # series connection: G = G1 G2 (textbook block algebra, from memory)
-    assert same_ratio(red.tf_num, red.tf_den, (s + 3) / (s + 1) * 2 / (s ** 2 + 4))
+    assert same_ratio(red.closed_num, red.closed_den, (s + 3) / (s + 1) * 2 / (s ** 2 + 4))
     assert same_poly(red.characteristic, (s + 1) * (s ** 2 + 4))  # no loop: Delta = 1
     assert red.loops == [] and red.warnings == []
 
@@ -86,7 +86,7 @@ def test_parallel_blocks_add():
              [("r", "b"), ("b", "A"), ("b", "B"), ("A", "p", 0), ("B", "p", 1), ("p", "y")])
     red = reduce_diagram(d, "r", "y")
     # parallel connection: G = G1 +/- G2 (textbook block algebra, from memory)
-    assert same_ratio(red.tf_num, red.tf_den, 1 / (s + 1) - K / (s + 2))
+    assert same_ratio(red.closed_num, red.closed_den, 1 / (s + 1) - K / (s + 2))
     assert same_poly(red.characteristic, (s + 1) * (s + 2))
 
 
@@ -96,7 +96,7 @@ def test_feedback_with_sensor():
              [("r", "e", 0), ("e", "G"), ("G", "b"), ("b", "y"), ("b", "H"), ("H", "e", 1)])
     red = reduce_diagram(d, "r", "y")
     G, H = 4 / (s * (s + 2)), 1 / (T * s + 1)
-    assert same_ratio(red.tf_num, red.tf_den, G / (1 + G * H))  # T = G/(1+GH) (textbook, from memory)
+    assert same_ratio(red.closed_num, red.closed_den, G / (1 + G * H))  # T = G/(1+GH) (textbook, from memory)
     assert same_poly(red.characteristic, s * (s + 2) * (T * s + 1) + 4)  # D_G D_H + N_G N_H
     assert red.parameters == ["T"]
 
@@ -107,7 +107,7 @@ def test_positive_feedback():
              [("r", "e", 0), ("e", "G"), ("G", "b"), ("b", "y"), ("b", "H"), ("H", "e", 1)])
     red = reduce_diagram(d, "r", "y")
     G, H = K / (s + 3), 2 / (s + 1)
-    assert same_ratio(red.tf_num, red.tf_den, G / (1 - G * H))  # positive feedback G/(1-GH) (from memory)
+    assert same_ratio(red.closed_num, red.closed_den, G / (1 - G * H))  # positive feedback G/(1-GH) (from memory)
     assert same_poly(red.characteristic, (s + 3) * (s + 1) - 2 * K)
 
 
@@ -119,7 +119,7 @@ def test_nested_inner_and_outer_loops():
     red = reduce_diagram(d, "r", "y")
     C, P, H = K, 1 / (s * (s + 4)), 3 / (s + 6)
     inner = P / (1 + P * H)  # inner loop reduced first (textbook block algebra, from memory)
-    assert same_ratio(red.tf_num, red.tf_den, C * inner / (1 + C * inner))
+    assert same_ratio(red.closed_num, red.closed_den, C * inner / (1 + C * inner))
     # Delta = 1 - (L_inner + L_outer), both loops touch (Mason 1953, from memory); times D_P D_H
     assert same_poly(red.characteristic, s * (s + 4) * (s + 6) * (1 + P * H + C * P))
     assert sorted(map(sorted, red.loops)) == sorted([sorted(["e2", "P", "b", "H"]),
@@ -134,7 +134,7 @@ def test_two_summing_junctions_in_one_path():
     red = reduce_diagram(d, "r", "y")
     G = 5 / (s ** 2 + s)
     # two touching loops -G and -G K: T = G / (1 + G + G K) (Mason 1953, from memory)
-    assert same_ratio(red.tf_num, red.tf_den, G / (1 + G + G * K))
+    assert same_ratio(red.closed_num, red.closed_den, G / (1 + G + G * K))
     assert same_poly(red.characteristic, s ** 2 + s + 5 + 5 * K)
 
 
@@ -143,7 +143,7 @@ def test_loop_off_the_path_stays_in_the_characteristic():
               ("z", "sum", "+-"), ("W", "block", "3", "s-2")],
              [("r", "G"), ("G", "b"), ("b", "y"), ("b", "z", 0), ("z", "W"), ("W", "z", 1)])
     red = reduce_diagram(d, "r", "y")
-    assert same_ratio(red.tf_num_reduced, red.tf_den_reduced, 1 / (s + 1))
+    assert same_ratio(red.closed_num_reduced, red.closed_den_reduced, 1 / (s + 1))
     # the side loop's closed-loop factor D_W + N_W = s + 1 is a mode of the whole interconnection
     # (Delta = 1 + W, Mason 1956, from memory) that the output never sees
     assert same_poly(red.characteristic, (s + 1) * (s + 1))
@@ -163,9 +163,9 @@ def test_non_touching_loops_cross_coupled():
     # Delta = 1 - (L1 + L2 + L3) + L1 L2, L1 and L2 do not touch (Mason 1953/1956, from memory)
     delta = 1 - (L1 + L2 + L3) + L1 * L2
     assert same_poly(red.characteristic, sympy.cancel(delta * (s + 1) * (s + 3) * s))
-    assert same_ratio(red.tf_num, red.tf_den, G1 * G2 / delta)
+    assert same_ratio(red.closed_num, red.closed_den, G1 * G2 / delta)
     num_m, delta_m = mason_gain(d, "r", "y")
-    assert num_m == red.tf_num and delta_m == red.characteristic
+    assert num_m == red.closed_num and delta_m == red.characteristic
     assert len(red.loops) == 3
 
 
@@ -173,8 +173,8 @@ def test_disturbance_entering_at_a_block_output():
     red = reduce_diagram(unity_loop("K", "s (s+1)"), "G", "y")
     G = K / (s * (s + 1))
     # an output disturbance reaches y through the sensitivity 1/(1+G) (textbook, from memory)
-    assert same_ratio(red.tf_num, red.tf_den, 1 / (1 + G))
-    assert (red.tf_num, red.characteristic) == mason_gain(unity_loop("K", "s (s+1)"), "G", "y")
+    assert same_ratio(red.closed_num, red.closed_den, 1 / (1 + G))
+    assert (red.closed_num, red.characteristic) == mason_gain(unity_loop("K", "s (s+1)"), "G", "y")
 
 
 # -- hidden modes --------------------------------------------------------------------------------
@@ -187,19 +187,19 @@ def cancelling_loop() -> Diagram:
 def test_cancelled_unstable_pole_stays_in_the_characteristic():
     red = reduce_diagram(cancelling_loop(), "r", "y")
     # C P = 1/(s+2), so the transfer function is 1/(s+3); the plant pole at s = 1 cancels
-    assert same_ratio(red.tf_num_reduced, red.tf_den_reduced, 1 / (s + 3))
+    assert same_ratio(red.closed_num_reduced, red.closed_den_reduced, 1 / (s + 3))
     assert same_poly(red.characteristic, (s - 1) * (s + 3))
     roots = np.roots([float(c) for c in ParametricPolynomial.from_mpoly(red.hidden_factor).at()])
     assert np.allclose(roots, [1.0])  # numpy.roots: the hidden mode is s = 1
     assert red.hidden_blocks == ["P"]
-    assert red.characteristic == red.tf_den_reduced * red.hidden_factor
-    assert red.tf_num == red.tf_num_reduced * red.hidden_factor
+    assert red.characteristic == red.closed_den_reduced * red.hidden_factor
+    assert red.closed_num == red.closed_num_reduced * red.hidden_factor
     assert red.hidden_factor.leading_coefficient() == 1
 
 
 def test_mason_agrees_on_the_cancelling_loop():
     red = reduce_diagram(cancelling_loop(), "r", "y")
-    assert mason_gain(cancelling_loop(), "r", "y") == (red.tf_num, red.characteristic)
+    assert mason_gain(cancelling_loop(), "r", "y") == (red.closed_num, red.characteristic)
 
 
 # -- warnings and errors -------------------------------------------------------------------------
@@ -239,7 +239,7 @@ def test_unconnected_port_and_unreachable_output():
              [("r", "e", 0), ("e", "G"), ("q", "F"), ("F", "y")])
     red = reduce_diagram(d, "r", "y")
     assert "node e: input 2 is not connected and contributes zero" in red.warnings
-    assert red.tf_num.is_zero() and red.tf_num_reduced.is_zero()
+    assert red.closed_num.is_zero() and red.closed_num_reduced.is_zero()
     assert any("does not depend on the input" in w for w in red.warnings)
     assert same_poly(red.characteristic, (s + 1) * (s + 4))
     assert red.hidden_factor == red.characteristic  # every mode is hidden from a zero transfer function
@@ -248,7 +248,7 @@ def test_unconnected_port_and_unreachable_output():
 def test_without_ends_only_the_characteristic():
     red = reduce_diagram(unity_loop("K", "s+1"), None, None)
     assert same_poly(red.characteristic, s + 1 + K)
-    assert red.tf_num is None and red.hidden_factor is None
+    assert red.closed_num is None and red.hidden_factor is None
 
 
 def test_block_polynomials_and_parameters():
@@ -323,8 +323,8 @@ def check_agreement(case) -> None:
         return
     # exactly equal, not only as rational functions: both are scaled by every block's denominator
     assert red.characteristic == delta_m
-    assert red.tf_num == num_m
-    assert red.tf_num * delta_m == num_m * red.tf_den
+    assert red.closed_num == num_m
+    assert red.closed_num * delta_m == num_m * red.closed_den
     degree_bound = sum(p[1].degrees()[0] for p in block_polynomials(d).values())
     assert red.characteristic.degrees()[0] <= degree_bound
 

@@ -155,12 +155,12 @@ class PolynomialPanel(QWidget):
         fac = factored(report.analysed)
         parts.append(_section("Factored over Q", _line(math_html(fac)) if fac else
                               _line("does not factor over the rationals", "muted")))
-        tf = report.transfer_function
-        if tf:
-            body = fraction_html(tf["num"], tf["den"])
-            if (tf["num"], tf["den"]) != (tf["num_full"], tf["den_full"]):
-                body += _line("before cancelling common factors: (" + math_html(tf["num_full"]) + ") / ("
-                              + math_html(tf["den_full"]) + ")", "muted")
+        transfer = report.transfer_function
+        if transfer:
+            body = fraction_html(transfer["num"], transfer["den"])
+            if (transfer["num"], transfer["den"]) != (transfer["num_full"], transfer["den_full"]):
+                body += _line("before cancelling common factors: (" + math_html(transfer["num_full"]) + ") / ("
+                              + math_html(transfer["den_full"]) + ")", "muted")
             parts.append(_section("Closed-loop transfer function, input to output", body))
         parts += self._warnings_html(report)
         return "".join(parts)

@@ -30,7 +30,7 @@ from core.project_file import save_project
 REPO = Path(__file__).resolve().parents[2]
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 SECTIONS = ["meta", "caution", "verdict", "diagram", "blocks", "parameters", "settings", "polynomial",
-            "char-poly", "tf", "routh", "routh-array", "routh-values", "sign-changes", "range", "intervals",
+            "char-poly", "transfer", "routh", "routh-array", "routh-values", "sign-changes", "range", "intervals",
             "endpoints", "margins", "poles", "pole-table", "warnings"]
 
 
