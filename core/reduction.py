@@ -87,20 +87,20 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
     """
     check_endpoints(diagram, input_id, output_id)
     graph = build_signal_graph(diagram)
-    with_tf = input_id is not None and output_id is not None
+    with_transfer = input_id is not None and output_id is not None
     loops = simple_cycles(graph)
     warnings = _port_warnings(diagram, graph) + _improper_warnings(diagram, graph)
     if len(loops) >= MAX_LOOPS:
         warnings.append(f"more than {MAX_LOOPS} loops: only the first {MAX_LOOPS} are listed")
-    observed = output_id if with_tf and graph.kinds[output_id] != "input" else None
-    pivots, sign, x_out = _eliminate(graph, input_id if with_tf else None, observed, loops)
+    observed = output_id if with_transfer and graph.kinds[output_id] != "input" else None
+    pivots, sign, x_out = _eliminate(graph, input_id if with_transfer else None, observed, loops)
     # Delta = sign * prod(pivots) in lowest terms: its denominator divides prod(D_i) exactly
     one = graph.ctx.constant(1)
     delta = fraction_product(pivots, (one, one))
     characteristic = delta[0] * (product([d for _, d in graph.blocks.values()], one) / delta[1]) * sign
     warnings += _ill_posed_warnings(diagram, graph, characteristic, loops)
     red = Reduction(diagram_parameters(diagram), characteristic, loops=loops, warnings=warnings)
-    if with_tf:
+    if with_transfer:
         if observed is None:  # an Input node observed: it is the input itself or independent of it
             num = characteristic if output_id == input_id else graph.ctx.constant(0)
         else:

@@ -190,8 +190,8 @@ def test_stable_range_with_scaled_parameter(scale, upper):
 @pytest.mark.parametrize("a", ["1000000", "1/1000000"])
 def test_stable_range_unchanged_by_time_scaling(a):
     # p(s/a) has roots a times those of p(s): same stable range 0 < K < 6, crossing at a*sqrt(2)
-    t = f"(s/({a}))"
-    report = check_polynomial(f"{t}^3 + 3*{t}^2 + 2*{t} + K", parameter="K", at={"K": 1})
+    scaled = "(s/(" + a + "))"
+    report = check_polynomial(f"{scaled}^3 + 3*{scaled}^2 + 2*{scaled} + K", parameter="K", at={"K": 1})
     assert report.stable_range.to_dict()["exact_intervals"] == [["0", "6"]]
     crossing = report.stable_range.endpoints[-1]
     assert crossing.kind == "crossing"

@@ -496,7 +496,7 @@ class DiagramScene(QGraphicsScene):
             item.setSelected(True)
         menu = QMenu()
         if isinstance(item, NodeItem) and item.node.kind != "branch":
-            menu.addAction("Flip left-right\tF", self.flip_selection)
+            menu.addAction("Flip left-right (F)", self.flip_selection)
         if isinstance(item, WireItem) and item.bends:
             key = item.key
             menu.addAction("Straighten wire", lambda: self._straighten(key))
