@@ -2,8 +2,12 @@
 
 The transfer function is exact (:func:`core.reduction.reduce_diagram`, or the typed polynomials),
 kept parametric in the tuning parameter (:class:`ParametricTransfer`); at one value it is turned
-into float coefficients and simulated with ``scipy.signal.lsim`` (exact for a step input: the
-state update is a matrix exponential, the input constant between samples).
+into float coefficients and simulated exactly at the samples: a step input is constant, so the
+state x and the input u = 1 together obey z' = M z, and z((k+1) dt) = E z(k dt) with
+E = expm(M dt) -- the controllable canonical form and matrix exponential of
+``scipy.signal.lsim``, with the state first balanced (a diagonal similarity; a loop's
+coefficients may span 20 decades) and only scipy.linalg loaded. E is applied one step at a
+time: higher powers of a non-normal E, taken to save steps, lose accuracy.
 
 * Stability is decided exactly on the *full* characteristic polynomial (hidden modes included),
   so a loop whose visible response settles but which hides an unstable mode is still unstable.
@@ -28,7 +32,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from flint import fmpq
-from scipy import signal
 
 from .errors import AnalysisError
 from .expression import expression_parameters, parse_polynomial, to_mpoly
@@ -209,10 +212,37 @@ def _simulate(num: np.ndarray, den: np.ndarray, t: np.ndarray) -> np.ndarray:
         return np.zeros_like(t)
     if den.size == 1:  # a static gain
         return np.full_like(t, num[-1] / den[0])
-    system = signal.StateSpace(*signal.tf2ss(num, den))
+    return step_samples(num, den, float(t[1] - t[0]) if t.size > 1 else 0.0, t.size)
+
+
+def step_samples(num: np.ndarray, den: np.ndarray, dt: float, count: int) -> np.ndarray:
+    """y(k dt), k = 0..count-1, of the unit-step response of num/den (proper, den of degree >= 1).
+
+    >>> np.round(step_samples(np.array([1.0]), np.array([1.0, 1.0]), 1.0, 3), 6).tolist()
+    [0.0, 0.632121, 0.864665]
+    """
+    from scipy.linalg import expm, matrix_balance  # scipy.linalg only: the program starts without it
+
+    den = np.asarray(den, dtype=float)
+    num = np.concatenate([np.zeros(den.size - len(num)), np.asarray(num, dtype=float)]) / den[0]
+    den = den / den[0]
+    n = den.size - 1
+    # controllable canonical form (as scipy.signal.tf2ss), the constant input as one more state
+    m = np.zeros((n + 1, n + 1))
+    m[0, :n] = -den[1:]
+    m[1:n, :n - 1] += np.eye(n - 1)
+    m[0, n] = 1.0
+    output = np.append(num[1:] - num[0] * den[1:], num[0])
+    m, (scale, _) = matrix_balance(m, permute=False, separate=True)  # m -> diag(1/scale) m diag(scale)
+    output = output * scale
+    z = np.zeros((count, n + 1))
+    z[0, n] = 1.0 / scale[n]
     with np.errstate(over="ignore", invalid="ignore"):
-        _, y, _ = signal.lsim(system, np.ones_like(t), t)
-    return np.asarray(y, dtype=float)
+        one = expm(m * dt)
+        rows, dot = list(z), np.dot  # row views, written in place
+        for k in range(1, count):  # one step at a time: powers of a non-normal E lose accuracy
+            dot(one, rows[k - 1], out=rows[k])
+        return z @ output
 
 
 def response_horizon(poles: np.ndarray) -> tuple[float, bool]:
