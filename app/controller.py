@@ -26,14 +26,14 @@ from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject,
 from app.commands import SetParameterCommand
 from core.analysis import Report, check_project
 from core.errors import LoopwrightError
-from core.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.model import Diagram
 from core.poles import path_sensitivity, pole_paths
-from core.polynomial import ParametricPolynomial, mpoly_context
+from core.polynomial import ParametricPolynomial
 from core.project_file import project_from_dict, project_to_dict
 from core.requirements import TimeDomain, prepare
+from core.time_response import StepResponse, step_response
 
-DEBOUNCE_MS = 120
+DEBOUNCE_MS = 35  # edits arrive on Enter or commit, not per keystroke: a short wait still merges bursts
 PATH_SAMPLES = 400
 
 
@@ -54,7 +54,8 @@ class AnalysisResult:
     ``path_values`` (m,) and ``paths`` (m, degree) hold the poles over the tuning parameter's
     min..max; ``coefficient_table`` turns a parameter value into float coefficients fast.
     ``float_warning`` says when the drawn (floating-point) poles at the nominal value disagree
-    with the exact root counts; it is also added to the report's warnings.
+    with the exact root counts; it is also added to the report's warnings. ``steps`` holds the step
+    response from each input at the nominal value (``step_errors`` why one could not be simulated).
     """
 
     generation: int
@@ -69,6 +70,8 @@ class AnalysisResult:
     coefficient_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
     zero_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
     time_domain: TimeDomain | None = None  # step transfer functions, requirements, joint range
+    steps: dict[str, StepResponse] = field(default_factory=dict)
+    step_errors: dict[str, LoopwrightError] = field(default_factory=dict)
 
     @property
     def ok(self) -> bool:
@@ -95,6 +98,20 @@ class AnalysisResult:
     def zeros_at(self, value: float | None) -> np.ndarray:
         """Zeros of the closed-loop transfer function at a parameter value (numpy.roots)."""
         return _roots(_evaluate_table(self.zero_table, value))
+
+    def step_at(self, input_id: str, value: float | None) -> StepResponse:
+        """The step response from ``input_id`` at a parameter value (None without a tuning parameter):
+        the one computed with the analysis at the nominal value, else simulated now. Raises
+        LoopwrightError (or KeyError for an input without a transfer function)."""
+        if value == self._nominal_value():
+            if input_id in self.step_errors:
+                raise self.step_errors[input_id]
+            if input_id in self.steps:
+                return self.steps[input_id]
+        return step_response(self.time_domain.transfers[input_id], value)
+
+    def _nominal_value(self) -> float | None:
+        return self.tuning.nominal if self.tuning is not None and self.report.parameter is not None else None
 
 
 def _evaluate_table(table: np.ndarray, value: float | None) -> np.ndarray:
@@ -129,14 +146,10 @@ def coefficient_table(poly: ParametricPolynomial) -> np.ndarray:
 
 def zero_table(report: Report) -> np.ndarray:
     """Coefficient table of the closed-loop numerator (other parameters at nominal); empty if none."""
-    transfer = report.transfer_function
-    if not transfer:
+    if report.closed_num is None:
         return np.empty((0, 0))
-    text = transfer["num"]
-    mp = to_mpoly(parse_polynomial(text, where="transfer function numerator"),
-                  mpoly_context(expression_parameters(text)))
     try:
-        num = ParametricPolynomial.from_mpoly(mp, report.parameter, report.values)
+        num = ParametricPolynomial.from_mpoly(report.closed_num, report.parameter, report.values)
     except KeyError:  # a parameter without a value: no zeros to draw
         return np.empty((0, 0))
     return coefficient_table(num) if num.degree >= 1 else np.empty((0, 0))
@@ -161,6 +174,7 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
         if result.float_warning is not None:
             report.warnings.append(result.float_warning)
         result.time_domain = _time_domain(diagram, report, tuning)
+        _nominal_steps(result)
     except LoopwrightError as exc:
         result.report, result.error = None, exc
     except Exception as exc:  # noqa: BLE001 - the GUI must never crash on an analysis bug
@@ -178,6 +192,21 @@ def _time_domain(diagram: Diagram, report: Report, tuning: TuningRange | None) -
     except Exception:  # noqa: BLE001 - the other panels keep their result
         traceback.print_exc()
         return None
+
+
+def _nominal_steps(result: AnalysisResult) -> None:
+    """The step response from every input at the nominal value, so no panel simulates on showing it."""
+    td = result.time_domain
+    if td is None:
+        return
+    value = result._nominal_value()
+    for input_id, transfer in td.transfers.items():
+        try:
+            result.steps[input_id] = step_response(transfer, value)
+        except LoopwrightError as exc:
+            result.step_errors[input_id] = exc
+        except Exception:  # noqa: BLE001 - the other panels keep their result
+            traceback.print_exc()
 
 
 def float_sensitivity(result: AnalysisResult, tuning: TuningRange | None) -> str | None:

@@ -111,6 +111,7 @@ class Report:
     zeros: list[Pole] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     source: str = ""
+    closed_num: object | None = None  # the transfer function numerator, exact (fmpq_mpoly, factors cancelled)
 
     @property
     def dominant(self) -> Pole | None:
@@ -286,6 +287,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         report.transfer_function = {
             "num": mpoly_text(red.closed_num_reduced * scale), "den": mpoly_text(red.closed_den_reduced * scale),
             "num_full": mpoly_text(red.closed_num * full_scale), "den_full": mpoly_text(red.closed_den * full_scale)}
+        report.closed_num = red.closed_num_reduced * scale
         all_values = {k: v for k, v in values.items() if k in used}
         if (parameter is None or parameter in all_values) and not red.closed_num.is_zero():
             report.hidden_modes = _hidden_modes(red, all_values)

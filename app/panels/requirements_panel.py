@@ -20,7 +20,6 @@ from app.theme import figure_font, label_font
 from core.errors import LoopwrightError
 from core.model import Diagram
 from core.requirements import Requirements, Verdict, evaluate, intervals_text
-from core.time_response import step_response
 
 DECAY_LABELS = {"sigma": ("Decay rate σ ≥", "1/s"), "half_time": ("Time to half amplitude ≤", "s"),
                 "settling": ("Settling time 2 % ≤", "s")}
@@ -253,10 +252,9 @@ class RequirementsPanel(QWidget):
             report = result.report
             value = self._value if report.parameter is not None else None
             step = None
-            reference = td.transfers.get(td.reference)
-            if td.requirements.max_overshoot is not None and reference is not None:
+            if td.requirements.max_overshoot is not None and td.reference in td.transfers:
                 try:
-                    step = step_response(reference, value)
+                    step = result.step_at(td.reference, value)  # the analysis' own at the nominal value
                 except LoopwrightError:
                     step = None
             self.verdicts = evaluate(td.requirements, report, step, value)

@@ -2,9 +2,10 @@
 (the reference, or any other Input node as a disturbance), its figures, and the envelope the decay
 requirement implies, final ± A e^(−σt) with A the step's initial deviation |y(0) − final|.
 
-The transfer functions come precomputed with each AnalysisResult (``result.time_domain``); a new
-current value only re-simulates (scipy, a few milliseconds), coalesced so a slider drag computes at
-most one response per event-loop pass.
+The transfer functions and the responses at the nominal value come precomputed with each
+AnalysisResult (``result.time_domain``, ``result.steps``); a new current value re-simulates (a few
+milliseconds) at most once per :data:`THROTTLE_MS` while the slider moves, at its latest value, so
+no slider frame waits for a simulation it would draw over at once.
 """
 from __future__ import annotations
 
@@ -17,7 +18,9 @@ from PySide6.QtWidgets import QComboBox, QGridLayout, QHBoxLayout, QLabel, QVBox
 from app.panels.common import MessageLabel, colour, number, steady_label
 from app.theme import figure_font, label_font
 from core.errors import LoopwrightError
-from core.time_response import UNSTABLE_NOTE, StepResponse, step_response
+from core.time_response import UNSTABLE_NOTE, StepResponse
+
+THROTTLE_MS = 100
 
 READOUTS = (("overshoot", "Overshoot"), ("rise_time", "Rise time 10–90 %"),
             ("settling_time", "Settling time 2 %"), ("peak", "Peak"),
@@ -101,7 +104,7 @@ class StepPanel(QWidget):
         layout.addLayout(grid)
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
-        self._timer.setInterval(0)
+        self._timer.setInterval(THROTTLE_MS)
         self._timer.timeout.connect(self._recompute)
 
     def _make_items(self) -> None:
@@ -148,12 +151,15 @@ class StepPanel(QWidget):
             self.inputs.setCurrentIndex(max(index, 0))
         self.inputs.blockSignals(False)
         self.inputs.setEnabled(self.inputs.count() > 1)
+        self._timer.stop()
         self._recompute()
 
     def set_current_value(self, value: float) -> None:
-        """Follow the tuning parameter's current value (coalesced: one simulation per event pass)."""
+        """Follow the tuning parameter's current value (throttled: at most one simulation per
+        :data:`THROTTLE_MS`, always at the newest value)."""
         self._value = float(value)
-        self._timer.start()
+        if not self._timer.isActive():
+            self._timer.start()
 
     def select_input(self, node_id: str) -> None:
         """Step from this input node (as if chosen in the combo box)."""
@@ -186,7 +192,7 @@ class StepPanel(QWidget):
             return
         value = self._value if result.report.parameter is not None else None
         try:
-            step = step_response(td.transfers[node_id], value)
+            step = result.step_at(node_id, value)
         except LoopwrightError as exc:
             self._clear(str(exc))
             return

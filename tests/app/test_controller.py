@@ -69,7 +69,7 @@ def test_first_result_has_the_loop(qtbot, counted):
 def test_quick_edits_make_one_analysis(qtbot, counted):
     d = unity_loop()
     ctl, _, results = make(qtbot, d)
-    for nominal in (1.0, 1.5, 2.5, 3.0, 3.5):  # well inside the 120 ms debounce window
+    for nominal in (1.0, 1.5, 2.5, 3.0, 3.5):  # one burst, well inside the DEBOUNCE_MS window
         d.set_parameter(Parameter("K", nominal, 0.0, 10.0))
     assert ctl.wait_for_idle(10000)
     assert len(counted) == 1
