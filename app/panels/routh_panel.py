@@ -114,6 +114,14 @@ def evaluate_entry(entry: RationalFunction, array: RouthArray, value) -> EntryVa
     return EntryValue(text, f"{text}, sign as ε → 0+", rf.sign_near_zero())
 
 
+def _set_text(item: QTableWidgetItem, text: str, tip: str) -> None:
+    """Change a cell's text and tooltip only where they differ (each change repaints the cell)."""
+    if item.text() != text:
+        item.setText(text)
+    if item.toolTip() != tip:
+        item.setToolTip(tip)
+
+
 class SignChangeDelegate(QStyledItemDelegate):
     """Paints the sign column: the first-column sign, and a red arrow across a row boundary
     where the sign changes from the row above."""
@@ -147,6 +155,7 @@ class RouthPanel(QWidget):
         super().__init__(parent)
         self._result = None
         self._value: float | None = None
+        self._width_of: tuple[RouthArray | None, int] = (None, 1)
         self.values: list[list[EntryValue]] = []
         self.change_rows: set[int] = set()  # array row i: the sign changes between rows i and i + 1
         self.message = MessageLabel(self)
@@ -198,6 +207,8 @@ class RouthPanel(QWidget):
 
     def set_current_value(self, value: float) -> None:
         """Re-evaluate the value columns at the tuning parameter's current value."""
+        if float(value) == self._value and self.values:
+            return  # e.g. the nominal value, announced again right after the result that showed it
         self._value = value = float(value)
         self._fill_values()
 
@@ -220,7 +231,10 @@ class RouthPanel(QWidget):
         return report.routh if report is not None else None
 
     def _width(self) -> int:
-        return max((len(r) for r in self._array.rows), default=1)
+        arr = self._array
+        if self._width_of[0] is not arr:
+            self._width_of = (arr, max((len(r) for r in arr.rows), default=1))
+        return self._width_of[1]
 
     def _has_values(self) -> bool:
         return self._array is not None and self._array.parameter is not None
@@ -287,29 +301,41 @@ class RouthPanel(QWidget):
                     item.setBackground(special)
                 table.setItem(i + 1, self._entry_column(j), item)
         self.notes.setText(self._notes_html())
+        self.values = []
         self._fill_values()
         self._size_columns()
         table.setMaximumHeight(self._content_height())
 
     def _size_columns(self) -> None:
-        """Fit columns once per result. Symbolic entries are capped at :data:`ENTRY_CHARS`
-        characters and wrap within their cell (full text in the tooltip); value columns get room
-        for any value, so a slider frame never relayouts the table."""
+        """Fit columns once per result, from font metrics (asking every cell for its size hint is
+        slow). Symbolic entries are capped at :data:`ENTRY_CHARS` characters and wrap within their
+        cell (full text in the tooltip); value columns get room for any value, so a slider frame
+        never relayouts the table."""
         table = self.table
-        table.resizeColumnsToContents()
         metrics = table.fontMetrics()
-        cap = metrics.horizontalAdvance("0" * ENTRY_CHARS) + 12
-        room = metrics.horizontalAdvance(f"{MINUS}0.000000e-00") + 12
-        header = metrics.horizontalAdvance("first column in KK") + 12
+        pad = 12
+        cap = metrics.horizontalAdvance("0" * ENTRY_CHARS) + pad
+        room = metrics.horizontalAdvance(f"{MINUS}0.000000e-00") + pad
+        header = metrics.horizontalAdvance("first column in KK") + pad
+        line = metrics.lineSpacing()
+        heights = [line + 4] * table.rowCount()
+        flags = int(Qt.AlignmentFlag.AlignCenter) | int(Qt.TextFlag.TextWordWrap)
         for j in range(self._width()):
             c = self._entry_column(j)
-            floor = header if j == 0 else 0
-            table.setColumnWidth(c, max(min(table.columnWidth(c), cap), floor))
+            texts = [item.text() for r in range(1, table.rowCount()) if (item := table.item(r, c)) is not None]
+            wide = max((metrics.horizontalAdvance(t) for t in texts), default=0) + pad
+            width = max(min(wide, cap), header if j == 0 else 0)
+            table.setColumnWidth(c, width)
+            for r in range(1, table.rowCount()):
+                item = table.item(r, c)
+                if item is not None and metrics.horizontalAdvance(item.text()) + pad > width:
+                    wrapped = metrics.boundingRect(QRect(0, 0, width - 6, 100 * line), flags, item.text())
+                    heights[r] = max(heights[r], wrapped.height() + 1)
             if self._has_values():
-                v = self._value_column(j)
-                table.setColumnWidth(v, max(table.columnWidth(v), room))
+                table.setColumnWidth(self._value_column(j), room)
         table.setColumnWidth(self._sign_column(), 44)
-        table.resizeRowsToContents()
+        for r, h in enumerate(heights):
+            table.setRowHeight(r, h)
 
     def _row_label(self, i: int) -> str:
         arr = self._array
@@ -344,35 +370,36 @@ class RouthPanel(QWidget):
             self.caption.setText("The first column (tinted) and its sign; a red arrow marks each sign change.")
         exact = to_fmpq(value) if value is not None else None
         self.values = [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
-        tint, special = QBrush(colour("tint")), QBrush(colour("special"))
-        special_rows = {s.row for s in arr.special}
-        for i, row in enumerate(self.values):
-            if self._has_values():
-                for j in range(width):
+        if self._has_values():
+            tint, special = QBrush(colour("tint")), QBrush(colour("special"))
+            special_rows = {s.row for s in arr.special}
+            columns = [self._value_column(j) for j in range(width)]
+            for i, row in enumerate(self.values):
+                for j, column in enumerate(columns):
                     ev = row[j] if j < len(row) else None
-                    column = self._value_column(j)
-                    item = table.item(i + 1, column) or QTableWidgetItem()
-                    item.setText(ev.text if ev else "")
-                    item.setToolTip(ev.exact if ev else "")
-                    item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
-                    if j == 0:
-                        item.setBackground(tint)
-                    elif i in special_rows:
-                        item.setBackground(special)
-                    if table.item(i + 1, column) is None:
+                    item = table.item(i + 1, column)
+                    if item is None:  # made once per result; a slider frame only changes texts
+                        item = QTableWidgetItem()
+                        item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
+                        if j == 0:
+                            item.setBackground(tint)
+                        elif i in special_rows:
+                            item.setBackground(special)
                         table.setItem(i + 1, column, item)
+                    _set_text(item, ev.text if ev else "", ev.exact if ev else "")
         signs = [row[0].sign for row in self.values]
         self.change_rows = {i for i in range(len(signs) - 1)
                             if signs[i] is not None and signs[i + 1] is not None and signs[i] * signs[i + 1] < 0}
         sign_col = self._sign_column()
         for i, s in enumerate(signs):
-            item = table.item(i + 1, sign_col) or QTableWidgetItem()
-            item.setText({1: "+", -1: MINUS, 0: "0", None: "?"}[s])
-            item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
-            item.setToolTip(f"sign changes between {power_label(arr.powers[i - 1])} and "
-                            f"{power_label(arr.powers[i])}" if i - 1 in self.change_rows else "")
-            if table.item(i + 1, sign_col) is None:
+            item = table.item(i + 1, sign_col)
+            if item is None:
+                item = QTableWidgetItem()
+                item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
                 table.setItem(i + 1, sign_col, item)
+            _set_text(item, {1: "+", -1: MINUS, 0: "0", None: "?"}[s],
+                      f"sign changes between {power_label(arr.powers[i - 1])} and "
+                      f"{power_label(arr.powers[i])}" if i - 1 in self.change_rows else "")
         table.viewport().update()
 
     def _content_height(self) -> int:
