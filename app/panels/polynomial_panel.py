@@ -100,6 +100,7 @@ class PolynomialPanel(QWidget):
         super().__init__(parent)
         self._result = None
         self._value: float | None = None
+        self._shown_html: str | None = None
         self.message = MessageLabel(self)
         self.view = QTextBrowser(self)
         self.view.setOpenLinks(False)
@@ -122,15 +123,19 @@ class PolynomialPanel(QWidget):
         if result.tuning is not None:
             self._value = result.tuning.nominal
         self.message.show_message(result.message)
-        bar = self.view.verticalScrollBar()
-        keep = bar.value()
-        self.view.setHtml(self.html())
-        bar.setValue(keep)
+        text = self.html()
+        if text != self._shown_html:  # laying out rich text is slow; many edits leave it as it was
+            self._shown_html = text
+            bar = self.view.verticalScrollBar()
+            keep = bar.value()
+            self.view.setHtml(text)
+            bar.setValue(keep)
         self.at_value.setText(self.at_value_html())
 
     def changeEvent(self, event) -> None:
         if is_palette_change(event) and hasattr(self, "at_value"):
             self.view.document().setDefaultStyleSheet(number_css())
+            self._shown_html = None  # the new style sheet applies when the text is set again
             if self._result is not None:
                 value = self._value
                 self.show_result(self._result)
@@ -140,6 +145,8 @@ class PolynomialPanel(QWidget):
 
     def set_current_value(self, value: float) -> None:
         """Follow the tuning parameter's current value (the "at value" line)."""
+        if float(value) == self._value and self.at_value.text():
+            return  # e.g. the nominal value, announced again right after the result that showed it
         self._value = float(value)
         self.at_value.setText(self.at_value_html())
 
