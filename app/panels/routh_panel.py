@@ -318,24 +318,28 @@ class RouthPanel(QWidget):
         room = metrics.horizontalAdvance(f"{MINUS}0.000000e-00") + pad
         header = metrics.horizontalAdvance("first column in KK") + pad
         line = metrics.lineSpacing()
-        heights = [line + 4] * table.rowCount()
-        flags = int(Qt.AlignmentFlag.AlignCenter) | int(Qt.TextFlag.TextWordWrap)
+        wrapping: dict[int, list[tuple[str, int]]] = {}  # row -> its entries wider than their column
         for j in range(self._width()):
             c = self._entry_column(j)
-            texts = [item.text() for r in range(1, table.rowCount()) if (item := table.item(r, c)) is not None]
-            wide = max((metrics.horizontalAdvance(t) for t in texts), default=0) + pad
+            texts = {r: item.text() for r in range(1, table.rowCount()) if (item := table.item(r, c)) is not None}
+            # an entry's first 2 * ENTRY_CHARS characters tell whether it reaches the cap: measuring
+            # whole entries (thousands of characters in a big loop) is what makes sizing slow
+            wide = max((metrics.horizontalAdvance(t[:2 * ENTRY_CHARS]) for t in texts.values()), default=0) + pad
             width = max(min(wide, cap), header if j == 0 else 0)
             table.setColumnWidth(c, width)
-            for r in range(1, table.rowCount()):
-                item = table.item(r, c)
-                if item is not None and metrics.horizontalAdvance(item.text()) + pad > width:
-                    wrapped = metrics.boundingRect(QRect(0, 0, width - 6, 100 * line), flags, item.text())
-                    heights[r] = max(heights[r], wrapped.height() + 1)
+            for r, t in texts.items():
+                if metrics.horizontalAdvance(t[:2 * ENTRY_CHARS]) + pad > width:
+                    wrapping.setdefault(r, []).append((t, width))
             if self._has_values():
                 table.setColumnWidth(self._value_column(j), room)
+        flags = int(Qt.AlignmentFlag.AlignCenter) | int(Qt.TextFlag.TextWordWrap)
+        for r in range(table.rowCount()):
+            cells = wrapping.get(r, [])
+            tallest = max((len(t) for t, _ in cells), default=0)
+            heights = [metrics.boundingRect(QRect(0, 0, width - 6, 1000 * line), flags, t).height() + 1
+                       for t, width in cells if len(t) >= 0.7 * tallest]  # the row's tallest is among these
+            table.setRowHeight(r, max([line + 4, *heights]))
         table.setColumnWidth(self._sign_column(), 44)
-        for r, h in enumerate(heights):
-            table.setRowHeight(r, h)
 
     def _row_label(self, i: int) -> str:
         arr = self._array
