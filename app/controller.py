@@ -55,7 +55,8 @@ class AnalysisResult:
     min..max; ``coefficient_table`` turns a parameter value into float coefficients fast.
     ``float_warning`` says when the drawn (floating-point) poles at the nominal value disagree
     with the exact root counts; it is also added to the report's warnings. ``steps`` holds the step
-    response from each input at the nominal value (``step_errors`` why one could not be simulated).
+    response from the reference input at the nominal value (``step_errors`` why it could not be
+    simulated); other inputs are simulated when a panel asks (:meth:`step_at`).
     """
 
     generation: int
@@ -195,18 +196,17 @@ def _time_domain(diagram: Diagram, report: Report, tuning: TuningRange | None) -
 
 
 def _nominal_steps(result: AnalysisResult) -> None:
-    """The step response from every input at the nominal value, so no panel simulates on showing it."""
+    """The step response from the reference input at the nominal value, so no panel simulates it
+    on the GUI thread when the result arrives."""
     td = result.time_domain
-    if td is None:
+    if td is None or td.reference not in td.transfers:
         return
-    value = result._nominal_value()
-    for input_id, transfer in td.transfers.items():
-        try:
-            result.steps[input_id] = step_response(transfer, value)
-        except LoopwrightError as exc:
-            result.step_errors[input_id] = exc
-        except Exception:  # noqa: BLE001 - the other panels keep their result
-            traceback.print_exc()
+    try:
+        result.steps[td.reference] = step_response(td.transfers[td.reference], result._nominal_value())
+    except LoopwrightError as exc:
+        result.step_errors[td.reference] = exc
+    except Exception:  # noqa: BLE001 - the other panels keep their result
+        traceback.print_exc()
 
 
 def float_sensitivity(result: AnalysisResult, tuning: TuningRange | None) -> str | None:
