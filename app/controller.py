@@ -272,6 +272,7 @@ class AnalysisController(QObject):
         self._current: float | None = None
         self._dragging = False
         self._disposed = False
+        self._held = False
         self._worker: threading.Thread | None = None
         self._relay = _Relay(self)
         self._relay.finished.connect(self._on_finished)
@@ -322,8 +323,15 @@ class AnalysisController(QObject):
         self._set_busy(True)
         self._start()
 
+    def hold(self, held: bool) -> None:
+        """While held, no analysis starts (changes still count); releasing starts the one that waited.
+        The window holds the first analysis until its first paint, so the two do not compete."""
+        self._held = held
+        if not held and self._busy and not self._timer.isActive():
+            self._start()
+
     def _start(self) -> None:
-        if self._running or self._disposed:
+        if self._running or self._disposed or self._held:
             return  # _on_finished starts again when the newest generation was not analysed
         self._running = True
         generation = self._generation

@@ -44,6 +44,7 @@ from core.model import Diagram
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "resources" / "examples"
 APP_NAME = "Loopwright"
+FIRST_PAINT_WAIT_MS = 1000
 
 
 def shipped_examples() -> list[tuple[str, Path]]:
@@ -72,6 +73,7 @@ class MainWindow(QMainWindow):
         self.scene: DiagramScene | None = None
         self.view: DiagramView | None = None
         self.controller: AnalysisController | None = None
+        self._painted = False
 
         self.palette_panel: Palette | None = None
         self.inspector = Inspector(self)
@@ -159,6 +161,20 @@ class MainWindow(QMainWindow):
             self._arranged = True
             if self.rendering or QSettings().value("window/state") is None:
                 self._arrange_docks()
+            if not self._painted:  # the first analysis waits for the first paint (or FIRST_PAINT_WAIT_MS)
+                self.controller.hold(True)
+                QTimer.singleShot(FIRST_PAINT_WAIT_MS, self._release_analysis)
+
+    def paintEvent(self, event) -> None:
+        super().paintEvent(event)
+        if not self._painted:
+            self._painted = True
+            QTimer.singleShot(0, self._release_analysis)  # runs once this paint pass is done
+
+    def _release_analysis(self) -> None:
+        self._painted = True
+        if self.controller is not None:
+            self.controller.hold(False)
 
     def _action(self, text: str, slot, shortcut=None, icon: QStyle.StandardPixmap | None = None,
                 tip: str = "") -> QAction:
