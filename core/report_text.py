@@ -68,9 +68,10 @@ def report_text(report: Report) -> str:
     nominal = d["nominal"]
     out.append("")
     if nominal:
-        vals = ", ".join(f"{k} = {v:g}" for k, v in sorted(nominal["values"].items())) or "no parameters"
-        verdict = "STABLE" if nominal["stable"] else "UNSTABLE"
-        out.append(f"At {vals}: {verdict} ({nominal['rhp']} right half plane, {nominal['jw']} on the "
+        vals = ", ".join(f"{k} = {v:g}" for k, v in sorted(nominal["values"].items()))
+        verdict = ("STABLE" if nominal["stable"] else "UNSTABLE" if nominal["rhp"]
+                   else "NOT STABLE (marginal: roots on the imaginary axis)" if nominal["jw"] else "NOT STABLE")
+        out.append(f"{'At ' + vals if vals else 'Verdict'}: {verdict} ({nominal['rhp']} right half plane, {nominal['jw']} on the "
                    f"imaginary axis, {nominal['lhp']} left half plane)")
         for note in nominal["notes"]:
             out.append(f"  note: {note}")
