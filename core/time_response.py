@@ -4,8 +4,8 @@ The transfer function is exact (:func:`core.reduction.reduce_diagram`, or the ty
 kept parametric in the tuning parameter (:class:`ParametricTransfer`); at one value it is turned
 into float coefficients and simulated exactly at the samples: a step input is constant, so the
 state x and the input u = 1 together obey z' = M z, and z((k+1) dt) = E z(k dt) with
-E = expm(M dt) -- the controllable canonical form and matrix exponential of
-``scipy.signal.lsim``, with the state first balanced (a diagonal similarity; a loop's
+E = expm(M dt) -- a controllable canonical form and the matrix exponential (zero-order hold,
+exact for a step input), with the state first balanced (a diagonal similarity; a loop's
 coefficients may span 20 decades) and only scipy.linalg loaded. E is applied one step at a
 time: higher powers of a non-normal E, taken to save steps, lose accuracy.
 
@@ -70,7 +70,7 @@ class ParametricTransfer:
         v = None if value is None else to_fmpq(value)
         return self.num.at(v), self.den.at(v), self.characteristic.at(v)
 
-    def dc_gain(self, value=None) -> fmpq | None:
+    def static_gain(self, value=None) -> fmpq | None:
         """G(0) = num(0)/den(0) exactly; None when den(0) = 0."""
         num, den, _ = self.at(value)
         if not den or den[-1] == 0:
@@ -137,7 +137,7 @@ def transfer_from_diagram(diagram, input_id: str | None = None, output_id: str |
     fixed.update(values or {})
     parameter = diagram.sweep
     polys = []
-    for poly in (red.tf_num_reduced, red.tf_den_reduced, red.tf_den):
+    for poly in (red.closed_num_reduced, red.closed_den_reduced, red.closed_den):
         try:
             polys.append(ParametricPolynomial.from_mpoly(poly, parameter, fixed))
         except KeyError as exc:
@@ -196,7 +196,7 @@ def step_response(transfer: ParametricTransfer, value: float | None = None, hori
     notes = []
     final = None
     if stable:
-        gain = transfer.dc_gain(value)
+        gain = transfer.static_gain(value)
         final = float(gain)
     elif visible_stable:
         notes.append("a hidden mode is not stable: the output seems to settle but the loop does not")
