@@ -71,8 +71,9 @@ def show_a_block(window) -> None:
         window.scene.select_node((plants or blocks)[0].id)
 
 
-def screenshot(out: str, project: Path, copy: bool) -> int:
-    """Render the window on ``project`` to ``out``; exit status."""
+def analysed_window(project: Path, copy: bool, show: bool = True):
+    """A rendering window with ``project`` open and analysed, or an exit status (1 or 2) after
+    one line on stderr. Shared by ``--screenshot`` and ``--report``."""
     from core.errors import LoopwrightError
     from core.project_file import load_project
     try:
@@ -88,10 +89,19 @@ def screenshot(out: str, project: Path, copy: bool) -> int:
     if not opened:
         print(f"loopwright: cannot open {project}", file=sys.stderr)
         return 2
-    window.show()
+    if show:
+        window.show()
     if not settle(window):
         print("loopwright: the analysis did not finish in time", file=sys.stderr)
         return 1
+    return window
+
+
+def screenshot(out: str, project: Path, copy: bool) -> int:
+    """Render the window on ``project`` to ``out``; exit status."""
+    window = analysed_window(project, copy)
+    if isinstance(window, int):
+        return window
     show_a_block(window)
     window.view.fit_all()
     settle(window, 5000)

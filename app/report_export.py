@@ -172,29 +172,14 @@ def export_report(window, path) -> Path:
 
 def report_command(out: str, project: Path, copy: bool = False) -> int:
     """``python -m app --report OUT.pdf|OUT.html [PROJECT]``: exit 0, 1 (analysis too slow) or 2 (bad input)."""
-    from app.main import SCREENSHOT_SIZE, make_application, settle
-    from core.errors import LoopwrightError
-    from core.project_file import load_project
+    from app.main import analysed_window
     if Path(out).suffix.lower() not in REPORT_SUFFIXES:
         print(f"loopwright: {out}: the report must end in .html or .pdf", file=sys.stderr)
         return 2
-    try:
-        load_project(project)
-    except LoopwrightError as err:
-        print(f"loopwright: {err}", file=sys.stderr)
-        return 2
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    make_application(sys.argv[:1])
-    from app.window import MainWindow
-    window = MainWindow(rendering=True)
-    window.resize(*SCREENSHOT_SIZE)
-    opened = window.files.open_copy(project) if copy else window.files.open(project, ask=False)
-    if not opened:
-        print(f"loopwright: cannot open {project}", file=sys.stderr)
-        return 2
-    if not settle(window):
-        print("loopwright: the analysis did not finish in time", file=sys.stderr)
-        return 1
+    window = analysed_window(project, copy, show=False)
+    if isinstance(window, int):
+        return window
     try:
         export_report(window, out)
     except ExportError as err:
