@@ -13,6 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from PySide6.QtGui import QColor, QFont, QGuiApplication, QPalette
+from PySide6.QtWidgets import QGraphicsDropShadowEffect
 
 ROLE_COLOURS = {
     "controller": "#1f9e94",
@@ -124,3 +125,13 @@ def math_font(point_size: float = 10.5) -> QFont:
     font.setStyleHint(QFont.StyleHint.Serif)
     font.setPointSizeF(point_size)
     return font
+
+
+def selection_glow(theme: Theme, radius: float) -> QGraphicsDropShadowEffect:
+    """The soft glow a selected canvas item gets (off until selected), instead of a colour swap."""
+    glow = QGraphicsDropShadowEffect()
+    glow.setOffset(0, 0)
+    glow.setBlurRadius(radius)
+    glow.setColor(theme.glow)
+    glow.setEnabled(False)
+    return glow

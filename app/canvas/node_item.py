@@ -10,11 +10,11 @@ from dataclasses import replace
 
 from PySide6.QtCore import QPointF, QRectF, Qt
 from PySide6.QtGui import QBrush, QFontMetricsF, QPainter, QPainterPath, QPen, QTextDocument
-from PySide6.QtWidgets import QGraphicsDropShadowEffect, QGraphicsItem
+from PySide6.QtWidgets import QGraphicsItem
 
 from core.model import Node
 
-from ..theme import Theme, label_font, math_font
+from ..theme import Theme, label_font, math_font, selection_glow
 from .formula import formula_html, is_one
 from .port_item import BRANCH_HIT_RADIUS, HIT_RADIUS, PortItem
 
@@ -50,12 +50,7 @@ class NodeItem(QGraphicsItem):
         self.setFlag(QGraphicsItem.GraphicsItemFlag.ItemIsSelectable)
         self.setAcceptHoverEvents(True)
         self.setZValue(2)
-        glow = QGraphicsDropShadowEffect()
-        glow.setOffset(0, 0)
-        glow.setBlurRadius(18)
-        glow.setColor(theme.glow)
-        glow.setEnabled(False)
-        self.setGraphicsEffect(glow)
+        self.setGraphicsEffect(selection_glow(theme, 18))
         self.set_node(node)
 
     # -- setters (called by the scene) --------------------------------------------------------

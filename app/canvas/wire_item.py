@@ -3,9 +3,9 @@ from __future__ import annotations
 
 from PySide6.QtCore import QPointF, QRectF, Qt
 from PySide6.QtGui import QBrush, QPainter, QPainterPath, QPainterPathStroker, QPen, QPolygonF
-from PySide6.QtWidgets import QGraphicsDropShadowEffect, QGraphicsItem
+from PySide6.QtWidgets import QGraphicsItem
 
-from ..theme import Theme
+from ..theme import Theme, selection_glow
 from .routing import Point
 
 ARROW_LENGTH, ARROW_HALF_WIDTH = 9.0, 3.6
@@ -25,12 +25,7 @@ class WireItem(QGraphicsItem):
         self._hit = QPainterPath()
         self.setFlag(QGraphicsItem.GraphicsItemFlag.ItemIsSelectable)
         self.setZValue(1)
-        glow = QGraphicsDropShadowEffect()
-        glow.setOffset(0, 0)
-        glow.setBlurRadius(14)
-        glow.setColor(theme.glow)
-        glow.setEnabled(False)
-        self.setGraphicsEffect(glow)
+        self.setGraphicsEffect(selection_glow(theme, 14))
 
     def set_points(self, points: list[Point]) -> None:
         """Show this polyline (scene coordinates; the item stays at the origin)."""
