@@ -11,7 +11,7 @@ import html
 import re
 from functools import lru_cache
 
-from PySide6.QtCore import QEvent, Qt
+from PySide6.QtCore import QEvent, QSize, Qt
 from PySide6.QtGui import QColor
 from PySide6.QtWidgets import QLabel, QSizePolicy, QWidget
 
@@ -83,11 +83,33 @@ def number_css() -> str:
     return _css(dark())
 
 
-def steady_label(label: QLabel) -> QLabel:
-    """A label whose text changes on every slider frame: its width never relayouts the panel."""
-    label.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
-    label.setMinimumWidth(40)
-    return label
+class Readout(QWidget):
+    """A fixed-height holder for a label whose text changes on every slider frame.
+
+    ``QLabel.setText`` always invalidates its parent's layout, and a layout that recomputes asks
+    its own parent's to recompute too, up to the main window, which then relayouts and repaints
+    every dock. This holder has no layout (it sizes its label itself) and a size hint that never
+    changes, so a new text only repaints the label. Set the label's font before wrapping it:
+    the height is ``lines`` of that font.
+    """
+
+    def __init__(self, label: QLabel, lines: int = 1, parent: QWidget | None = None, pad: int = 4):
+        super().__init__(parent if parent is not None else label.parentWidget())
+        label.setParent(self)
+        self.label = label
+        self.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
+        self.setMinimumWidth(40)
+        self.setFixedHeight(lines * label.fontMetrics().lineSpacing() + pad)
+        if lines > 1:
+            label.setWordWrap(True)
+            label.setAlignment(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignTop)
+
+    def sizeHint(self) -> QSize:
+        return QSize(120, self.height())
+
+    def resizeEvent(self, event) -> None:
+        self.label.setGeometry(self.rect())
+        super().resizeEvent(event)
 
 
 class MessageLabel(QLabel):

@@ -13,9 +13,9 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QPalette
-from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QSlider, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSlider, QVBoxLayout, QWidget
 
-from app.panels.common import MessageLabel, colour, complex_number, is_palette_change, number
+from app.panels.common import MessageLabel, Readout, colour, complex_number, is_palette_change, number
 from app.theme import figure_font
 
 SLIDER_STEPS = 1000
@@ -87,10 +87,7 @@ class PoleMap(QWidget):
         self.message = MessageLabel(self)
         self.caption = QLabel(self)
         self.caption.setFont(figure_font(9))
-        self.caption.setWordWrap(True)  # two fixed lines: a slider frame never relayouts the panel
-        self.caption.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
-        self.caption.setFixedHeight(2 * self.caption.fontMetrics().lineSpacing() + 4)
-        self.caption.setAlignment(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignTop)
+        caption = Readout(self.caption, lines=2)  # a slider frame never relayouts the panel
         self.plot = pg.PlotWidget(self)
         self._make_items()
         self.slider = QSlider(Qt.Orientation.Horizontal, self)
@@ -109,7 +106,7 @@ class PoleMap(QWidget):
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         layout.addWidget(self.message)
-        layout.addWidget(self.caption)
+        layout.addWidget(caption)
         layout.addWidget(self.plot, 1)
         layout.addLayout(row)
         self._set_controls_enabled(False)

@@ -9,13 +9,13 @@ from PySide6.QtWidgets import QLabel, QTextBrowser, QVBoxLayout, QWidget
 
 from app.panels.common import (
     MessageLabel,
+    Readout,
     colour,
     complex_number,
     is_palette_change,
     math_html,
     number,
     number_css,
-    steady_label,
 )
 from core.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, poly_text, to_fmpq
 
@@ -105,17 +105,15 @@ class PolynomialPanel(QWidget):
         self.view = QTextBrowser(self)
         self.view.setOpenLinks(False)
         self.view.document().setDefaultStyleSheet(number_css())
-        self.at_value = steady_label(QLabel(self))
-        self.at_value.setWordWrap(True)  # two fixed lines: a slider frame never relayouts the panel
-        self.at_value.setFixedHeight(2 * self.at_value.fontMetrics().lineSpacing() + 8)
-        self.at_value.setAlignment(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignTop)
+        self.at_value = QLabel(self)
+        at_value = Readout(self.at_value, lines=2, pad=8)  # a slider frame never relayouts the panel
         self.at_value.setTextFormat(Qt.TextFormat.RichText)
         self.at_value.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         layout.addWidget(self.message)
         layout.addWidget(self.view, 1)
-        layout.addWidget(self.at_value)
+        layout.addWidget(at_value)
 
     def show_result(self, result) -> None:
         """Show a new AnalysisResult (its error message when it has no Report)."""

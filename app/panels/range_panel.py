@@ -25,12 +25,12 @@ from PySide6.QtWidgets import (
 from app.panels.common import (
     MINUS,
     MessageLabel,
+    Readout,
     colour,
     is_palette_change,
     math_html,
     number,
     number_css,
-    steady_label,
 )
 from app.theme import figure_font, label_font
 from core.polynomial import to_fmpq
@@ -251,8 +251,9 @@ class RangePanel(QWidget):
         self._value: float | None = None
         self.message = MessageLabel(self)
         self.line = NumberLine(self)
-        self.verdict = steady_label(QLabel(self))
+        self.verdict = QLabel(self)
         self.verdict.setTextFormat(Qt.TextFormat.RichText)
+        verdict = Readout(self.verdict)  # a slider frame never relayouts the panel
         self.details = QLabel()
         self.details.setWordWrap(True)
         self.details.setTextFormat(Qt.TextFormat.RichText)
@@ -270,7 +271,7 @@ class RangePanel(QWidget):
         self.copy_button.clicked.connect(self.copy_exact)
         self.copy_button.setEnabled(False)
         top = QHBoxLayout()
-        top.addWidget(self.verdict, 1)
+        top.addWidget(verdict, 1)
         top.addWidget(self.copy_button)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(6, 4, 6, 4)

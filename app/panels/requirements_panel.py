@@ -15,7 +15,7 @@ from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import QComboBox, QGridLayout, QLabel, QLineEdit, QVBoxLayout, QWidget
 
 from app.commands import ModelCommand, SetAnalysisCommand, push
-from app.panels.common import MINUS, MessageLabel, colour, number, number_css, steady_label
+from app.panels.common import MINUS, MessageLabel, Readout, colour, number, number_css
 from app.theme import figure_font, label_font
 from core.errors import LoopwrightError
 from core.model import Diagram
@@ -67,6 +67,15 @@ def badge_style(passed: bool | None) -> str:
             "font-weight: bold; font-size: 8.5pt;")
 
 
+def _set_badge(badge: QLabel, text: str, style: str) -> None:
+    """Change a badge only where it differs (a new style sheet re-polishes the widget; a new text
+    relayouts the grid): a slider frame mostly leaves PASS as PASS."""
+    if badge.text() != text:
+        badge.setText(text)
+    if badge.styleSheet() != style:
+        badge.setStyleSheet(style)
+
+
 def figure(x: float | None, unit: str) -> str:
     """A verdict figure with its unit; '∞' for an unlimited margin, '—' for none."""
     if x is None:
@@ -115,7 +124,7 @@ class RequirementsPanel(QWidget):
             edit.setPlaceholderText("not set")
             edit.editingFinished.connect(lambda k=key: self._commit(k))
             unit = QLabel(self)
-            actual, margin = steady_label(QLabel(self)), steady_label(QLabel(self))
+            actual, margin = QLabel(self), QLabel(self)
             for w in (actual, margin):
                 w.setFont(figure_font(9.5))
             badge = QLabel(self)
@@ -123,7 +132,7 @@ class RequirementsPanel(QWidget):
             badge.setMinimumWidth(44)
             self.labels[key], self.edits[key], self.units[key] = label, edit, unit
             self.actuals[key], self.badges[key], self.margins[key] = actual, badge, margin
-            for column, w in enumerate((label, edit, unit, actual, badge, margin)):
+            for column, w in enumerate((label, edit, unit, Readout(actual), badge, Readout(margin))):
                 grid.addWidget(w, row, column)
         self.gm_unit = QComboBox(self)
         self.gm_unit.addItem("×", "factor")
@@ -268,14 +277,12 @@ class RequirementsPanel(QWidget):
         if v is None:
             self.actuals[key].setText("")
             self.margins[key].setText("")
-            badge.setText("")
-            badge.setStyleSheet("")
+            _set_badge(badge, "", "")
             return
         unit = "×" if v.unit == "×" else v.unit
         self.actuals[key].setText(figure(v.actual, unit))
         self.actuals[key].setToolTip(v.note)
-        badge.setText({True: "PASS", False: "FAIL", None: "—"}[v.passed])
-        badge.setStyleSheet(badge_style(v.passed))
+        _set_badge(badge, {True: "PASS", False: "FAIL", None: "—"}[v.passed], badge_style(v.passed))
         badge.setToolTip(("exact" if v.exact else "numeric (floating point)") + (f": {v.note}" if v.note else ""))
         margin = "" if v.margin is None else (
             "∞" if v.margin == float("inf") else

@@ -122,6 +122,12 @@ def _set_text(item: QTableWidgetItem, text: str, tip: str) -> None:
         item.setToolTip(tip)
 
 
+def _set_caption(label: QLabel, text: str) -> None:
+    """Set a word-wrapped label's text only when it changed (each change relayouts the window)."""
+    if label.text() != text:
+        label.setText(text)
+
+
 class SignChangeDelegate(QStyledItemDelegate):
     """Paints the sign column: the first-column sign, and a red arrow across a row boundary
     where the sign changes from the row above."""
@@ -367,11 +373,12 @@ class RouthPanel(QWidget):
         value = self._value if self._has_values() else None
         if self._has_values():
             name = arr.parameter
-            self.caption.setText(f"The first column (tinted) with its value and sign at {name} = {number(value)}; "
-                                 "a red arrow marks each sign change. Hover an entry for its full text.")
+            # the value itself is in the column header: a new caption text would relayout the window
+            _set_caption(self.caption, f"The first column (tinted) with its value and sign at the current {name}; "
+                                       "a red arrow marks each sign change. Hover an entry for its full text.")
             table.item(0, 1).setText(f"at {name} = {number(value)}")
         else:
-            self.caption.setText("The first column (tinted) and its sign; a red arrow marks each sign change.")
+            _set_caption(self.caption, "The first column (tinted) and its sign; a red arrow marks each sign change.")
         exact = to_fmpq(value) if value is not None else None
         self.values = [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
         if self._has_values():

@@ -15,7 +15,7 @@ from PySide6.QtCore import Qt, QTimer
 from PySide6.QtGui import QPalette
 from PySide6.QtWidgets import QComboBox, QGridLayout, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
-from app.panels.common import MessageLabel, colour, number, steady_label
+from app.panels.common import MessageLabel, Readout, colour, number
 from app.theme import figure_font, label_font
 from core.errors import LoopwrightError
 from core.time_response import UNSTABLE_NOTE, StepResponse
@@ -73,8 +73,9 @@ class StepPanel(QWidget):
         self.inputs = QComboBox(self)
         self.inputs.setToolTip("Which input steps: the reference, or another input as a disturbance")
         self.inputs.currentIndexChanged.connect(lambda _i: self._recompute())
-        self.caption = steady_label(QLabel(self))
+        self.caption = QLabel(self)
         self.caption.setFont(figure_font(9))
+        caption = Readout(self.caption)  # a slider frame never relayouts the panel
         self.plot = pg.PlotWidget(self)
         self._make_items()
         self.values: dict[str, QLabel] = {}
@@ -84,18 +85,18 @@ class StepPanel(QWidget):
         for i, (key, title) in enumerate(READOUTS):
             name = QLabel(title, self)
             name.setFont(label_font(9))
-            value = steady_label(QLabel("—", self))
+            value = QLabel("—", self)
             value.setFont(figure_font(9.5))
             value.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
             self.values[key] = value
             grid.addWidget(name, i % 3, 2 * (i // 3))
-            grid.addWidget(value, i % 3, 2 * (i // 3) + 1)
+            grid.addWidget(Readout(value), i % 3, 2 * (i // 3) + 1)
         grid.setColumnStretch(1, 1)
         grid.setColumnStretch(3, 1)
         top = QHBoxLayout()
         top.addWidget(QLabel("Step from", self))
         top.addWidget(self.inputs)
-        top.addWidget(self.caption, 1)
+        top.addWidget(caption, 1)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         layout.addWidget(self.message)
