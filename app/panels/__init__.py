@@ -3,6 +3,8 @@
 """
 from __future__ import annotations
 
+from PySide6.QtCore import QEvent, QObject
+
 from app.panels.pole_map import PoleMap
 from app.panels.polynomial_panel import PolynomialPanel
 from app.panels.range_panel import RangePanel
@@ -11,11 +13,49 @@ from app.panels.routh_panel import RouthPanel
 __all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach"]
 
 
+class FollowWhenShown(QObject):
+    """Passes the controller's current value to a panel, or, while the panel sits hidden in a
+    shown window (a dock tabbed away or closed), once it is shown again: a slider frame does not
+    re-evaluate or repaint what nobody sees. A panel outside a shown window is always kept current."""
+
+    def __init__(self, panel):
+        super().__init__(panel)
+        self._panel = panel
+        self.controller = None
+        self.pending = False
+        panel.installEventFilter(self)
+
+    @classmethod
+    def of(cls, panel, controller) -> FollowWhenShown:
+        """The panel's follower (made once per panel), now following ``controller``."""
+        follower = panel.findChild(cls) or cls(panel)
+        follower.controller, follower.pending = controller, False
+        return follower
+
+    def follow(self, value: float) -> None:
+        """The controller's current value moved to ``value``."""
+        panel = self._panel
+        if panel.window().isVisible() and not panel.isVisible():
+            self.pending = True
+            return
+        self.pending = False
+        panel.set_current_value(value)
+
+    def eventFilter(self, watched, event) -> bool:
+        if self.pending and event.type() == QEvent.Type.Show:
+            self.pending = False
+            value = self.controller.current_value
+            if value is not None:
+                watched.set_current_value(value)
+        return False
+
+
 def attach(panel, controller) -> None:
-    """Show the controller's results and current value in ``panel``; a pole map's slider drives
-    the controller's current value (live while dragging, committed on release)."""
+    """Show the controller's results and current value in ``panel`` (the value only while the panel
+    can be seen, see :class:`FollowWhenShown`); a pole map's slider drives the controller's current
+    value (live while dragging, committed on release)."""
     controller.resultReady.connect(panel.show_result)
-    controller.currentValueChanged.connect(panel.set_current_value)
+    controller.currentValueChanged.connect(FollowWhenShown.of(panel, controller).follow)
     if controller.result is not None:
         panel.show_result(controller.result)
     if isinstance(panel, PoleMap):
