@@ -14,9 +14,10 @@ __all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach"]
 
 
 class FollowWhenShown(QObject):
-    """Passes the controller's current value to a panel, or, while the panel sits hidden in a
-    shown window (a dock tabbed away or closed), once it is shown again: a slider frame does not
-    re-evaluate or repaint what nobody sees. A panel outside a shown window is always kept current."""
+    """Passes the controller's current value to a panel, or, while nothing of the panel can be seen
+    in a shown window (its dock tabbed away, which Qt moves out of view rather than hiding, or
+    closed), at its next show or paint: a slider frame does not re-evaluate what nobody sees. A panel
+    outside a shown window is always kept current."""
 
     def __init__(self, panel):
         super().__init__(panel)
@@ -35,14 +36,14 @@ class FollowWhenShown(QObject):
     def follow(self, value: float) -> None:
         """The controller's current value moved to ``value``."""
         panel = self._panel
-        if panel.window().isVisible() and not panel.isVisible():
+        if panel.window().isVisible() and (not panel.isVisible() or panel.visibleRegion().isEmpty()):
             self.pending = True
             return
         self.pending = False
         panel.set_current_value(value)
 
     def eventFilter(self, watched, event) -> bool:
-        if self.pending and event.type() == QEvent.Type.Show:
+        if self.pending and event.type() in (QEvent.Type.Show, QEvent.Type.Paint):
             self.pending = False
             value = self.controller.current_value
             if value is not None:
