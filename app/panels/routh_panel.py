@@ -3,7 +3,9 @@ value, the first column tinted, sign changes marked, special rows annotated, cop
 
 Values are exact: each entry is a rational function (core.routh.RationalFunction) evaluated at the
 current value as a rational number; in rows built with the ε method the entry stays a function of
-ε and its sign is read as ε → 0+.
+ε and its sign is read as ε → 0+. While the slider moves, entries come from float tables with an
+error bound (:mod:`app.panels.routh_values`), shown only where the bound proves the displayed text
+and sign equal the exact ones; the exact values follow once the value rests for :data:`REST_MS`.
 """
 from __future__ import annotations
 
@@ -11,7 +13,7 @@ import re
 from dataclasses import dataclass
 
 from flint import fmpq, fmpq_poly
-from PySide6.QtCore import QRect, Qt
+from PySide6.QtCore import QRect, Qt, QTimer
 from PySide6.QtGui import QAction, QBrush, QGuiApplication, QPen
 from PySide6.QtWidgets import (
     QAbstractItemView,
@@ -27,6 +29,7 @@ from PySide6.QtWidgets import (
 )
 
 from app.panels.common import MINUS, MessageLabel, colour, is_palette_change, number, number_css
+from app.panels.routh_values import FloatEntries
 from app.theme import figure_font
 from core.polynomial import to_fmpq
 from core.report_text import routh_table
@@ -35,6 +38,8 @@ from core.routh import RationalFunction, RouthArray
 ENTRY_CHARS = 24  # symbolic entries wider than this wrap within their cell (full text in the tooltip)
 SUPERSCRIPTS = str.maketrans("0123456789", "⁰¹²³⁴⁵⁶⁷⁸⁹")
 EPS = "ε"
+REST_MS = 150  # the slider resting this long: entries evaluated exactly (tooltips with exact rationals)
+LIVE_TIP = "the exact value shows once the slider rests"
 
 
 def power_label(power: int) -> str:
@@ -162,7 +167,13 @@ class RouthPanel(QWidget):
         self._result = None
         self._value: float | None = None
         self._width_of: tuple[RouthArray | None, int] = (None, 1)
-        self.values: list[list[EntryValue]] = []
+        self._values: list[list[EntryValue]] = []
+        self._exact = True  # whether _values were evaluated exactly (else from the float tables)
+        self._floats: FloatEntries | None = None
+        self._rest = QTimer(self)
+        self._rest.setSingleShot(True)
+        self._rest.setInterval(REST_MS)
+        self._rest.timeout.connect(self._settle)
         self.change_rows: set[int] = set()  # array row i: the sign changes between rows i and i + 1
         self.message = MessageLabel(self)
         self.caption = QLabel(self)
@@ -212,11 +223,24 @@ class RouthPanel(QWidget):
         super().changeEvent(event)
 
     def set_current_value(self, value: float) -> None:
-        """Re-evaluate the value columns at the tuning parameter's current value."""
-        if float(value) == self._value and self.values:
+        """Re-evaluate the value columns at the tuning parameter's current value (from the float
+        tables where they are provably right to the shown digits; exactly once the value rests)."""
+        if float(value) == self._value and self._values:
             return  # e.g. the nominal value, announced again right after the result that showed it
-        self._value = value = float(value)
-        self._fill_values()
+        self._value = float(value)
+        self._fill_values(live=self._floats is not None)
+        if self._floats is not None:
+            self._rest.start()
+
+    @property
+    def values(self) -> list[list[EntryValue]]:
+        """Every entry at the current value, exact (evaluated now if the slider has not rested yet)."""
+        self._settle()
+        return self._values
+
+    def _settle(self) -> None:
+        if not self._exact:
+            self._fill_values()
 
     def text(self) -> str:
         """The array as plain aligned text (same as the command line's)."""
@@ -307,7 +331,10 @@ class RouthPanel(QWidget):
                     item.setBackground(special)
                 table.setItem(i + 1, self._entry_column(j), item)
         self.notes.setText(self._notes_html())
-        self.values = []
+        self._values = []
+        self._rest.stop()
+        self._floats = (FloatEntries(arr.rows) if self._has_values() and not arr.uses_eps
+                        and all(isinstance(e.num, fmpq_poly) for row in arr.rows for e in row) else None)
         self._fill_values()
         self._size_columns()
         table.setMaximumHeight(self._content_height())
@@ -365,7 +392,7 @@ class RouthPanel(QWidget):
         lines = [f"<b>* {power_label(arr.powers[s.row])}</b>: " + _powers(s.note) for s in arr.special]
         return f"<style>{number_css()}</style>" + "<br>".join(lines) if lines else ""
 
-    def _fill_values(self) -> None:
+    def _fill_values(self, live: bool = False) -> None:
         arr = self._array
         if arr is None:
             return
@@ -379,13 +406,13 @@ class RouthPanel(QWidget):
             table.item(0, 1).setText(f"at {name} = {number(value)}")
         else:
             _set_caption(self.caption, "The first column (tinted) and its sign; a red arrow marks each sign change.")
-        exact = to_fmpq(value) if value is not None else None
-        self.values = [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
+        self._values = self._live_values(value) if live else self._exact_values(value)
+        self._exact = not live
         if self._has_values():
             tint, special = QBrush(colour("tint")), QBrush(colour("special"))
             special_rows = {s.row for s in arr.special}
             columns = [self._value_column(j) for j in range(width)]
-            for i, row in enumerate(self.values):
+            for i, row in enumerate(self._values):
                 for j, column in enumerate(columns):
                     ev = row[j] if j < len(row) else None
                     item = table.item(i + 1, column)
@@ -398,7 +425,7 @@ class RouthPanel(QWidget):
                             item.setBackground(special)
                         table.setItem(i + 1, column, item)
                     _set_text(item, ev.text if ev else "", ev.exact if ev else "")
-        signs = [row[0].sign for row in self.values]
+        signs = [row[0].sign for row in self._values]
         self.change_rows = {i for i in range(len(signs) - 1)
                             if signs[i] is not None and signs[i + 1] is not None and signs[i] * signs[i + 1] < 0}
         sign_col = self._sign_column()
@@ -412,6 +439,26 @@ class RouthPanel(QWidget):
                       f"sign changes between {power_label(arr.powers[i - 1])} and "
                       f"{power_label(arr.powers[i])}" if i - 1 in self.change_rows else "")
         table.viewport().update()
+
+    def _exact_values(self, value: float | None) -> list[list[EntryValue]]:
+        arr = self._array
+        exact = to_fmpq(value) if value is not None else None
+        return [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
+
+    def _live_values(self, value: float) -> list[list[EntryValue]]:
+        """Entries from the float tables; the few they cannot vouch for evaluated exactly."""
+        arr, exact = self._array, None
+        out = []
+        for row, floats in zip(arr.rows, self._floats.at(value)):
+            values = []
+            for entry, fast in zip(row, floats):
+                if fast is None:
+                    exact = to_fmpq(value) if exact is None else exact
+                    values.append(evaluate_entry(entry, arr, exact))
+                else:
+                    values.append(EntryValue(fast[0], LIVE_TIP, fast[1]))
+            out.append(values)
+        return out
 
     def _content_height(self) -> int:
         table = self.table
