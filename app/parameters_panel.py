@@ -8,6 +8,7 @@ tuning parameter. Below: the decay requirement (mode and value) and the analysis
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtGui import QBrush, QColor, QUndoStack
@@ -30,6 +31,7 @@ from PySide6.QtWidgets import (
 from app.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
 from app.theme import figure_font
 from core.errors import LoopwrightError
+from core.expression import expression_parameters
 from core.model import Diagram, Parameter
 
 COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tune")
@@ -46,6 +48,18 @@ ERROR_STYLE = "color: #c62828; font-size: 8.5pt;"
 def number_text(value: float) -> str:
     """A parameter value as typed: ``2``, ``0.25``, ``1e-06``."""
     return f"{value:.12g}"
+
+
+@lru_cache(maxsize=4096)
+def block_names(num: str, den: str) -> frozenset[str]:
+    """Parameter names typed in one block's numerator and denominator, parsed once per pair of
+    texts (every model change refreshes the panel; re-parsing all blocks each time was ~12 ms on a
+    30-node loop). Raises LoopwrightError on invalid text.
+
+    >>> sorted(block_names("Kp (s + 1)", "Ti s"))
+    ['Kp', 'Ti']
+    """
+    return frozenset(expression_parameters(num) | expression_parameters(den))
 
 
 def read_number(text: str) -> float:
@@ -136,8 +150,10 @@ class ParametersPanel(QWidget):
         return list(self.diagram.parameters) + sorted(used - set(self.diagram.parameters))
 
     def _used_names(self) -> set[str]:
+        """Every parameter name typed in a block (as Diagram.parameter_names_in_blocks, cached)."""
         try:
-            return self.diagram.parameter_names_in_blocks()
+            return set().union(*(block_names(n.num, n.den) for n in self.diagram.nodes.values()
+                                 if n.kind == "block"))
         except LoopwrightError:  # a block text the model holds always parses; stay safe anyway
             return set()
 

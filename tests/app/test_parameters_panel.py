@@ -101,3 +101,13 @@ def test_analysis_input_output_choosers(setup):
     assert d.analysis.output is None
     stack.undo()
     assert d.analysis.output == "y" and panel.output_choice.currentData() == "y"
+
+
+def test_names_follow_block_edits_with_parsed_texts_cached(setup):
+    d, _stack, panel = setup
+    # reference: the model's own scan of every block text (no cache)
+    assert set(panel.names()) == d.parameter_names_in_blocks() | set(d.parameters)
+    d.update_node("P", den="s*(s+1)*(Tm s+1)")  # T renamed: T leaves the list, Tm arrives
+    assert panel.names() == ["K", "Tm"] and d.parameter_names_in_blocks() == {"K", "Tm"}
+    d.update_node("P", den="s*(s+1)*(T s+1)")  # back to a text parsed before
+    assert panel.names() == ["K", "T"]
