@@ -3,6 +3,7 @@ exact values to the digits shown, and a panel tabbed out of view catches up when
 from __future__ import annotations
 
 import random
+from itertools import pairwise
 from pathlib import Path
 
 import numpy as np
@@ -12,11 +13,13 @@ from flint import fmpq, fmpq_poly
 
 from app.bridge import ModelSignals
 from app.controller import AnalysisController
-from app.panels import RouthPanel, attach
+from app.panels import RangePanel, RouthPanel, attach
 from app.panels.common import number
+from app.panels.range_panel import first_column_signs, first_column_tables
 from app.panels.routh_panel import LIVE_TIP
 from app.panels.routh_values import FloatEntries
 from core.analysis import check_project
+from core.polynomial import to_fmpq
 from core.project_file import load_project
 from core.routh import RationalFunction
 
@@ -139,3 +142,37 @@ def test_a_panel_tabbed_out_of_view_catches_up_when_shown(window, analysed, qtbo
     slider.blockSignals(True)
     slider.setSliderDown(False)
     slider.blockSignals(False)
+
+
+@pytest.mark.parametrize("name", ["line_tension_30.loop.json", "conveyor_speed.loop.json", "gantry_conditional.loop.json"])
+def test_range_verdict_from_first_column_signs_counts_the_right_half_plane_roots(name, qtbot):
+    diagram = load_project(EXAMPLES / name)
+    report = check_project(diagram)
+    tables = first_column_tables(report.routh)
+    assert tables is not None
+    p = diagram.parameters[report.parameter]
+    ends = [e["value"] for e in report.stable_range.to_dict()["endpoints"]]
+    grid = list(np.linspace(p.minimum, p.maximum, 23))
+    values = grid + [e * f for e in ends for f in (1 + 1e-9, 1 - 1e-9)]
+    assert sum(first_column_signs(tables, v) is not None for v in grid) >= 0.8 * len(grid)  # mostly fast
+    for v in values:
+        signs = first_column_signs(tables, v)
+        if signs is None:
+            continue
+        rhp = sum(a != b for a, b in pairwise(signs))
+        roots = np.roots([float(c) for c in report.analysed.at(to_fmpq(v))])  # reference: numpy
+        if np.min(np.abs(roots.real)) > 1e-6 * np.max(np.abs(roots)):  # clear of the axis for floats
+            assert rhp == int(np.sum(roots.real > 0)), v
+    # the panel's verdict reads the same with the fast path and with the exact one
+    controller = AnalysisController(diagram, ModelSignals(diagram))
+    assert controller.wait_for_idle(60_000) and controller.result.ok
+    panel = RangePanel()
+    qtbot.addWidget(panel)
+    attach(panel, controller)
+    for v in values[::3]:
+        controller.set_current_value(float(v))
+        quick = panel.verdict_html()
+        panel._first_column = None  # force the exact path (exact root counts)
+        assert quick == panel.verdict_html(), v
+        panel._first_column = first_column_tables(report.routh)
+    controller.dispose()
