@@ -86,6 +86,8 @@ class MainWindow(QMainWindow):
         self.requirements_panel = RequirementsPanel(self)
         self.analysis_panels = [self.polynomial_panel, self.routh_panel, self.range_panel, self.pole_map,
                                 self.step_panel, self.requirements_panel]
+        for panel in self.analysis_panels:
+            panel.setAutoFillBackground(True)  # opaque: a panel repainted never repaints its dock and the window
         self._build_status_bar()
         self.set_document(Diagram())
         self.palette_panel = Palette(self.scene, self)
