@@ -438,7 +438,9 @@ class RouthPanel(QWidget):
             _set_text(item, {1: "+", -1: MINUS, 0: "0", None: "?"}[s],
                       f"sign changes between {power_label(arr.powers[i - 1])} and "
                       f"{power_label(arr.powers[i])}" if i - 1 in self.change_rows else "")
-        table.viewport().update()
+        # the arrows depend on neighbouring rows' signs: repaint the sign column (changed texts repaint themselves)
+        table.viewport().update(table.columnViewportPosition(sign_col), 0, table.columnWidth(sign_col),
+                                table.viewport().height())
 
     def _exact_values(self, value: float | None) -> list[list[EntryValue]]:
         arr = self._array
