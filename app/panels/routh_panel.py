@@ -169,7 +169,7 @@ class RouthPanel(QWidget):
         self._width_of: tuple[RouthArray | None, int] = (None, 1)
         self._values: list[list[EntryValue]] = []
         self._exact = True  # whether _values were evaluated exactly (else from the float tables)
-        self._floats: FloatEntries | None = None
+        self._floats: tuple[RouthArray | None, FloatEntries | None] = (None, None)  # made on the first frame
         self._rest = QTimer(self)
         self._rest.setSingleShot(True)
         self._rest.setInterval(REST_MS)
@@ -228,8 +228,9 @@ class RouthPanel(QWidget):
         if float(value) == self._value and self._values:
             return  # e.g. the nominal value, announced again right after the result that showed it
         self._value = float(value)
-        self._fill_values(live=self._floats is not None)
-        if self._floats is not None:
+        live = self._float_tables() is not None
+        self._fill_values(live=live)
+        if live:
             self._rest.start()
 
     @property
@@ -333,8 +334,6 @@ class RouthPanel(QWidget):
         self.notes.setText(self._notes_html())
         self._values = []
         self._rest.stop()
-        self._floats = (FloatEntries(arr.rows) if self._has_values() and not arr.uses_eps
-                        and all(isinstance(e.num, fmpq_poly) for row in arr.rows for e in row) else None)
         self._fill_values()
         self._size_columns()
         table.setMaximumHeight(self._content_height())
@@ -442,6 +441,16 @@ class RouthPanel(QWidget):
         table.viewport().update(table.columnViewportPosition(sign_col), 0, table.columnWidth(sign_col),
                                 table.viewport().height())
 
+    def _float_tables(self) -> FloatEntries | None:
+        """The array's float tables (None for an ε array or one without a tuning parameter), made on
+        the first slider frame after a result rather than with every result."""
+        arr = self._array
+        if self._floats[0] is not arr:
+            usable = (arr is not None and self._has_values() and not arr.uses_eps
+                      and all(isinstance(e.num, fmpq_poly) for row in arr.rows for e in row))
+            self._floats = (arr, FloatEntries(arr.rows) if usable else None)
+        return self._floats[1]
+
     def _exact_values(self, value: float | None) -> list[list[EntryValue]]:
         arr = self._array
         exact = to_fmpq(value) if value is not None else None
@@ -451,7 +460,7 @@ class RouthPanel(QWidget):
         """Entries from the float tables; the few they cannot vouch for evaluated exactly."""
         arr, exact = self._array, None
         out = []
-        for row, floats in zip(arr.rows, self._floats.at(value)):
+        for row, floats in zip(arr.rows, self._float_tables().at(value)):
             values = []
             for entry, fast in zip(row, floats):
                 if fast is None:
