@@ -122,9 +122,10 @@ def _roots_along(monic: np.ndarray) -> np.ndarray:
     """Roots of many monic polynomials that change smoothly from row to row.
 
     Companion eigenvalues at anchor rows, then for the rows between: start from the anchors'
-    roots interpolated (after matching) and polish all roots of a row at once with the
-    Aberth-Ehrlich iteration, which keeps them apart. Rows that do not converge (near
-    multiple roots) fall back to companion eigenvalues, so the result is never worse than
+    roots interpolated (after matching) and polish them with Newton's method; rows where it did
+    not converge or two roots ran together are polished again from the same start with the
+    Aberth-Ehrlich iteration, which keeps a row's roots apart. Rows that still do not converge
+    (near multiple roots) fall back to companion eigenvalues, so the result is never worse than
     eigenvalues alone.
     """
     m = monic.shape[0]
@@ -138,7 +139,10 @@ def _roots_along(monic: np.ndarray) -> np.ndarray:
     lo, hi = anchors[right - 1], anchors[right]
     w = ((between - lo) / (hi - lo))[:, None]
     guess = (1 - w) * out[lo] + w * out[hi]
-    roots, converged = _aberth(monic[between], guess)
+    roots, converged = _polish(monic[between], guess, coupled=False)  # Newton: cheap per step
+    retry = ~(converged & _well_separated(roots))  # two roots may have run to one: redo those rows
+    if retry.any():
+        roots[retry], converged[retry] = _polish(monic[between[retry]], guess[retry], coupled=True)
     out[between] = roots
     redo = between[~converged]
     if redo.size:
@@ -146,8 +150,17 @@ def _roots_along(monic: np.ndarray) -> np.ndarray:
     return out
 
 
-def _aberth(monic: np.ndarray, z: np.ndarray, iterations: int = 12, tol: float = 1e-12):
-    """Aberth-Ehrlich iteration on every row at once; returns (roots, converged per row)."""
+def _well_separated(z: np.ndarray, rel: float = 1e-6) -> np.ndarray:
+    """Rows whose roots are pairwise apart by more than ``rel`` of their size (so distinct)."""
+    n = z.shape[1]
+    gap = np.abs(z[:, :, None] - z[:, None, :])
+    gap[:, np.eye(n, dtype=bool)] = np.inf
+    return np.min(gap, axis=(1, 2)) > rel * np.maximum(1.0, np.max(np.abs(z), axis=1))
+
+
+def _polish(monic: np.ndarray, z: np.ndarray, coupled: bool, iterations: int = 12, tol: float = 1e-12):
+    """Newton (``coupled`` False) or Aberth-Ehrlich (True, keeps a row's roots apart) on every
+    row at once; returns (roots, converged per row)."""
     z = z.copy()
     n = z.shape[1]
     eye = np.eye(n, dtype=bool)
@@ -166,10 +179,11 @@ def _aberth(monic: np.ndarray, z: np.ndarray, iterations: int = 12, tol: float =
             p = p * zr + cr[:, k:k + 1]
             bound = bound * az + ac[:, k:k + 1]
         with np.errstate(divide="ignore", invalid="ignore"):
-            newton = p / dp
-            diff = zr[:, :, None] - zr[:, None, :]
-            diff[:, eye] = np.inf
-            step = newton / (1 - newton * np.sum(1.0 / diff, axis=2))
+            step = p / dp
+            if coupled:
+                diff = zr[:, :, None] - zr[:, None, :]
+                diff[:, eye] = np.inf
+                step = step / (1 - step * np.sum(1.0 / diff, axis=2))
         step[~np.isfinite(step)] = 0.0
         # a root is done when the step is negligible or p(z) is at its rounding level already
         done = (np.abs(step) <= tol * np.maximum(1.0, az)) | (np.abs(p) <= 2 * n * EPS * bound)
