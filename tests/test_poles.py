@@ -48,3 +48,17 @@ def test_order_drop_leaves_nan():
     poly = ParametricPolynomial.from_coefficients([fmpq_poly([0, 1]), 1, 1], "K")
     paths = pole_paths(poly, [0.0, 1.0])
     assert np.isnan(paths[0]).sum() == 1 and np.allclose(paths[0][~np.isnan(paths[0])], [-1.0])
+
+
+def test_paths_through_a_near_double_root_match_numpy():
+    # (s^2 + 2s + 1 + K/10^8)(s + 3): a pair a hair apart near s = -1, where an uncoupled
+    # Newton polish could let two roots run together; numpy.roots is the reference
+    from flint import fmpq
+    k = fmpq_poly([0, fmpq(1, 10**8)])
+    poly = ParametricPolynomial.from_coefficients([1, 5, fmpq_poly([7]) + k, fmpq_poly([3]) + 3 * k], "K")
+    values = np.linspace(0, 1, 400)
+    paths = pole_paths(poly, values)
+    for v, row in zip(values, paths):
+        ref = np.roots([1, 5, 7 + v * 1e-8, 3 + 3 * v * 1e-8])
+        assert matched_error(row, ref) < 1e-6  # the pair's own conditioning is ~1e-8 ** 0.5
+        assert np.isclose(np.sum(row), np.sum(ref))
