@@ -49,6 +49,7 @@ import math
 import re
 import unicodedata
 from dataclasses import dataclass
+from functools import lru_cache
 
 import sympy
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
@@ -546,6 +547,7 @@ def parse_fraction(text: str, where: str | None = None) -> tuple[sympy.Expr, sym
     return _to_sympy(num), _to_sympy(den)
 
 
+@lru_cache(maxsize=4096)  # the model checks every block of each analysis copy: most texts repeat
 def block_transfer(num_text: str, den_text: str, where: str | None = None) -> tuple[sympy.Expr, sympy.Expr]:
     """A block's transfer function (N, D) from its two typed fields, with no cancellation between them.
 
