@@ -167,6 +167,7 @@ class RouthPanel(QWidget):
         self._result = None
         self._value: float | None = None
         self._width_of: tuple[RouthArray | None, int] = (None, 1)
+        self._layout_key: tuple | None = None  # what the table's items, spans and headers were made for
         self._values: list[list[EntryValue]] = []
         self._exact = True  # whether _values were evaluated exactly (else from the float tables)
         self._floats: tuple[RouthArray | None, FloatEntries | None] = (None, None)  # made on the first frame
@@ -219,7 +220,7 @@ class RouthPanel(QWidget):
 
     def changeEvent(self, event) -> None:
         if is_palette_change(event) and hasattr(self, "_delegate") and self._result is not None:
-            self._build()  # tints and header colours follow the palette
+            self._build(reuse=False)  # tints and header colours follow the palette
         super().changeEvent(event)
 
     def set_current_value(self, value: float) -> None:
@@ -287,9 +288,17 @@ class RouthPanel(QWidget):
     def _sign_column(self) -> int:
         return 2 if self._has_values() else 1
 
-    def _build(self) -> None:
+    def _build(self, reuse: bool = True) -> None:
+        """Show the array. When it has the shape of the one shown (an edit of a block's gain keeps
+        it), only texts that differ are changed and the table is re-sized only if any did."""
         arr = self._array
         table = self.table
+        key = None if arr is None else (len(arr.rows), self._width(), arr.parameter, tuple(arr.powers),
+                                        tuple(sorted({s.row for s in arr.special})))
+        if reuse and key is not None and key == self._layout_key:
+            self._refresh(arr)
+            return
+        self._layout_key = key
         table.clearSpans()
         table.clear()
         self.copy_button.setEnabled(arr is not None)
@@ -331,12 +340,29 @@ class RouthPanel(QWidget):
                 elif i in special_rows:
                     item.setBackground(special)
                 table.setItem(i + 1, self._entry_column(j), item)
-        self.notes.setText(self._notes_html())
+        self._fill_values_and_size()
+
+    def _refresh(self, arr: RouthArray) -> None:
+        """Change the entry texts of a table made for an array of the same shape."""
+        changed = False
+        for i, row in enumerate(arr.rows_text()):
+            for j in range(self._width()):
+                text = cell_text(row[j], arr.uses_eps) if j < len(row) else ""
+                item = self.table.item(i + 1, self._entry_column(j))
+                changed |= item.text() != text
+                _set_text(item, text, text if len(text) > ENTRY_CHARS else "")
+        self._fill_values_and_size(resize=changed)
+
+    def _fill_values_and_size(self, resize: bool = True) -> None:
+        notes = self._notes_html()
+        if self.notes.text() != notes:
+            self.notes.setText(notes)
         self._values = []
         self._rest.stop()
         self._fill_values()
-        self._size_columns()
-        table.setMaximumHeight(self._content_height())
+        if resize:
+            self._size_columns()
+            self.table.setMaximumHeight(self._content_height())
 
     def _size_columns(self) -> None:
         """Fit columns once per result, from font metrics (asking every cell for its size hint is
