@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 
 from flint import fmpq, fmpq_poly
 from PySide6.QtCore import QRect, Qt, QTimer
@@ -55,6 +56,7 @@ def entry_display(text: str, uses_eps: bool) -> str:
     return re.sub(r"(^|[\s(/])-", lambda m: m.group(1) + MINUS, text)
 
 
+@lru_cache(maxsize=1024)  # most entries keep their text from one result to the next
 def cell_text(text: str, uses_eps: bool) -> str:
     """Entry text for a table cell: :func:`entry_display` with powers as superscript digits.
 
