@@ -121,6 +121,14 @@ def evaluate_entry(entry: RationalFunction, array: RouthArray, value) -> EntryVa
     return EntryValue(text, f"{text}, sign as ε → 0+", rf.sign_near_zero())
 
 
+def _same_entries(a: list[list[RationalFunction]] | None, b: list[list[RationalFunction]]) -> bool:
+    """Whether two arrays' rows hold equal entries (comparing is far cheaper than writing texts)."""
+    return a is not None and len(a) == len(b) and all(
+        len(ra) == len(rb) and all(type(x.num) is type(y.num) and x.num == y.num and x.den == y.den
+                                   for x, y in zip(ra, rb))
+        for ra, rb in zip(a, b))
+
+
 def _set_text(item: QTableWidgetItem, text: str, tip: str) -> None:
     """Change a cell's text and tooltip only where they differ (each change repaints the cell)."""
     if item.text() != text:
@@ -170,6 +178,7 @@ class RouthPanel(QWidget):
         self._value: float | None = None
         self._width_of: tuple[RouthArray | None, int] = (None, 1)
         self._layout_key: tuple | None = None  # what the table's items, spans and headers were made for
+        self._shown_rows: list | None = None  # the entries whose texts the table shows
         self._values: list[list[EntryValue]] = []
         self._exact = True  # whether _values were evaluated exactly (else from the float tables)
         self._floats: tuple[RouthArray | None, FloatEntries | None] = (None, None)  # made on the first frame
@@ -295,12 +304,13 @@ class RouthPanel(QWidget):
         it), only texts that differ are changed and the table is re-sized only if any did."""
         arr = self._array
         table = self.table
-        key = None if arr is None else (len(arr.rows), self._width(), arr.parameter, tuple(arr.powers),
-                                        tuple(sorted({s.row for s in arr.special})))
+        key = None if arr is None else (len(arr.rows), self._width(), arr.parameter, arr.uses_eps,
+                                        tuple(arr.powers), tuple(sorted({s.row for s in arr.special})))
         if reuse and key is not None and key == self._layout_key:
             self._refresh(arr)
             return
         self._layout_key = key
+        self._shown_rows = arr.rows if arr is not None else None
         table.clearSpans()
         table.clear()
         self.copy_button.setEnabled(arr is not None)
@@ -346,6 +356,10 @@ class RouthPanel(QWidget):
 
     def _refresh(self, arr: RouthArray) -> None:
         """Change the entry texts of a table made for an array of the same shape."""
+        if _same_entries(self._shown_rows, arr.rows):
+            self._fill_values_and_size(resize=False)  # every text is as shown: writing entries costs ~8 ms
+            return
+        self._shown_rows = arr.rows
         changed = False
         for i, row in enumerate(arr.rows_text()):
             for j in range(self._width()):
