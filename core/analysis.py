@@ -112,6 +112,7 @@ class Report:
     warnings: list[str] = field(default_factory=list)
     source: str = ""
     closed_num: object | None = None  # the transfer function numerator, exact (fmpq_mpoly, factors cancelled)
+    reduction: object | None = field(default=None, repr=False, compare=False)  # input to output, for reuse
 
     @property
     def dominant(self) -> Pole | None:
@@ -281,6 +282,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
                                 {k: v for k, v in values.items() if k in used},
                                 decay or (settings.decay_mode, settings.decay_value))
     report.source = source or project.name
+    report.reduction = red
     report.warnings = list(red.warnings) + report.warnings
     if red.closed_num is not None:
         scale, full_scale = primitive_scale(red.closed_den_reduced), primitive_scale(red.closed_den)

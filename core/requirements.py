@@ -489,7 +489,8 @@ def prepare(diagram, report, span: tuple[float, float] | None) -> TimeDomain:
     transfers, errors = {}, {}
     for node_id in inputs:
         try:
-            transfers[node_id] = transfer_from_diagram(diagram, node_id)
+            reuse = getattr(report, "reduction", None) if node_id == reference else None  # same diagram, same ends
+            transfers[node_id] = transfer_from_diagram(diagram, node_id, reduction=reuse)
         except LoopwrightError as exc:
             errors[node_id] = str(exc)
     requirements = diagram.requirements

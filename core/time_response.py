@@ -118,10 +118,11 @@ class StepResponse:
 
 # -- building the transfer function -------------------------------------------------------------
 def transfer_from_diagram(diagram, input_id: str | None = None, output_id: str | None = None,
-                          values: Mapping[str, object] | None = None) -> ParametricTransfer:
+                          values: Mapping[str, object] | None = None, reduction=None) -> ParametricTransfer:
     """The transfer function of a diagram from an input (default: the analysis input) to the output.
 
     Every parameter but the tuning one (``diagram.sweep``) is fixed at ``values`` or its nominal.
+    ``reduction``, when given, is the diagram already reduced from that input to that output.
     Raises AnalysisError (E401 no input/output, E404 a parameter without value).
     """
     from .reduction import reduce_diagram  # reduction imports the model, which imports this package
@@ -132,7 +133,7 @@ def transfer_from_diagram(diagram, input_id: str | None = None, output_id: str |
     if input_id is None or output_id is None:
         raise AnalysisError("E401", "choose the analysis input and output to see a step response",
                             where="analysis")
-    red = reduce_diagram(diagram, input_id, output_id)
+    red = reduction if reduction is not None else reduce_diagram(diagram, input_id, output_id)
     fixed = {p.name: p.nominal for p in diagram.parameters.values()}
     fixed.update(values or {})
     parameter = diagram.sweep
