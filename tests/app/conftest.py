@@ -78,6 +78,26 @@ def unity_feedback_loop(name: str = "unity feedback test loop"):
     return d
 
 
+def sensor_feedback_loop(name: str, controller: tuple[str, str], sensor_den: str, parameters=()):
+    """Invented loop: r -> sum(+,-) -> controller -> plant 1/(s^2+3s+2) -> branch -> y, with a
+    sensor 1/sensor_den on a flipped feedback path into the sum's second input."""
+    from core.model import Diagram, Node
+    d = Diagram(name)
+    for p in parameters:
+        d.set_parameter(p)
+    for n in [Node("r", "input", 0, 0), Node("e", "sum", 80, 0, signs="+-"),
+              Node("C", "block", 200, 0, role="controller", num=controller[0], den=controller[1]),
+              Node("P", "block", 360, 0, role="plant", num="1", den="s^2 + 3s + 2"),
+              Node("b", "branch", 460, 0), Node("y", "output", 540, 0),
+              Node("H", "block", 280, 120, role="sensor", num="1", den=sensor_den, flipped=True)]:
+        d.add_node(n)
+    for s, t, p in [("r", "e", 0), ("e", "C", 0), ("C", "P", 0), ("P", "b", 0), ("b", "y", 0),
+                    ("b", "H", 0), ("H", "e", 1)]:
+        d.connect(s, t, p)
+    d.set_analysis(input="r", output="y")
+    return d
+
+
 class ScriptedDialogs:
     """Stands in for app.files.Dialogs: answers from ``answers`` (name -> value or list of values)
     and records every question in ``asked`` as (name, args)."""

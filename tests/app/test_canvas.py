@@ -6,6 +6,7 @@ from __future__ import annotations
 from itertools import pairwise
 
 import pytest
+from conftest import sensor_feedback_loop
 from PySide6.QtCore import QMimeData, QPoint, QPointF, Qt
 from PySide6.QtGui import QColor, QDragEnterEvent, QDragMoveEvent, QDropEvent, QUndoStack, QWheelEvent
 from PySide6.QtWidgets import QApplication
@@ -20,19 +21,7 @@ from core.project_file import project_to_dict
 
 def feedback_loop() -> Diagram:
     """Invented demo loop: unity-gain reference, controller, plant, sensor on a flipped feedback path."""
-    d = Diagram("canvas test")
-    d.set_parameter(Parameter("K", 2.0, 0.0, 20.0))
-    for n in [Node("r", "input", 0, 0), Node("e", "sum", 80, 0, signs="+-"),
-              Node("C", "block", 200, 0, role="controller", num="K*(s + 2)", den="s"),
-              Node("P", "block", 360, 0, role="plant", num="1", den="s^2 + 3s + 2"),
-              Node("b", "branch", 460, 0), Node("y", "output", 540, 0),
-              Node("H", "block", 280, 120, role="sensor", num="1", den="0.05s + 1", flipped=True)]:
-        d.add_node(n)
-    for s, t, p in [("r", "e", 0), ("e", "C", 0), ("C", "P", 0), ("P", "b", 0), ("b", "y", 0),
-                    ("b", "H", 0), ("H", "e", 1)]:
-        d.connect(s, t, p)
-    d.set_analysis(input="r", output="y")
-    return d
+    return sensor_feedback_loop("canvas test", ("K*(s + 2)", "s"), "0.05s + 1", [Parameter("K", 2.0, 0.0, 20.0)])
 
 
 class Canvas:

@@ -4,6 +4,7 @@ refused edit changes neither the model nor the undo stack."""
 from __future__ import annotations
 
 import pytest
+from conftest import sensor_feedback_loop
 from PySide6.QtGui import QUndoStack
 
 from app.commands import (
@@ -29,20 +30,9 @@ from core.project_file import project_to_dict
 
 def loop() -> Diagram:
     """An invented loop: controller, plant, sensor on the feedback path."""
-    d = Diagram("test loop")
-    d.set_parameter(Parameter("K", 2.0, 0.0, 20.0))
-    d.set_parameter(Parameter("T", 0.5, 0.1, 5.0))
+    d = sensor_feedback_loop("test loop", ("K", "1"), "T*s + 1",
+                             [Parameter("K", 2.0, 0.0, 20.0), Parameter("T", 0.5, 0.1, 5.0)])
     d.set_sweep("K")
-    for n in [Node("r", "input", 0, 0), Node("e", "sum", 80, 0),
-              Node("C", "block", 200, 0, role="controller", num="K", den="1"),
-              Node("P", "block", 360, 0, role="plant", num="1", den="s^2 + 3s + 2"),
-              Node("b", "branch", 460, 0), Node("y", "output", 540, 0),
-              Node("H", "block", 280, 120, role="sensor", num="1", den="T*s + 1", flipped=True)]:
-        d.add_node(n)
-    for s, t, p in [("r", "e", 0), ("e", "C", 0), ("C", "P", 0), ("P", "b", 0), ("b", "y", 0),
-                    ("b", "H", 0), ("H", "e", 1)]:
-        d.connect(s, t, p)
-    d.set_analysis(input="r", output="y")
     return d
 
 
