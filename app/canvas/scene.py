@@ -6,6 +6,7 @@ event updates only the affected items. Items never edit the model: the scene pus
 """
 from __future__ import annotations
 
+import atexit
 import json
 import re
 from dataclasses import asdict, fields, replace
@@ -58,6 +59,19 @@ ID_STEMS = {"input": "r", "output": "y", "sum": "sum", "branch": "b"}
 # offsets tried for a free spot, nearest first; to the right and below before left and above
 _SPIRAL = sorted(((dx * DOT_SPACING, dy * DOT_SPACING) for dx in range(-30, 31) for dy in range(-20, 21)),
                  key=lambda p: (p[0] ** 2 + p[1] ** 2, p[0] < 0, p[1] < 0))
+
+
+def _release_our_clipboard() -> None:
+    """Take copied nodes off the clipboard before the interpreter ends: otherwise Qt frees the
+    Python-made clipboard data after Python has, and the process crashes on its way out."""
+    if QGuiApplication.instance() is not None:
+        clipboard = QGuiApplication.clipboard()
+        data = clipboard.mimeData()
+        if data is not None and data.hasFormat(CLIPBOARD_MIME):
+            clipboard.clear()
+
+
+atexit.register(_release_our_clipboard)
 
 
 class DiagramScene(QGraphicsScene):

@@ -435,3 +435,30 @@ def test_palette_clicks_in_a_row_lay_out_a_left_to_right_chain(qtbot):
     rects = [c.scene.node_items[n.id].sceneBoundingRect() for n in nodes]
     assert all(a.right() < b.left() for a, b in pairwise(rects))  # left to right, no overlap
     c.consistent()
+
+
+def test_process_ends_cleanly_after_copying_to_the_clipboard():
+    # Qt frees clipboard data made in Python after Python has: without releasing it at exit the
+    # process crashes on its way out (seen with the offscreen platform), which CI reads as a failure
+    import subprocess
+    import sys
+    script = (
+        "from PySide6.QtWidgets import QApplication\n"
+        "from PySide6.QtGui import QUndoStack\n"
+        "app = QApplication([])\n"
+        "from app.bridge import ModelSignals\n"
+        "from app.canvas import DiagramScene\n"
+        "import conftest\n"
+        "d = conftest.sensor_feedback_loop('exit', ('1', '1'), 's + 1')\n"
+        "scene = DiagramScene(d, ModelSignals(d), QUndoStack())\n"
+        "scene.select_node('C')\n"
+        "scene.copy_selection()\n"
+        "print('copied')\n")
+    import os
+    from pathlib import Path
+    here = Path(__file__).resolve().parent
+    env = dict(os.environ, QT_QPA_PLATFORM="offscreen",
+               PYTHONPATH=os.pathsep.join([str(here.parents[1]), str(here)]))
+    done = subprocess.run([sys.executable, "-c", script], env=env, capture_output=True, text=True,
+                          timeout=120, check=False)
+    assert done.returncode == 0 and "copied" in done.stdout, done.stderr
