@@ -85,13 +85,12 @@ def stable_intervals(poly: sp.Expr, parameter: sp.Symbol, others: dict, lo: floa
     ks = np.linspace(lo, hi, n)
     ok = [np.all(np.roots([float(c(k)) for c in coeffs]).real < -1e-9) for k in ks]
     runs, start = [], None
-    for k, good in zip(ks, ok):
+    for i, (k, good) in enumerate(zip(ks, ok)):
         if good and start is None:
             start = k
         if not good and start is not None:
-            runs.append((start, prev))
+            runs.append((start, ks[i - 1]))  # the last stable sample before this one
             start = None
-        prev = k
     if start is not None:
         runs.append((start, ks[-1]))
     return runs
