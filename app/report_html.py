@@ -23,7 +23,7 @@ from itertools import pairwise
 
 from app.panels.common import MINUS, complex_number, math_html, number
 from app.panels.polynomial_panel import HIDDEN_PREFIX, factored
-from app.panels.range_panel import _interval_text, how_lost
+from app.panels.range_panel import how_lost, range_intervals_html
 from app.panels.routh_panel import entry_display, evaluate_entry, power_label
 from core.analysis import CAUTION
 from core.model import Diagram
@@ -276,7 +276,7 @@ def range_html(inputs: ReportInputs) -> str:
     name = esc(report.parameter)
     rng = report.stable_range.to_dict()
     if rng["intervals"]:
-        ivs = " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(rng["intervals"], rng["exact_intervals"]))
+        ivs = range_intervals_html(rng)
         out.append(f"<p id='intervals'><b>Stable for {name} in</b> {_num(ivs)}</p>")
     else:
         out.append(f"<p id='intervals' class='bad'>Stable for no value of {name}.</p>")
@@ -319,7 +319,7 @@ def _decay_html(report) -> str:
             f"<span class='muted'>({esc(d['note'])})</span></p>")]
     if d["intervals"] is not None:
         if d["intervals"]:
-            ivs = " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(d["intervals"], d["exact_intervals"]))
+            ivs = range_intervals_html(d)
             out.append(f"<p id='decay-range'>Met for {esc(report.parameter)} in {_num(ivs)}</p>")
         else:
             out.append(f"<p id='decay-range' class='bad'>Met for no value of {esc(report.parameter)}.</p>")

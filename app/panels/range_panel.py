@@ -238,6 +238,12 @@ def _interval_text(iv, exact) -> str:
     return text
 
 
+def range_intervals_html(ranges: dict) -> str:
+    """A stable-range dict's intervals joined by ∪, each as :func:`_interval_text` writes it.
+    The panel and the exported report both use it, so their numbers are the same text."""
+    return " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(ranges["intervals"], ranges["exact_intervals"]))
+
+
 def _interval_plain(iv, exact) -> str:
     ends = ["−∞" if iv[0] is None else _plain(exact[0]), "+∞" if iv[1] is None else _plain(exact[1])]
     return f"({ends[0]}, {ends[1]})"
@@ -359,7 +365,7 @@ class RangePanel(QWidget):
         rng = report.stable_range.to_dict()
         out = [f"<style>{number_css()} td {{ padding: 1px 8px 1px 0; }}</style>"]
         if rng["intervals"]:
-            ivs = " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(rng["intervals"], rng["exact_intervals"]))
+            ivs = range_intervals_html(rng)
             out.append(f"<p style='margin:2px 0'><b>Stable for {name} in</b> <span class='num'>{ivs}</span></p>")
         else:
             out.append(f"<p style='margin:2px 0' class='bad'>Stable for no value of {name}.</p>")
@@ -436,7 +442,7 @@ class RangePanel(QWidget):
         if d["intervals"] is None:
             return head
         if d["intervals"]:
-            ivs = " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(d["intervals"], d["exact_intervals"]))
+            ivs = range_intervals_html(d)
             body = f"met for {name} in <span class='num'>{ivs}</span>"
         else:
             body = f"<span class='bad'>met for no value of {name}</span>"
