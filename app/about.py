@@ -1,6 +1,6 @@
 """Help > About, the caution, and the first-start notice; also the program's icon, drawn at run time.
 
-The caution is core.analysis.CAUTION, shown in a few plain sentences with the program version.
+The caution is core.analysis.report.CAUTION, shown in a few plain sentences with the program version.
 The first-start notice appears once (QSettings key ``caution/seen``); it is never shown on the
 offscreen platform or while rendering a screenshot, so tests and ``--screenshot`` never block.
 """
@@ -13,7 +13,7 @@ from PySide6.QtCore import QPointF, QRectF, QSettings, Qt
 from PySide6.QtGui import QColor, QGuiApplication, QIcon, QPainter, QPainterPath, QPen, QPixmap
 from PySide6.QtWidgets import QMessageBox, QWidget
 
-from core.analysis import CAUTION
+from core.analysis.report import CAUTION
 
 SEEN_KEY = "caution/seen"
 SUMMARY = ("Loopwright finds the characteristic polynomial of a feedback loop drawn as a block "

@@ -1,6 +1,6 @@
-"""Turn a :class:`core.model.Diagram`'s plain callbacks into Qt signals.
+"""Turn a :class:`core.model.diagram.Diagram`'s plain callbacks into Qt signals.
 
->>> from core.model import Diagram, Node
+>>> from core.model.diagram import Diagram, Node
 >>> d = Diagram(); signals = ModelSignals(d); seen = []
 >>> _ = signals.nodeAdded.connect(seen.append)
 >>> _ = d.add_node(Node("r", "input")); seen
@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from PySide6.QtCore import QObject, Signal
 
-from core.model import Diagram
+from core.model.diagram import Diagram
 
 
 class ModelSignals(QObject):

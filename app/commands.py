@@ -1,4 +1,4 @@
-"""Undo commands: each one only calls :class:`core.model.Diagram` methods.
+"""Undo commands: each one only calls :class:`core.model.diagram.Diagram` methods.
 
 Use :func:`push` rather than ``QUndoStack.push``: it applies the command first and pushes it only
 when the model accepted the edit, so a refused edit raises the model's own error and leaves both
@@ -6,7 +6,7 @@ the model and the undo stack untouched. Several edits that belong together go in
 :class:`Macro`.
 
 >>> from PySide6.QtGui import QUndoStack
->>> from core.model import Diagram, Node
+>>> from core.model.diagram import Diagram, Node
 >>> d, stack = Diagram(), QUndoStack()
 >>> push(stack, AddNodeCommand(d, Node("r", "input")))
 >>> push(stack, AddNodeCommand(d, Node("y", "output", x=100)))
@@ -20,7 +20,7 @@ from __future__ import annotations
 
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
-from core.model import Diagram, Node, Parameter
+from core.model.diagram import Diagram, Node, Parameter
 
 NUDGE_MERGE_ID = 7301  # consecutive keyboard nudges of the same nodes merge into one step
 

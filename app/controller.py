@@ -2,7 +2,7 @@
 
 Every model change restarts a short single-shot timer; when it fires, the diagram is copied (as
 its project dictionary, on the GUI thread) and analysed on a worker thread with
-:func:`core.analysis.check_project`. Each request carries a generation number; a result whose
+:func:`core.analysis.report.check_project`. Each request carries a generation number; a result whose
 generation is no longer the newest is dropped. Errors never escape: a
 :class:`~core.errors.LoopwrightError` arrives as ``AnalysisResult.error``, anything else as
 ``AnalysisResult.internal_error``.
@@ -24,14 +24,14 @@ import numpy as np
 from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject, QTimer, Signal
 
 from app.commands import SetParameterCommand
-from core.analysis import Report, check_project
+from core.analysis.report import Report, check_project
 from core.errors import LoopwrightError
-from core.model import Diagram
-from core.poles import path_sensitivity, pole_paths
-from core.polynomial import ParametricPolynomial
-from core.project_file import project_from_dict, project_to_dict
-from core.requirements import TimeDomain, prepare
-from core.time_response import StepResponse, step_response
+from core.model.diagram import Diagram
+from core.analysis.poles import path_sensitivity, pole_paths
+from core.algebra.polynomial import ParametricPolynomial
+from core.io.project_file import project_from_dict, project_to_dict
+from core.analysis.requirements import TimeDomain, prepare
+from core.analysis.time_response import StepResponse, step_response
 
 DEBOUNCE_MS = 35  # edits arrive on Enter or commit, not per keystroke: a short wait still merges bursts
 PATH_SAMPLES = 400

@@ -20,8 +20,8 @@ from PySide6.QtWidgets import QFileDialog, QMenu, QMessageBox, QWidget
 from app.panels.common import MINUS, number
 from app.panels.routh_panel import EPS, evaluate_entry
 from app.theme import Theme
-from core.polynomial import to_fmpq
-from core.routh_formats import FORMATS
+from core.algebra.polynomial import to_fmpq
+from core.present.routh_formats import FORMATS
 
 DIAGRAM_MARGIN = 24.0
 PICTURE_SUFFIXES = (".png", ".svg")

@@ -18,8 +18,8 @@ from PySide6.QtCore import QObject, QSettings, QTimer, Signal
 from PySide6.QtWidgets import QFileDialog, QMessageBox, QWidget
 
 from core.errors import LoopwrightError
-from core.model import Diagram
-from core.project_file import (
+from core.model.diagram import Diagram
+from core.io.project_file import (
     SUFFIX,
     Recovery,
     discard_recovery,

@@ -1,6 +1,6 @@
 """The inspector: the selected node's name, role, polynomials, signs and analysis role.
 
-Numerator and denominator are parsed as you type (core.expression.block_transfer); an error is
+Numerator and denominator are parsed as you type (core.algebra.expression.block_transfer); an error is
 shown under its field with the column and message, and nothing invalid reaches the model: a
 field is committed on Enter or focus-out only when both fields parse, through one undoable
 command. A block edit that names a new parameter adds it (nominal 1, min 0, max 10) in the same
@@ -37,8 +37,8 @@ from app.commands import (
 )
 from app.theme import figure_font
 from core.errors import LoopwrightError
-from core.expression import block_transfer, expression_parameters
-from core.model import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram, Parameter
+from core.algebra.expression import block_transfer, expression_parameters
+from core.model.diagram import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram, Parameter
 
 KIND_TITLES = {"input": "Input", "output": "Output", "sum": "Summing junction", "branch": "Branch point",
                "block": "Block"}

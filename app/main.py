@@ -75,7 +75,7 @@ def analysed_window(project: Path, copy: bool, show: bool = True):
     """A rendering window with ``project`` open and analysed, or an exit status (1 or 2) after
     one line on stderr. Shared by ``--screenshot`` and ``--report``."""
     from core.errors import LoopwrightError
-    from core.project_file import load_project
+    from core.io.project_file import load_project
     try:
         load_project(project)
     except LoopwrightError as err:

@@ -31,8 +31,8 @@ from PySide6.QtWidgets import (
 from app.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
 from app.theme import figure_font
 from core.errors import LoopwrightError
-from core.expression import expression_parameters
-from core.model import Diagram, Parameter
+from core.algebra.expression import expression_parameters
+from core.model.diagram import Diagram, Parameter
 
 COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tune")
 FIELDS = {1: "nominal", 2: "minimum", 3: "maximum"}

@@ -1,6 +1,6 @@
 """The main window: canvas in the centre, palette, inspector, parameters and analysis panels in docks.
 
-One window holds one document: a :class:`~core.model.Diagram`, its :class:`~app.bridge.ModelSignals`,
+One window holds one document: a :class:`~core.model.diagram.Diagram`, its :class:`~app.bridge.ModelSignals`,
 the scene that mirrors it and the analysis controller. Opening or making a new project replaces
 all four (:meth:`MainWindow.set_document`); the undo stack, panels and actions stay. Files are
 handled by :class:`~app.files.ProjectFiles` (``window.files``), whose dialogs tests can answer
@@ -40,7 +40,7 @@ from app.panels.requirements_panel import RequirementsPanel
 from app.panels.step_panel import StepPanel
 from app.parameters_panel import ParametersPanel
 from core.errors import LoopwrightError
-from core.model import Diagram
+from core.model.diagram import Diagram
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "resources" / "examples"
 APP_NAME = "Loopwright"

@@ -29,7 +29,7 @@ def project_path(scratch: Path, nodes: int = 30) -> tuple[Path, str]:
     if EXAMPLE.is_file():
         return EXAMPLE, f"shipped example {EXAMPLE.name}"
     from bench.generators import nested_loops_diagram
-    from core.project_file import save_project
+    from core.io.project_file import save_project
     path = scratch / f"nested_loops_{nodes}.loop.json"
     save_project(nested_loops_diagram(nodes), path)
     return path, f"generated {nodes}-node nested-loop diagram"

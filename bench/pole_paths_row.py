@@ -1,6 +1,6 @@
 """Rows 3 and 5: pole paths over many parameter values, and the floating-point floor under them.
 
-Row 3 times :func:`core.poles.pole_paths` (coefficients at every value, one batched eigenvalue
+Row 3 times :func:`core.analysis.poles.pole_paths` (coefficients at every value, one batched eigenvalue
 call on companion matrices, path matching) against a plain Python loop of ``numpy.roots`` over
 the same coefficient rows (evaluated beforehand, so the loop is charged only for the roots).
 
@@ -18,7 +18,7 @@ import numpy as np
 from bench.generators import loop_polynomial
 from bench.table import Row, ms
 from bench.timing import median, repeat
-from core.poles import pole_paths
+from core.analysis.poles import pole_paths
 
 DEGREE = 20
 VALUES = 2000

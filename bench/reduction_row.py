@@ -1,6 +1,6 @@
 """Row 2: diagram reduction to the characteristic polynomial, and how its time grows with size.
 
-The timed call is :func:`core.reduction.reduce_diagram` (characteristic polynomial only) on
+The timed call is :func:`core.graph.reduction.reduce_diagram` (characteristic polynomial only) on
 :func:`bench.generators.nested_loops_diagram`. Block texts are parsed once and cached by core, as
 in the app, where an edit re-parses only the edited block; the first (cold) call is reported too.
 The growth slope is the least-squares slope of log(time) against log(nodes).
@@ -13,7 +13,7 @@ import time
 from bench.generators import nested_loops_diagram
 from bench.table import Row, ms
 from bench.timing import median, repeat
-from core.reduction import reduce_diagram
+from core.graph.reduction import reduce_diagram
 
 SIZES = (10, 50, 200)
 TARGET_50_S = 0.200

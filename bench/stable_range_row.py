@@ -1,6 +1,6 @@
 """Row 1: the whole report of one loop with one tuning parameter, against the straightforward way.
 
-The timed call is :func:`core.analysis.analyse_polynomial` on :func:`bench.generators.unity_feedback_loop`
+The timed call is :func:`core.analysis.report.analyse_polynomial` on :func:`bench.generators.unity_feedback_loop`
 with the nominal K = 1: Routh array symbolic in K, exact stable range with endpoint kinds and
 margins, exact root counts and certified poles at the nominal value. The yardstick
 (:mod:`bench.baseline`) only finds the stable set, so the ratio favours the yardstick.
@@ -13,7 +13,7 @@ from bench.baseline import timed_baseline
 from bench.generators import unity_feedback_loop
 from bench.table import Row, ms
 from bench.timing import median, repeat, run_in_child
-from core.analysis import analyse_polynomial
+from core.analysis.report import analyse_polynomial
 
 DEGREES = (8, 10, 20, 40)
 TARGETS_S = {20: 0.050, 40: 1.0}

@@ -1,6 +1,6 @@
 """Loopwright's computation core: pure Python, exact arithmetic, never imports Qt.
 
-The public API, loaded on first use so that ``import core.polynomial`` stays light:
+The public API, loaded on first use so that ``import core.algebra.polynomial`` stays light:
 
 - :func:`check_polynomial` (text, parameter=None, at=None, decay=0.0) -> :class:`Report`
 - :func:`check_project` (diagram or path) -> :class:`Report`
@@ -9,9 +9,9 @@ The public API, loaded on first use so that ``import core.polynomial`` stays lig
 from importlib import import_module
 
 _EXPORTS = {
-    "check_polynomial": "analysis", "check_project": "analysis", "Report": "analysis", "CAUTION": "analysis",
-    "load_project": "project_file", "save_project": "project_file",
-    "Diagram": "model", "Node": "model", "Wire": "model", "Parameter": "model",
+    "check_polynomial": "analysis.report", "check_project": "analysis.report", "Report": "analysis.report",
+    "CAUTION": "analysis.report", "load_project": "io.project_file", "save_project": "io.project_file",
+    "Diagram": "model.diagram", "Node": "model.diagram", "Wire": "model.diagram", "Parameter": "model.diagram",
     "LoopwrightError": "errors",
 }
 

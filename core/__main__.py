@@ -1,6 +1,6 @@
 """``python -m core check ...``: see core.cli."""
 import sys
 
-from .cli import main
+from core.cli import main
 
 sys.exit(main())

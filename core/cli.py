@@ -14,7 +14,7 @@ import json
 import sys
 from collections.abc import Sequence
 
-from .errors import LoopwrightError, UsageError
+from core.errors import LoopwrightError, UsageError
 
 PROGRAM = "loopwright-check"
 
@@ -64,8 +64,8 @@ def _decay(args) -> tuple[str, float] | None:
 
 def run(args) -> int:
     """Analyse as the parsed arguments say; print the report; return the exit status."""
-    from .analysis import check_polynomial
-    from .report_text import report_text
+    from core.analysis.report import check_polynomial
+    from core.present.report_text import report_text
 
     at = _parse_at(args.at)
     decay = _decay(args)
@@ -89,10 +89,10 @@ def run(args) -> int:
 
 
 def _check_project_with_values(path: str, at: dict[str, str], decay):
-    from .analysis import check_project
-    from .errors import AnalysisError
-    from .polynomial import to_fmpq
-    from .project_file import load_project
+    from core.analysis.report import check_project
+    from core.errors import AnalysisError
+    from core.algebra.polynomial import to_fmpq
+    from core.io.project_file import load_project
 
     project = load_project(path)
     for name, text in at.items():

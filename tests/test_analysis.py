@@ -5,9 +5,9 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from core.analysis import check_polynomial, check_project, decay_sigma
+from core.analysis.report import check_polynomial, check_project, decay_sigma
 from core.errors import AnalysisError
-from core.model import Diagram, Node, Parameter
+from core.model.diagram import Diagram, Node, Parameter
 
 
 def test_decay_range_agrees_with_numpy_at_interval_midpoints():

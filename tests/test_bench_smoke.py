@@ -15,8 +15,8 @@ import sympy
 from flint import fmpq
 
 from bench import baseline, generators, pole_paths_row, reduction_row, stable_range_row, table, timing
-from core.poles import pole_paths
-from core.reduction import reduce_diagram
+from core.analysis.poles import pole_paths
+from core.graph.reduction import reduce_diagram
 
 
 @pytest.mark.parametrize("nodes", [8, 10, 30, 50])
@@ -83,7 +83,7 @@ def test_pole_path_matching_is_the_optimal_assignment_for_small_steps():
     roots = np.sort_complex(rng.normal(size=6) + 1j * rng.normal(size=6)) * 10
     steps = [roots + 0.01 * k * (1 + 1j) for k in range(5)]
     shuffled = np.array([rng.permutation(s) for s in steps])
-    from core.poles import _match_paths
+    from core.analysis.poles import _match_paths
     matched = _match_paths(shuffled)
     for prev, cur in itertools.pairwise(matched):
         rows, cols = linear_sum_assignment(np.abs(prev[:, None] - cur[None, :]))
@@ -111,7 +111,7 @@ def test_app_rows_once(tmp_path, qapp, monkeypatch):
     from bench import app_row
     from bench.app_session import isolate, open_window
     isolate(tmp_path)
-    from core.project_file import save_project
+    from core.io.project_file import save_project
     path = tmp_path / "small.loop.json"
     save_project(generators.nested_loops_diagram(10), path)
     window = open_window(path)

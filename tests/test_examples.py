@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from core.expression import block_transfer
-from core.project_file import load_project
+from core.algebra.expression import block_transfer
+from core.io.project_file import load_project
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "resources" / "examples"
 s = sp.Symbol("s")
@@ -145,7 +145,7 @@ def test_pump_hidden_mode_is_a_root_for_every_gain():
 @pytest.mark.parametrize("stem", sorted(BLOCKS))
 def test_core_characteristic_polynomial_matches_reference(stem):
     # The app's exact characteristic polynomial equals det(I - A) * prod(D) up to a constant factor.
-    from core.reduction import reduce_diagram
+    from core.graph.reduction import reduce_diagram
     d = load_project(EXAMPLES / f"{stem}.loop.json")
     red = reduce_diagram(d, d.analysis.input, d.analysis.output)
     names = [sp.Symbol(n) for n in red.characteristic.context().names()]

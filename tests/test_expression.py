@@ -10,7 +10,7 @@ import pytest
 import sympy
 
 from core.errors import ExpressionError
-from core.expression import (
+from core.algebra.expression import (
     block_transfer,
     expression_parameters,
     parse_expression,
@@ -18,7 +18,7 @@ from core.expression import (
     parse_polynomial,
     to_mpoly,
 )
-from core.polynomial import mpoly_context
+from core.algebra.polynomial import mpoly_context
 
 s, K, T, Kp, Ti = sympy.symbols("s K T Kp Ti")
 

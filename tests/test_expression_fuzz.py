@@ -11,7 +11,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from core.errors import ExpressionError
-from core.expression import parse_expression, parse_fraction, parse_polynomial
+from core.algebra.expression import parse_expression, parse_fraction, parse_polynomial
 
 s, K, T1 = sympy.symbols("s K T_1")
 

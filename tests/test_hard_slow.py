@@ -14,7 +14,7 @@ import random
 import pytest
 from flint import fmpq, fmpq_poly
 
-from core.routh import is_hurwitz, routh_counts
+from core.analysis.routh import is_hurwitz, routh_counts
 from tests.test_numerically_hard import sympy_rhp
 
 pytestmark = pytest.mark.slow

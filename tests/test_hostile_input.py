@@ -19,10 +19,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from core.analysis import Report, check_project
+from core.analysis.report import Report, check_project
 from core.cli import main as cli_main
 from core.errors import CATALOGUE, LoopwrightError
-from core.project_file import MAX_FILE_BYTES, dumps_project, load_project, loads_project, save_project
+from core.io.project_file import MAX_FILE_BYTES, dumps_project, load_project, loads_project, save_project
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "resources" / "examples" / "conveyor_speed.loop.json"

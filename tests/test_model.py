@@ -12,7 +12,7 @@ import math
 import pytest
 
 from core.errors import ExpressionError, ModelError
-from core.model import (
+from core.model.diagram import (
     DECAY_MODES,
     MAX_SUM_PORTS,
     MIN_SUM_PORTS,

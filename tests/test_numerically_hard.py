@@ -16,9 +16,9 @@ import pytest
 import sympy
 from flint import fmpq
 
-from core.analysis import check_polynomial
-from core.poles import certified_roots, path_sensitivity
-from core.routh import routh_counts
+from core.analysis.report import check_polynomial
+from core.analysis.poles import certified_roots, path_sensitivity
+from core.analysis.routh import routh_counts
 
 s = sympy.symbols("s")
 

@@ -16,10 +16,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from core import project_file as pf
+from core.io import project_file as pf
 from core.errors import LoopwrightError, ProjectFileError
-from core.model import Diagram, Parameter
-from core.project_file import (
+from core.model.diagram import Diagram, Parameter
+from core.io.project_file import (
     CURRENT_VERSION,
     MIGRATIONS,
     dumps_project,

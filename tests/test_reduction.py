@@ -14,11 +14,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from core.errors import AnalysisError
-from core.mason import mason_gain
-from core.model import Diagram, Node
-from core.polynomial import ParametricPolynomial
-from core.reduction import block_polynomials, diagram_parameters, reduce_diagram
-from core.signal_graph import build_signal_graph, simple_cycles
+from core.graph.mason import mason_gain
+from core.model.diagram import Diagram, Node
+from core.algebra.polynomial import ParametricPolynomial
+from core.graph.reduction import block_polynomials, diagram_parameters, reduce_diagram
+from core.graph.signal_graph import build_signal_graph, simple_cycles
 
 s, K, T = sympy.symbols("s K T")
 

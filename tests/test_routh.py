@@ -8,8 +8,8 @@ from flint import fmpq, fmpq_poly
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from core.polynomial import ParametricPolynomial
-from core.routh import RationalFunction, _build, imaginary_axis_roots, is_hurwitz, routh_array, routh_counts
+from core.algebra.polynomial import ParametricPolynomial
+from core.analysis.routh import RationalFunction, _build, imaginary_axis_roots, is_hurwitz, routh_array, routh_counts
 
 K = fmpq_poly([0, 1])
 

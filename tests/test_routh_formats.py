@@ -15,9 +15,9 @@ from flint import fmpq, fmpq_poly
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.polynomial import ParametricPolynomial
-from core.routh import routh_array
-from core.routh_formats import latex_entry, routh_csv, routh_latex, routh_markdown
+from core.algebra.polynomial import ParametricPolynomial
+from core.analysis.routh import routh_array
+from core.present.routh_formats import latex_entry, routh_csv, routh_latex, routh_markdown
 
 K = fmpq_poly([0, 1])
 

@@ -11,8 +11,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from core.errors import AnalysisError
-from core.polynomial import ParametricPolynomial
-from core.stable_range import decay_range, margins, stable_range
+from core.algebra.polynomial import ParametricPolynomial
+from core.analysis.stable_range import decay_range, margins, stable_range
 
 K = fmpq_poly([0, 1])
 

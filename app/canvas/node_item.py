@@ -1,6 +1,6 @@
 """One node on the canvas: block, summing junction, branch point, input or output terminal.
 
-A view only: :meth:`NodeItem.set_node` copies what it shows from a :class:`core.model.Node`;
+A view only: :meth:`NodeItem.set_node` copies what it shows from a :class:`core.model.diagram.Node`;
 gestures on it are handled by the scene, which pushes undo commands.
 """
 from __future__ import annotations
@@ -12,7 +12,7 @@ from PySide6.QtCore import QPointF, QRectF, Qt
 from PySide6.QtGui import QBrush, QFontMetricsF, QPainter, QPainterPath, QPen, QTextDocument
 from PySide6.QtWidgets import QGraphicsItem
 
-from core.model import Node
+from core.model.diagram import Node
 
 from ..theme import Theme, label_font, math_font, selection_glow
 from .formula import formula_html, is_one

@@ -1,4 +1,4 @@
-"""The canvas scene: mirrors one :class:`core.model.Diagram` and turns gestures into undo commands.
+"""The canvas scene: mirrors one :class:`core.model.diagram.Diagram` and turns gestures into undo commands.
 
 On construction it builds one item per node and wire; afterwards each :class:`ModelSignals`
 event updates only the affected items. Items never edit the model: the scene pushes commands
@@ -16,7 +16,7 @@ from PySide6.QtGui import QGuiApplication, QKeySequence, QPainter, QPen, QUndoSt
 from PySide6.QtWidgets import QGraphicsItem, QGraphicsScene, QMenu
 
 from core.errors import LoopwrightError
-from core.model import Diagram, Node, Wire
+from core.model.diagram import Diagram, Node, Wire
 
 from ..bridge import ModelSignals
 from ..commands import (

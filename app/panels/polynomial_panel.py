@@ -17,7 +17,7 @@ from app.panels.common import (
     number,
     number_css,
 )
-from core.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, poly_text, to_fmpq
+from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, poly_text, to_fmpq
 
 HIDDEN_PREFIX = "hidden mode at s ="  # the analysis' own hidden-mode warnings, shown in their section
 

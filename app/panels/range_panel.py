@@ -36,8 +36,8 @@ from app.panels.common import (
 )
 from app.panels.routh_values import FloatEntries
 from app.theme import figure_font, label_font
-from core.polynomial import to_fmpq
-from core.routh import RouthArray, is_hurwitz, routh_counts
+from core.algebra.polynomial import to_fmpq
+from core.analysis.routh import RouthArray, is_hurwitz, routh_counts
 
 HOW_LOST = {
     "origin": "a real pole passes through s = 0",

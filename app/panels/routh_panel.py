@@ -1,7 +1,7 @@
 """Routh array panel: entries symbolic in the tuning parameter beside their values at the current
 value, the first column tinted, sign changes marked, special rows annotated, copy as plain text.
 
-Values are exact: each entry is a rational function (core.routh.RationalFunction) evaluated at the
+Values are exact: each entry is a rational function (core.analysis.routh.RationalFunction) evaluated at the
 current value as a rational number; in rows built with the ε method the entry stays a function of
 ε and its sign is read as ε → 0+. While the slider moves, entries come from float tables with an
 error bound (:mod:`app.panels.routh_values`), shown only where the bound proves the displayed text
@@ -32,9 +32,9 @@ from PySide6.QtWidgets import (
 from app.panels.common import MINUS, MessageLabel, colour, is_palette_change, number, number_css
 from app.panels.routh_values import FloatEntries
 from app.theme import figure_font
-from core.polynomial import to_fmpq
-from core.report_text import routh_table
-from core.routh import RationalFunction, RouthArray
+from core.algebra.polynomial import to_fmpq
+from core.present.report_text import routh_table
+from core.analysis.routh import RationalFunction, RouthArray
 
 ENTRY_CHARS = 24  # symbolic entries wider than this wrap within their cell (full text in the tooltip)
 SUPERSCRIPTS = str.maketrans("0123456789", "⁰¹²³⁴⁵⁶⁷⁸⁹")
@@ -100,8 +100,8 @@ def _in_eps(entry: RationalFunction, value: fmpq) -> RationalFunction:
 def evaluate_entry(entry: RationalFunction, array: RouthArray, value) -> EntryValue:
     """The entry at tuning value ``value`` (exact); functions of ε are kept and signed as ε → 0+.
 
-    >>> from core.routh import routh_array
-    >>> from core.polynomial import ParametricPolynomial
+    >>> from core.analysis.routh import routh_array
+    >>> from core.algebra.polynomial import ParametricPolynomial
     >>> arr = routh_array(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K"))
     >>> evaluate_entry(arr.rows[2][0], arr, 3)
     EntryValue(text='1', exact='1', sign=1)

@@ -15,7 +15,7 @@ and 5, from memory); twice that is used. For y = N / D with errors e_N, e_D (e_D
 |y - N/D| <= 2 (e_N + |y| e_D) / |D|, plus the division's own rounding.
 
 >>> from flint import fmpq_poly
->>> from core.routh import RationalFunction
+>>> from core.analysis.routh import RationalFunction
 >>> FloatEntries([[RationalFunction(fmpq_poly([2, -1]), fmpq_poly([3]))]]).at(0.5)   # (2 - K) / 3
 [[('0.5', 1)]]
 >>> FloatEntries([[RationalFunction(fmpq_poly([2, -1]))]]).at(2.0)   # zero: left to the exact path
@@ -26,7 +26,7 @@ from __future__ import annotations
 import numpy as np
 
 from app.panels.common import number
-from core.routh import RationalFunction
+from core.analysis.routh import RationalFunction
 
 UNIT_ROUNDOFF = 2.0 ** -53
 

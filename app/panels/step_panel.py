@@ -18,7 +18,7 @@ from PySide6.QtWidgets import QComboBox, QGridLayout, QHBoxLayout, QLabel, QVBox
 from app.panels.common import MessageLabel, Readout, colour, number
 from app.theme import figure_font, label_font
 from core.errors import LoopwrightError
-from core.time_response import UNSTABLE_NOTE, StepResponse
+from core.analysis.time_response import UNSTABLE_NOTE, StepResponse
 
 THROTTLE_MS = 100
 
@@ -30,7 +30,7 @@ READOUTS = (("overshoot", "Overshoot"), ("rise_time", "Rise time 10–90 %"),
 def readout_texts(step: StepResponse) -> dict[str, str]:
     """The figures as text, '—' where a figure does not exist.
 
-    >>> from core.time_response import transfer_from_text, step_response
+    >>> from core.analysis.time_response import transfer_from_text, step_response
     >>> readout_texts(step_response(transfer_from_text("4", "s^2 + 2*s + 4")))["overshoot"]
     '16.3 %'
     """

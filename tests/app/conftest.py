@@ -26,7 +26,7 @@ def example_path() -> Path:
 @pytest.fixture
 def diagram(example_path):
     """The shipped example loaded as a Diagram."""
-    from core.project_file import load_project
+    from core.io.project_file import load_project
     return load_project(example_path)
 
 
@@ -62,7 +62,7 @@ def unity_feedback_loop(name: str = "unity feedback test loop"):
 
     Closed loop: s^3 + 3s^2 + 2s + K (from memory: the classic unity-feedback Routh example).
     """
-    from core.model import Diagram, Node, Parameter
+    from core.model.diagram import Diagram, Node, Parameter
     d = Diagram(name)
     for node in (Node("r", "input", x=0, y=0), Node("e", "sum", signs="+-", x=120, y=0),
                  Node("C", "block", role="controller", num="K", den="1", x=260, y=0),
@@ -81,7 +81,7 @@ def unity_feedback_loop(name: str = "unity feedback test loop"):
 def sensor_feedback_loop(name: str, controller: tuple[str, str], sensor_den: str, parameters=()):
     """Invented loop: r -> sum(+,-) -> controller -> plant 1/(s^2+3s+2) -> branch -> y, with a
     sensor 1/sensor_den on a flipped feedback path into the sum's second input."""
-    from core.model import Diagram, Node
+    from core.model.diagram import Diagram, Node
     d = Diagram(name)
     for p in parameters:
         d.set_parameter(p)

@@ -1,5 +1,5 @@
 """Undo commands against the model: every command's undo gives back exactly the project it started
-from (reference: the project file's own serialisation, core.project_file.project_to_dict), and a
+from (reference: the project file's own serialisation, core.io.project_file.project_to_dict), and a
 refused edit changes neither the model nor the undo stack."""
 from __future__ import annotations
 
@@ -24,8 +24,8 @@ from app.commands import (
     push,
 )
 from core.errors import LoopwrightError
-from core.model import Diagram, Node, Parameter
-from core.project_file import project_to_dict
+from core.model.diagram import Diagram, Node, Parameter
+from core.io.project_file import project_to_dict
 
 
 def loop() -> Diagram:

@@ -15,7 +15,7 @@ import app.controller as controller_module
 from app.bridge import ModelSignals
 from app.controller import AnalysisController
 from app.panels import PolynomialPanel, RangePanel, RouthPanel, attach
-from core.model import Diagram, Node, Parameter
+from core.model.diagram import Diagram, Node, Parameter
 
 
 def unity_loop(num: str = "K", den: str = "s^3 + 3s^2 + 2s", nominal: float = 2.0) -> Diagram:

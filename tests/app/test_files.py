@@ -10,7 +10,7 @@ from PySide6.QtGui import QUndoStack
 
 from app.commands import EditNodeCommand, RenameCommand, push
 from app.files import MAX_RECENT, RecentFiles
-from core.project_file import (
+from core.io.project_file import (
     find_recoveries,
     load_project,
     project_to_dict,

@@ -18,9 +18,9 @@ from app.bridge import ModelSignals
 from app.controller import AnalysisController
 from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
 from app.panels.polynomial_panel import factored
-from core.model import Diagram, Node, Parameter
-from core.polynomial import ParametricPolynomial
-from core.report_text import routh_table
+from core.model.diagram import Diagram, Node, Parameter
+from core.algebra.polynomial import ParametricPolynomial
+from core.present.report_text import routh_table
 
 
 def third_order(K: float) -> list[float]:

@@ -8,7 +8,7 @@ from PySide6.QtGui import QUndoStack
 
 from app.bridge import ModelSignals
 from app.parameters_panel import ParametersPanel
-from core.model import Parameter
+from core.model.diagram import Parameter
 
 
 @pytest.fixture

@@ -24,8 +24,8 @@ from PySide6.QtGui import QGuiApplication
 from app.export import ExportError, copy_routh, save_diagram, save_plot
 from app.panels.common import MINUS
 from app.report_export import export_report, report_page
-from core.analysis import CAUTION
-from core.project_file import save_project
+from core.analysis.report import CAUTION
+from core.io.project_file import save_project
 
 REPO = Path(__file__).resolve().parents[2]
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
@@ -286,7 +286,7 @@ def test_panels_offering_report_fragments_and_plots_get_sections(loop_window, qt
 def test_step_response_and_requirements_sections(window, make_loop, analysed):
     from scipy import signal
 
-    from core.requirements import Requirements
+    from core.model.requirements import Requirements
     loop = make_loop()
     loop.set_requirements(Requirements(min_damping=0.3, max_overshoot=60.0))
     window.set_document(loop)

@@ -16,8 +16,8 @@ from app.controller import AnalysisController
 from app.panels import attach
 from app.panels.requirements_panel import RequirementsPanel
 from app.panels.step_panel import StepPanel
-from core.model import Node
-from core.requirements import Requirements
+from core.model.diagram import Node
+from core.model.requirements import Requirements
 
 
 def conveyor_closed_loop(k: float):

@@ -16,8 +16,8 @@ from PySide6.QtWidgets import QMessageBox
 from app import about
 from app.commands import RenameCommand, push
 from app.window import shipped_examples
-from core.analysis import CAUTION, check_project
-from core.project_file import load_project
+from core.analysis.report import CAUTION, check_project
+from core.io.project_file import load_project
 
 REPO = Path(__file__).resolve().parents[2]
 

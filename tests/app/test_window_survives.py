@@ -18,8 +18,8 @@ from PySide6.QtGui import QGuiApplication
 
 from app.canvas.scene import CLIPBOARD_MIME
 from app.commands import EditNodeCommand, push
-from core.model import Diagram, Node
-from core.project_file import find_recoveries, load_project, project_to_dict, save_project
+from core.model.diagram import Diagram, Node
+from core.io.project_file import find_recoveries, load_project, project_to_dict, save_project
 
 
 @pytest.fixture
@@ -148,7 +148,7 @@ def test_autosave_timer_and_crash_recovery_restore_the_exact_project(qtbot, wind
 
 
 def load_project_from(path: Path) -> Diagram:
-    from core.project_file import load_recovery
+    from core.io.project_file import load_recovery
     return load_recovery(path)
 
 

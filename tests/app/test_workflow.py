@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 from PySide6.QtCore import QPoint, QPointF, Qt
 
-from core.project_file import load_project, project_to_dict
+from core.io.project_file import load_project, project_to_dict
 
 
 def sorted_roots(values) -> np.ndarray:

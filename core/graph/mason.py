@@ -2,7 +2,7 @@
 
     T = sum_k P_k Delta_k / Delta,   Delta = 1 - sum L_i + sum L_i L_j - ...  (non-touching loops)
 
-Used to check :func:`core.reduction.reduce_diagram`, which finds the same result by elimination.
+Used to check :func:`core.graph.reduction.reduce_diagram`, which finds the same result by elimination.
 It enumerates every simple loop, forward path and set of non-touching loops, so its cost grows
 exponentially: meant for small diagrams.
 
@@ -17,14 +17,14 @@ from itertools import pairwise
 
 from flint import fmpq, fmpq_mpoly
 
-from .model import Diagram
-from .signal_graph import SignalGraph, build_signal_graph, check_endpoints, simple_cycles
+from core.model.diagram import Diagram
+from core.graph.signal_graph import SignalGraph, build_signal_graph, check_endpoints, simple_cycles
 
 
 def mason_gain(diagram: Diagram, input_id: str, output_id: str) -> tuple[fmpq_mpoly, fmpq_mpoly]:
     """``(sum_k P_k Delta_k, Delta)``, each times the product of all block denominators.
 
-    As in :func:`core.reduction.reduce_diagram`, an input that is not an Input node is a signal
+    As in :func:`core.graph.reduction.reduce_diagram`, an input that is not an Input node is a signal
     added to that node's output.
     """
     check_endpoints(diagram, input_id, output_id)

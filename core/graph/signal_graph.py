@@ -9,7 +9,7 @@ just ``scale``.
 
 Block texts are parsed once per (text, parameters) pair and cached.
 
->>> from core.model import Diagram, Node
+>>> from core.model.diagram import Diagram, Node
 >>> d = Diagram()
 >>> for n in (Node("r", "input"), Node("e", "sum", signs="+-"), Node("b", "branch")):
 ...     _ = d.add_node(n)
@@ -27,9 +27,9 @@ from functools import lru_cache
 
 from flint import fmpq, fmpq_mpoly
 
-from .errors import AnalysisError
-from .model import Diagram
-from .polynomial import mpoly_context
+from core.errors import AnalysisError
+from core.model.diagram import Diagram
+from core.algebra.polynomial import mpoly_context
 
 MAX_LOOPS = 2000  # enumeration cap for simple loops (their number can grow exponentially)
 
@@ -45,7 +45,7 @@ def diagram_parameters(diagram: Diagram) -> list[str]:
 
 @lru_cache(maxsize=4096)
 def _text_parameters(text: str) -> frozenset[str]:
-    from .expression import expression_parameters
+    from core.algebra.expression import expression_parameters
     return frozenset(expression_parameters(text))
 
 
@@ -61,7 +61,7 @@ def check_endpoints(diagram: Diagram, input_id: str | None, output_id: str | Non
 
 @lru_cache(maxsize=1024)
 def _parse_block(num: str, den: str, names: tuple[str, ...], where: str) -> tuple[fmpq_mpoly, fmpq_mpoly]:
-    from .expression import block_transfer, to_mpoly
+    from core.algebra.expression import block_transfer, to_mpoly
     ctx = mpoly_context(names)
     n, d = block_transfer(num, den, where=where)
     return to_mpoly(n, ctx), to_mpoly(d, ctx)

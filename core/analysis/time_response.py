@@ -1,6 +1,6 @@
 """Closed-loop step responses and their metrics, from a diagram or a typed numerator/denominator pair.
 
-The transfer function is exact (:func:`core.reduction.reduce_diagram`, or the typed polynomials),
+The transfer function is exact (:func:`core.graph.reduction.reduce_diagram`, or the typed polynomials),
 kept parametric in the tuning parameter (:class:`ParametricTransfer`); at one value it is turned
 into float coefficients and simulated exactly at the samples: a step input is constant, so the
 state x and the input u = 1 together obey z' = M z, and z((k+1) dt) = E z(k dt) with
@@ -33,10 +33,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from flint import fmpq
 
-from .errors import AnalysisError
-from .expression import expression_parameters, parse_polynomial, to_mpoly
-from .polynomial import ParametricPolynomial, mpoly_context, to_fmpq
-from .routh import is_hurwitz
+from core.errors import AnalysisError
+from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
+from core.algebra.polynomial import ParametricPolynomial, mpoly_context, to_fmpq
+from core.analysis.routh import is_hurwitz
 
 POINTS = 1000
 MAX_POINTS = 8000
@@ -125,7 +125,7 @@ def transfer_from_diagram(diagram, input_id: str | None = None, output_id: str |
     ``reduction``, when given, is the diagram already reduced from that input to that output.
     Raises AnalysisError (E401 no input/output, E404 a parameter without value).
     """
-    from .reduction import reduce_diagram  # reduction imports the model, which imports this package
+    from core.graph.reduction import reduce_diagram  # reduction imports the model, which imports this package
 
     settings = diagram.analysis
     input_id = input_id or settings.input

@@ -54,8 +54,8 @@ from functools import lru_cache
 import sympy
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
 
-from .errors import ExpressionError
-from .polynomial import S, mpoly_context
+from core.errors import ExpressionError
+from core.algebra.polynomial import S, mpoly_context
 
 __all__ = [
     "LAPLACE",
@@ -608,7 +608,7 @@ def to_mpoly(expr: sympy.Expr, ctx: fmpq_mpoly_ctx) -> fmpq_mpoly:
 
     Raises E107 if ``expr`` has a symbol outside ``ctx`` or a non-constant denominator.
 
-    >>> from core.polynomial import mpoly_context, mpoly_text
+    >>> from core.algebra.polynomial import mpoly_context, mpoly_text
     >>> mpoly_text(to_mpoly(parse_polynomial("s^2 + K s/2 + 1"), mpoly_context(["K"])))
     's^2 + 1/2*s*K + 1'
     """

@@ -2,7 +2,7 @@
 
 Reading goes in three steps: bytes -> JSON (strict: UTF-8, no NaN/Infinity, no duplicate keys,
 bounded size and nesting) -> a plain, fully type-checked :class:`ProjectSpec` -> a
-:class:`~core.model.Diagram` built through its own methods, so the model's validation applies.
+:class:`~core.model.diagram.Diagram` built through its own methods, so the model's validation applies.
 Old files are lifted to :data:`CURRENT_VERSION` by the chained :data:`MIGRATIONS` first.
 
 Errors. Everything that goes wrong raises :class:`~core.errors.ProjectFileError` whose ``where``
@@ -51,9 +51,9 @@ from itertools import accumulate
 from pathlib import Path
 from typing import Any, NamedTuple
 
-from .errors import ExpressionError, LoopwrightError, ModelError, ProjectFileError
-from .model import Diagram, Node, Parameter
-from .requirements import Requirements
+from core.errors import ExpressionError, LoopwrightError, ModelError, ProjectFileError
+from core.model.diagram import Diagram, Node, Parameter
+from core.model.requirements import Requirements
 
 FORMAT = "loopwright-project"
 RECOVERY_FORMAT = "loopwright-recovery"

@@ -1,6 +1,6 @@
 """Diagram reduction: the characteristic polynomial and the input-output transfer function, exactly.
 
-The diagram is read as a signal-flow graph x = A x + b u (see :mod:`core.signal_graph`).
+The diagram is read as a signal-flow graph x = A x + b u (see :mod:`core.graph.signal_graph`).
 Its graph determinant is Delta = det(I - A); the **characteristic polynomial** is
 
     characteristic = Delta * D_1 * D_2 * ... * D_m      (every block's denominator, nothing cancelled)
@@ -22,10 +22,10 @@ The method is sparse Gaussian elimination of I - A over rational functions (entr
 reduced numerator/denominator pairs, denominators monic), pivots chosen by least Markowitz cost
 with diagonal pivots preferred (for diagonal pivots this is signal-flow-graph node elimination,
 the pivot being 1 - self-loop gain); Delta is the signed product of the pivots. The output's
-column is kept for last so its value falls out of the final pivot. :func:`core.mason.mason_gain`
+column is kept for last so its value falls out of the final pivot. :func:`core.graph.mason.mason_gain`
 gives the same result by Mason's gain formula, for checking.
 
->>> from core.model import Diagram, Node
+>>> from core.model.diagram import Diagram, Node
 >>> d = Diagram()
 >>> for n in (Node("r", "input"), Node("e", "sum", signs="+-"), Node("C", "block", num="s-1", den="s+2"),
 ...           Node("P", "block", num="1", den="s-1"), Node("y", "output")):
@@ -33,7 +33,7 @@ gives the same result by Mason's gain formula, for checking.
 >>> for a, b, port in (("r", "e", 0), ("e", "C", 0), ("C", "P", 0), ("P", "y", 0), ("P", "e", 1)):
 ...     _ = d.connect(a, b, port)
 >>> red = reduce_diagram(d, "r", "y")
->>> from core.polynomial import mpoly_text
+>>> from core.algebra.polynomial import mpoly_text
 >>> mpoly_text(red.characteristic), mpoly_text(red.closed_num_reduced), mpoly_text(red.closed_den_reduced)
 ('s^2 + 2*s - 3', '1', 's + 3')
 >>> mpoly_text(red.hidden_factor), red.hidden_blocks, red.loops
@@ -45,11 +45,11 @@ from dataclasses import dataclass, field
 
 from flint import fmpq_mpoly
 
-from .elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
-from .errors import AnalysisError
-from .mason import mason_gain
-from .model import Diagram
-from .signal_graph import (
+from core.graph.elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
+from core.errors import AnalysisError
+from core.graph.mason import mason_gain
+from core.model.diagram import Diagram
+from core.graph.signal_graph import (
     MAX_LOOPS,
     SignalGraph,
     block_polynomials,

@@ -9,7 +9,7 @@ terms touched, diagonal pivots first, one named column kept for last. Preferring
 makes a long chain merge pairwise, like a balanced product tree, instead of dragging one ever
 larger fraction along it. Costs are cached and recomputed only for rows and columns a step changed.
 
->>> from core.polynomial import mpoly_context
+>>> from core.algebra.polynomial import mpoly_context
 >>> ctx = mpoly_context([]); s, = ctx.gens(); one = ctx.constant(1)
 >>> rows = {"x": {"x": (one, one), "y": (-one, s)}, "y": {"y": (one, one), "x": (one, one)}}
 >>> result = eliminate(rows, {"x": (one, one)}, keep_last="y")

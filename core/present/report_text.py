@@ -1,12 +1,12 @@
 """Plain-text rendering of a Report for the terminal (aligned Routh table, range, margins).
 
->>> from core.analysis import check_polynomial
+>>> from core.analysis.report import check_polynomial
 >>> print(report_text(check_polynomial("s^2 + 3s + 2")).splitlines()[0])
 Characteristic polynomial: s^2 + 3*s + 2
 """
 from __future__ import annotations
 
-from .analysis import CAUTION, Report
+from core.analysis.report import CAUTION, Report
 
 
 def _fmt(x: float | None) -> str:

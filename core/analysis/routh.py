@@ -7,7 +7,7 @@ that zero replaced by a small positive ``eps`` (entries then live in Q(eps), or 
 ``fmpq_mpoly`` values); a row that is identically zero is replaced by the derivative of the
 auxiliary polynomial formed from the row above.
 
->>> from core.polynomial import ParametricPolynomial
+>>> from core.algebra.polynomial import ParametricPolynomial
 >>> from flint import fmpq_poly
 >>> arr = routh_array(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K"))
 >>> arr.first_column_text()
@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz, fmpz_poly
 
-from core.polynomial import ParametricPolynomial, mpoly_text, poly_text
+from core.algebra.polynomial import ParametricPolynomial, mpoly_text, poly_text
 
 __all__ = [
     "RationalFunction",

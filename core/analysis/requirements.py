@@ -4,7 +4,7 @@ Requirements (each optional):
 
 * **decay** — the model's decay requirement (``AnalysisSettings.decay_mode``/``decay_value``: a
   minimum decay rate sigma, a time to half amplitude or a 2 % settling time). It is *not* stored
-  here; its verdict and range come from the Report (:func:`core.stable_range.decay_range`, exact).
+  here; its verdict and range come from the Report (:func:`core.analysis.stable_range.decay_range`, exact).
 * **damping** — a minimum damping ratio zeta of every pole of the loop (hidden modes included).
 * **overshoot** — a maximum overshoot (%) of the step response from the reference (analysis input).
 * **gain margin** — a minimum factor by which the tuning parameter may *rise* before the loop loses
@@ -13,12 +13,12 @@ Requirements (each optional):
   parameter margin in the same sense.
 
 :func:`joint_range` intersects the stable range with each requirement's range: exact for decay
-(shifted Routh, :func:`~core.stable_range.decay_range`) and gain margin (v < hi / GM from the exact
+(shifted Routh, :func:`~core.analysis.stable_range.decay_range`) and gain margin (v < hi / GM from the exact
 endpoints); numeric for damping (poles on a fine grid, transitions refined by bisection) and
 overshoot (step responses on a grid, then bisection), searched over the tuning parameter's
 min..max only and marked numeric. Numeric ranges can miss features narrower than the grid step.
 
->>> from core.analysis import check_polynomial
+>>> from core.analysis.report import check_polynomial
 >>> report = check_polynomial("s^3 + 3s^2 + 2s + K", parameter="K", at={"K": 2})
 >>> joint = joint_range(Requirements(min_gain_margin=2), report)
 >>> joint.text(), joint.exact
@@ -33,73 +33,18 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import LoopwrightError, ModelError
-from .polynomial import to_fmpq
+from core.errors import LoopwrightError
+from core.model.requirements import Requirements
+from core.algebra.polynomial import to_fmpq
 
-if TYPE_CHECKING:  # the model imports this module for Requirements: scipy loads on first use only
-    from .time_response import ParametricTransfer, StepResponse
+if TYPE_CHECKING:  # scipy loads on first use only
+    from core.analysis.time_response import ParametricTransfer, StepResponse
 
-GAIN_MARGIN_UNITS = ("factor", "db")
 DAMPING_SAMPLES = 400
 OVERSHOOT_SAMPLES = 41
 OVERSHOOT_POINTS = 600
 BISECTION_TOLERANCE = 1e-7  # relative to the searched span
 
-
-@dataclass(frozen=True)
-class Requirements:
-    """The requirements besides decay; None means not set.
-
-    >>> Requirements(min_gain_margin=6, gain_margin_unit="db").gain_margin_factor
-    1.9952623149688795
-    """
-
-    min_damping: float | None = None
-    max_overshoot: float | None = None
-    min_gain_margin: float | None = None
-    gain_margin_unit: str = "factor"
-
-    @property
-    def gain_margin_factor(self) -> float | None:
-        """The gain margin as a factor (from dB: 10^(dB/20))."""
-        if self.min_gain_margin is None:
-            return None
-        return self.min_gain_margin if self.gain_margin_unit == "factor" else 10 ** (self.min_gain_margin / 20)
-
-    @property
-    def is_empty(self) -> bool:
-        """Whether no requirement here is set."""
-        return self.min_damping is None and self.max_overshoot is None and self.min_gain_margin is None
-
-    def check(self) -> None:
-        """Raise ModelError E304 naming the first value out of range."""
-        where = "requirements"
-        for name, v, ok, rule in (
-                ("minimum damping ratio", self.min_damping, lambda x: 0 < x <= 1, "in (0, 1]"),
-                ("maximum overshoot", self.max_overshoot, lambda x: 0 <= x <= 1000, "from 0 to 1000 %"),
-                ("minimum gain margin", self.min_gain_margin,
-                 (lambda x: 1 <= x <= 1e6) if self.gain_margin_unit == "factor" else (lambda x: 0 <= x <= 120),
-                 "from 1 to 1e6" if self.gain_margin_unit == "factor" else "from 0 to 120 dB")):
-            if v is None:
-                continue
-            if not (isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) and ok(v)):
-                raise ModelError("E304", f"the {name} must be a number {rule}", where=where)
-        if self.gain_margin_unit not in GAIN_MARGIN_UNITS:
-            raise ModelError("E304", "the gain margin unit must be 'factor' or 'db'", where=where)
-
-    def to_dict(self) -> dict:
-        """The project file's ``requirements`` object (unset entries left out)."""
-        out = {k: v for k, v in (("min_damping", self.min_damping), ("max_overshoot", self.max_overshoot),
-                                 ("min_gain_margin", self.min_gain_margin)) if v is not None}
-        if self.min_gain_margin is not None:
-            out["gain_margin_unit"] = self.gain_margin_unit
-        return out
-
-    def with_changes(self, **changes) -> Requirements:
-        """A copy with some fields changed, checked."""
-        new = replace(self, **changes)
-        new.check()
-        return new
 
 
 # -- verdicts at one value --------------------------------------------------------------------------
@@ -323,7 +268,7 @@ def _exact_intervals(rng, name: str) -> list[Interval]:
 def gain_margin_intervals(rng, gm: float, name: str) -> list[Interval]:
     """Values v > 0 of the stable set with hi / v >= gm (hi the end of v's interval): exact.
 
-    >>> from core.analysis import check_polynomial
+    >>> from core.analysis.report import check_polynomial
     >>> r = check_polynomial("s^3 + 3s^2 + 2s + K", parameter="K").stable_range
     >>> [(a.exact, b.exact) for a, b in gain_margin_intervals(r, 4, "K")]
     [('0', '3/2')]
@@ -408,7 +353,7 @@ def damping_predicate(report, zeta: float) -> Callable[[float], bool]:
 
 def overshoot_predicate(transfer: ParametricTransfer, limit: float) -> Callable[[float], bool]:
     """v -> whether the loop is stable with a step overshoot <= limit (%)."""
-    from .time_response import step_response
+    from core.analysis.time_response import step_response
 
     def meets(v: float) -> bool:
         try:
@@ -481,7 +426,7 @@ class TimeDomain:
 def prepare(diagram, report, span: tuple[float, float] | None) -> TimeDomain:
     """Transfer functions from the analysis input and every other Input node to the output, and the
     joint range of ``diagram.requirements`` (errors per input kept as messages, never raised)."""
-    from .time_response import transfer_from_diagram
+    from core.analysis.time_response import transfer_from_diagram
 
     reference = diagram.analysis.input
     inputs = ([reference] if reference else []) + [n.id for n in diagram.nodes.values()

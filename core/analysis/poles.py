@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 from flint import fmpq_poly
 
-from .polynomial import ParametricPolynomial, to_fmpq
+from core.algebra.polynomial import ParametricPolynomial, to_fmpq
 
 
 @dataclass(frozen=True)

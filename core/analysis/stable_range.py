@@ -14,7 +14,7 @@ degree drops, so the candidate boundaries are the real roots of
 Each irreducible factor over Q gives exact rational roots (linear factors) or certified real roots
 (flint ``complex_roots``; real roots come back with an exactly zero imaginary part) compared by their
 balls, refined until they separate. Every open interval between consecutive candidates is classified
-at an exact rational point inside it with :func:`core.routh.is_hurwitz`. Candidates are never stable,
+at an exact rational point inside it with :func:`core.analysis.routh.is_hurwitz`. Candidates are never stable,
 so two stable intervals meeting at an isolated marginal value stay two intervals.
 
 Endpoint kind, when several causes coincide at one value: "singular" first; then what happens to the
@@ -22,7 +22,7 @@ roots there: "origin" if a0 vanishes, else "crossing" if a pair sits on the imag
 exactly at rational values, numerically at 50 digits at irrational ones), else "infinity".
 
 >>> from flint import fmpq_poly
->>> from core.polynomial import ParametricPolynomial
+>>> from core.algebra.polynomial import ParametricPolynomial
 >>> r = stable_range(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K"))
 >>> r.to_dict()["exact_intervals"], [(e.kind, e.omega) for e in r.endpoints]
 ([['0', '6']], [('origin', None), ('crossing', 1.4142135623730951)])
@@ -37,8 +37,8 @@ import numpy
 from flint import arb, ctx, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
 
 from core.errors import AnalysisError
-from core.polynomial import ParametricPolynomial, poly_text, to_fmpq
-from core.routh import fraction_free_rows, imaginary_axis_roots, integer_coefficients, is_hurwitz, real_roots
+from core.algebra.polynomial import ParametricPolynomial, poly_text, to_fmpq
+from core.analysis.routh import fraction_free_rows, imaginary_axis_roots, integer_coefficients, is_hurwitz, real_roots
 
 __all__ = [
     "Boundary",
@@ -358,7 +358,7 @@ def margins(r: StableRange, nominal) -> Margins:
     """Margins of ``nominal`` inside its stable interval (all None fields when it is not stable).
 
     >>> from flint import fmpq_poly
-    >>> from core.polynomial import ParametricPolynomial
+    >>> from core.algebra.polynomial import ParametricPolynomial
     >>> m = margins(stable_range(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K")), 2)
     >>> m.rise_factor, round(m.rise_db, 3), m.fall_factor
     (3.0, 9.542, None)

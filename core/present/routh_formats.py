@@ -1,12 +1,12 @@
 """The Routh array as text to paste elsewhere: CSV, Markdown or LaTeX (pure, no Qt).
 
 Each format holds one row per power of s, labelled ``s^k``, with the entries as
-:meth:`core.routh.RouthArray.rows_text` writes them (short rows padded with empty cells). An
+:meth:`core.analysis.routh.RouthArray.rows_text` writes them (short rows padded with empty cells). An
 optional second block of columns holds the entries' values at one parameter value (strings made by
 the caller, e.g. ``"1/3"``); special-case notes follow the table.
 
->>> from core.polynomial import ParametricPolynomial
->>> from core.routh import routh_array
+>>> from core.algebra.polynomial import ParametricPolynomial
+>>> from core.analysis.routh import routh_array
 >>> from flint import fmpq_poly
 >>> arr = routh_array(ParametricPolynomial.from_coefficients([1, 3, 2, fmpq_poly([0, 1])], "K"))
 >>> print(routh_csv(arr).splitlines()[3])
@@ -23,7 +23,7 @@ import io
 import re
 from collections.abc import Sequence
 
-from core.routh import RouthArray
+from core.analysis.routh import RouthArray
 
 MINUS = "\u2212"
 _TOKEN = re.compile(r"\s*(\d+/\d+|\d+|[A-Za-z_][A-Za-z0-9_]*|\^|\*|/|\(|\)|[+-]|\S)")

@@ -23,8 +23,8 @@ import re
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
-from .errors import ModelError
-from .requirements import Requirements
+from core.errors import ModelError
+from core.model.requirements import Requirements
 
 NODE_KINDS = ("input", "output", "sum", "branch", "block")
 ROLES = ("gain", "controller", "actuator", "plant", "sensor", "other")
@@ -287,7 +287,7 @@ class Diagram:
         if node.kind == "block":
             if node.role not in ROLES:
                 raise ModelError("E302", f"unknown role '{node.role}' (one of {', '.join(ROLES)})", where=where)
-            from .expression import block_transfer  # local: expression imports nothing from here
+            from core.algebra.expression import block_transfer  # local: expression imports nothing from here
             block_transfer(node.num, node.den, where=where)
 
     # -- wires --------------------------------------------------------------------------------
@@ -403,7 +403,7 @@ class Diagram:
     # -- derived ------------------------------------------------------------------------------
     def parameter_names_in_blocks(self) -> set[str]:
         """Every parameter name typed in any block's numerator or denominator."""
-        from .expression import expression_parameters
+        from core.algebra.expression import expression_parameters
         names: set[str] = set()
         for node in self.nodes.values():
             if node.kind == "block":
