@@ -24,14 +24,14 @@ import numpy as np
 from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject, QTimer, Signal
 
 from app.commands import SetParameterCommand
-from core.analysis.report import Report, check_project
-from core.errors import LoopwrightError
-from core.model.diagram import Diagram
-from core.analysis.poles import path_sensitivity, pole_paths
 from core.algebra.polynomial import ParametricPolynomial
-from core.io.project_file import project_from_dict, project_to_dict
+from core.analysis.poles import path_sensitivity, pole_paths
+from core.analysis.report import Report, check_project
 from core.analysis.requirements import TimeDomain, prepare
 from core.analysis.time_response import StepResponse, step_response
+from core.errors import LoopwrightError
+from core.io.project_file import project_from_dict, project_to_dict
+from core.model.diagram import Diagram
 
 DEBOUNCE_MS = 35  # edits arrive on Enter or commit, not per keystroke: a short wait still merges bursts
 PATH_SAMPLES = 400
@@ -178,7 +178,7 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
         _nominal_steps(result)
     except LoopwrightError as exc:
         result.report, result.error = None, exc
-    except Exception as exc:  # noqa: BLE001 - the GUI must never crash on an analysis bug
+    except Exception as exc:
         result.report = None
         result.internal_error = f"{type(exc).__name__}: {exc}"
         traceback.print_exc()
@@ -190,7 +190,7 @@ def _time_domain(diagram: Diagram, report: Report, tuning: TuningRange | None) -
     """Step transfer functions and the requirements' joint range; a failure here only loses them."""
     try:
         return prepare(diagram, report, (tuning.minimum, tuning.maximum) if tuning is not None else None)
-    except Exception:  # noqa: BLE001 - the other panels keep their result
+    except Exception:
         traceback.print_exc()
         return None
 
@@ -205,7 +205,7 @@ def _nominal_steps(result: AnalysisResult) -> None:
         result.steps[td.reference] = step_response(td.transfers[td.reference], result._nominal_value())
     except LoopwrightError as exc:
         result.step_errors[td.reference] = exc
-    except Exception:  # noqa: BLE001 - the other panels keep their result
+    except Exception:
         traceback.print_exc()
 
 
@@ -337,7 +337,7 @@ class AnalysisController(QObject):
         generation = self._generation
         try:
             project = project_to_dict(self._diagram)
-        except Exception as exc:  # noqa: BLE001
+        except Exception as exc:
             self._running = False
             self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
             return

@@ -30,8 +30,8 @@ from PySide6.QtWidgets import (
 
 from app.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
 from app.theme import figure_font
-from core.errors import LoopwrightError
 from core.algebra.expression import expression_parameters
+from core.errors import LoopwrightError
 from core.model.diagram import Diagram, Parameter
 
 COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tune")

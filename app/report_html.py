@@ -25,9 +25,9 @@ from app.panels.common import MINUS, complex_number, math_html, number
 from app.panels.polynomial_panel import HIDDEN_PREFIX, factored
 from app.panels.range_panel import how_lost, range_intervals_html
 from app.panels.routh_panel import entry_display, evaluate_entry, power_label
+from core.algebra.polynomial import to_fmpq
 from core.analysis.report import CAUTION
 from core.model.diagram import Diagram
-from core.algebra.polynomial import to_fmpq
 
 ROLE_NAMES = {"gain": "Gain", "controller": "Controller", "actuator": "Actuator", "plant": "Plant",
               "sensor": "Sensor", "other": "Other"}
@@ -346,8 +346,8 @@ def poles_html(inputs: ReportInputs) -> str:
 
 def _reference_step(inputs: ReportInputs):
     """The unit-step response from the reference input at the nominal value, or None."""
-    from core.errors import LoopwrightError
     from core.analysis.time_response import step_response
+    from core.errors import LoopwrightError
     td = getattr(inputs.result, "time_domain", None)
     reference = td.transfers.get(td.reference) if td is not None and td.reference else None
     if reference is None:

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 from flint import fmpq_mpoly
 
-from core.model.diagram import Diagram, Node, Parameter
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context
+from core.model.diagram import Diagram, Node, Parameter
 
 STAGE_NODES = 6   # e, G, b, H, F, p
 GROUP = 3         # stages inside one outer loop

@@ -16,9 +16,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from core.io import project_file as pf
 from core.errors import LoopwrightError, ProjectFileError
-from core.model.diagram import Diagram, Parameter
+from core.io import project_file as pf
 from core.io.project_file import (
     CURRENT_VERSION,
     MIGRATIONS,
@@ -30,6 +29,7 @@ from core.io.project_file import (
     project_to_dict,
     save_project,
 )
+from core.model.diagram import Diagram, Parameter
 
 EXAMPLES = sorted((Path(__file__).resolve().parent.parent / "resources" / "examples").glob("*.loop.json"))
 

@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from core.analysis.time_response import step_metrics, step_response, transfer_from_diagram, transfer_from_text
 from core.errors import AnalysisError
 from core.model.diagram import Diagram, Node, Parameter
-from core.analysis.time_response import step_metrics, step_response, transfer_from_diagram, transfer_from_text
 
 
 def second_order(zeta: float, wn: float):

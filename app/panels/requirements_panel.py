@@ -17,9 +17,9 @@ from PySide6.QtWidgets import QComboBox, QGridLayout, QLabel, QLineEdit, QVBoxLa
 from app.commands import ModelCommand, SetAnalysisCommand, push
 from app.panels.common import MINUS, MessageLabel, Readout, colour, number, number_css
 from app.theme import figure_font, label_font
+from core.analysis.requirements import Verdict, evaluate, intervals_text
 from core.errors import LoopwrightError
 from core.model.diagram import Diagram
-from core.analysis.requirements import Verdict, evaluate, intervals_text
 from core.model.requirements import Requirements
 
 DECAY_LABELS = {"sigma": ("Decay rate σ ≥", "1/s"), "half_time": ("Time to half amplitude ≤", "s"),

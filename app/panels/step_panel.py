@@ -17,8 +17,8 @@ from PySide6.QtWidgets import QComboBox, QGridLayout, QHBoxLayout, QLabel, QVBox
 
 from app.panels.common import MessageLabel, Readout, colour, number
 from app.theme import figure_font, label_font
-from core.errors import LoopwrightError
 from core.analysis.time_response import UNSTABLE_NOTE, StepResponse
+from core.errors import LoopwrightError
 
 THROTTLE_MS = 100
 

@@ -15,13 +15,13 @@ from pathlib import Path
 
 from flint import fmpq
 
-from core.errors import AnalysisError
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
-from core.model.diagram import Diagram
-from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, primitive_scale, to_fmpq
+from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
 from core.analysis.routh import RouthArray, routh_array, routh_counts
 from core.analysis.stable_range import StableRange, decay_range, margins, stable_range
+from core.errors import AnalysisError
+from core.model.diagram import Diagram
 
 CAUTION = ("A linear model is not a safety case. Before power is applied, check actuator saturation, "
            "time delays, sampling, sensor noise and hardware limits; defer to the applicable machinery "
@@ -263,8 +263,8 @@ def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, o
 
 def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None) -> Report:
     """Analyse a project (a Diagram or a path to a project file)."""
-    from core.io.project_file import load_project
     from core.graph.reduction import reduce_diagram
+    from core.io.project_file import load_project
 
     source = ""
     if not isinstance(project, Diagram):

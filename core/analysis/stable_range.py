@@ -36,9 +36,15 @@ from itertools import pairwise
 import numpy
 from flint import arb, ctx, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
 
-from core.errors import AnalysisError
 from core.algebra.polynomial import ParametricPolynomial, poly_text, to_fmpq
-from core.analysis.routh import fraction_free_rows, imaginary_axis_roots, integer_coefficients, is_hurwitz, real_roots
+from core.analysis.routh import (
+    fraction_free_rows,
+    imaginary_axis_roots,
+    integer_coefficients,
+    is_hurwitz,
+    real_roots,
+)
+from core.errors import AnalysisError
 
 __all__ = [
     "Boundary",

@@ -33,10 +33,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from flint import fmpq
 
-from core.errors import AnalysisError
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, to_fmpq
 from core.analysis.routh import is_hurwitz
+from core.errors import AnalysisError
 
 POINTS = 1000
 MAX_POINTS = 8000

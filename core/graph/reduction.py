@@ -45,10 +45,9 @@ from dataclasses import dataclass, field
 
 from flint import fmpq_mpoly
 
-from core.graph.elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
 from core.errors import AnalysisError
+from core.graph.elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
 from core.graph.mason import mason_gain
-from core.model.diagram import Diagram
 from core.graph.signal_graph import (
     MAX_LOOPS,
     SignalGraph,
@@ -60,6 +59,7 @@ from core.graph.signal_graph import (
     simple_cycles,
     strong_components,
 )
+from core.model.diagram import Diagram
 
 __all__ = ["Reduction", "block_polynomials", "diagram_parameters", "mason_gain", "reduce_diagram"]
 

@@ -15,8 +15,8 @@ from app.bridge import ModelSignals
 from app.canvas import NODE_MIME, DiagramScene, DiagramView
 from app.palette import Palette
 from app.theme import ROLE_COLOURS, Theme
-from core.model.diagram import Diagram, Node, Parameter
 from core.io.project_file import project_to_dict
+from core.model.diagram import Diagram, Node, Parameter
 
 
 def feedback_loop() -> Diagram:

@@ -24,8 +24,8 @@ from app.commands import (
     push,
 )
 from core.errors import LoopwrightError
-from core.model.diagram import Diagram, Node, Parameter
 from core.io.project_file import project_to_dict
+from core.model.diagram import Diagram, Node, Parameter
 
 
 def loop() -> Diagram:
@@ -124,7 +124,8 @@ def test_keyboard_nudges_merge_but_drags_do_not():
     push(stack, MoveNodesCommand(d, {"C": ((230, 0), (300, 0))}))
     push(stack, MoveNodesCommand(d, {"C": ((300, 0), (310, 0))}))
     assert stack.count() == 3
-    stack.undo(); stack.undo(); stack.undo()
+    for _ in range(3):
+        stack.undo()
     assert (d.node("C").x, d.node("C").y) == (200, 0)
 
 

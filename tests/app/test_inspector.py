@@ -9,8 +9,8 @@ from PySide6.QtGui import QUndoStack
 
 from app.bridge import ModelSignals
 from app.inspector import Inspector, check_transfer, factored_text
-from core.model.diagram import Diagram, Node, Parameter
 from core.io.project_file import project_to_dict
+from core.model.diagram import Diagram, Node, Parameter
 
 
 @pytest.fixture

@@ -18,10 +18,10 @@ from app.panels.common import number
 from app.panels.range_panel import first_column_signs, first_column_tables
 from app.panels.routh_panel import LIVE_TIP
 from app.panels.routh_values import FloatEntries
-from core.analysis.report import check_project
 from core.algebra.polynomial import to_fmpq
-from core.io.project_file import load_project
+from core.analysis.report import check_project
 from core.analysis.routh import RationalFunction
+from core.io.project_file import load_project
 
 EXAMPLES = Path(__file__).resolve().parents[2] / "resources" / "examples"
 K = sympy.Symbol("K")

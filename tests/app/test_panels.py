@@ -18,8 +18,8 @@ from app.bridge import ModelSignals
 from app.controller import AnalysisController
 from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
 from app.panels.polynomial_panel import factored
-from core.model.diagram import Diagram, Node, Parameter
 from core.algebra.polynomial import ParametricPolynomial
+from core.model.diagram import Diagram, Node, Parameter
 from core.present.report_text import routh_table
 
 

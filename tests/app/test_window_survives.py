@@ -18,8 +18,8 @@ from PySide6.QtGui import QGuiApplication
 
 from app.canvas.scene import CLIPBOARD_MIME
 from app.commands import EditNodeCommand, push
-from core.model.diagram import Diagram, Node
 from core.io.project_file import find_recoveries, load_project, project_to_dict, save_project
+from core.model.diagram import Diagram, Node
 
 
 @pytest.fixture
