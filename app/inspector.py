@@ -27,7 +27,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.commands import (
+from app.document.commands import (
     EditNodeCommand,
     Macro,
     SetAnalysisCommand,

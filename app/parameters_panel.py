@@ -28,7 +28,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
+from app.document.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
 from app.theme import figure_font
 from core.algebra.expression import expression_parameters
 from core.errors import LoopwrightError

@@ -14,7 +14,7 @@ import math
 from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import QComboBox, QGridLayout, QLabel, QLineEdit, QVBoxLayout, QWidget
 
-from app.commands import ModelCommand, SetAnalysisCommand, push
+from app.document.commands import ModelCommand, SetAnalysisCommand, push
 from app.panels.common import MINUS, MessageLabel, Readout, colour, number, number_css
 from app.theme import figure_font, label_font
 from core.analysis.requirements import Verdict, evaluate, intervals_text

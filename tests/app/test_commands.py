@@ -7,7 +7,7 @@ import pytest
 from conftest import sensor_feedback_loop
 from PySide6.QtGui import QUndoStack
 
-from app.commands import (
+from app.document.commands import (
     AddNodeCommand,
     ConnectCommand,
     DisconnectCommand,

@@ -12,9 +12,12 @@ import pytest
 from PySide6.QtGui import QUndoStack
 
 import app.controller as controller_module
+import core.analysis.pipeline as pipeline
 from app.bridge import ModelSignals
 from app.controller import AnalysisController
+from app.document.editing import commit_nominals
 from app.panels import PolynomialPanel, RangePanel, RouthPanel, attach
+from core.analysis.pipeline import PATH_SAMPLES
 from core.model.diagram import Diagram, Node, Parameter
 
 
@@ -47,7 +50,9 @@ def counted(monkeypatch):
 
 def make(qtbot, diagram, undo_stack=None):
     signals = ModelSignals(diagram)
-    ctl = AnalysisController(diagram, signals, undo_stack)
+    ctl = AnalysisController(diagram, signals)
+    if undo_stack is not None:
+        commit_nominals(ctl, diagram, undo_stack)
     results = []
     ctl.resultReady.connect(results.append)
     return ctl, signals, results
@@ -62,7 +67,7 @@ def test_first_result_has_the_loop(qtbot, counted):
     got = np.sort_complex(results[0].poles_at(2.0))
     want = np.sort_complex(np.roots([1, 3, 2, 2]))  # reference: numpy
     assert np.allclose(got, want)
-    assert results[0].paths.shape == (controller_module.PATH_SAMPLES, 3)
+    assert results[0].paths.shape == (PATH_SAMPLES, 3)
     assert ctl.current_value == 2.0
 
 
@@ -118,7 +123,7 @@ def test_error_arrives_as_message(qtbot):
 def test_unexpected_exception_becomes_internal_error(qtbot, monkeypatch):
     def broken(diagram):
         raise RuntimeError("boom")
-    monkeypatch.setattr(controller_module, "check_project", broken)
+    monkeypatch.setattr(pipeline, "check_project", broken)
     ctl, _, results = make(qtbot, unity_loop())
     assert ctl.wait_for_idle(10000)
     assert results[-1].message == "internal error: RuntimeError: boom"

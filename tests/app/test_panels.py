@@ -11,11 +11,12 @@ import numpy as np
 import pytest
 import sympy
 from PySide6.QtCore import Qt
-from PySide6.QtGui import QGuiApplication
+from PySide6.QtGui import QGuiApplication, QUndoStack
 from test_controller import unity_loop
 
 from app.bridge import ModelSignals
 from app.controller import AnalysisController
+from app.document.editing import commit_nominals
 from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
 from app.panels.polynomial_panel import factored
 from core.algebra.polynomial import ParametricPolynomial
@@ -34,6 +35,7 @@ def loop(qtbot):
     d = unity_loop(nominal=2.0)
     signals = ModelSignals(d)
     ctl = AnalysisController(d, signals)
+    commit_nominals(ctl, d, QUndoStack())
     panels = {"poly": PolynomialPanel(), "routh": RouthPanel(), "range": RangePanel(), "map": PoleMap()}
     for p in panels.values():
         qtbot.addWidget(p)

@@ -31,7 +31,7 @@ def place(qtbot, window, kind: str, role: str = "") -> str:
 
 
 def move_node(window, node_id: str, x: float, y: float) -> None:
-    from app.commands import MoveNodesCommand, push
+    from app.document.commands import MoveNodesCommand, push
     node = window.diagram.node(node_id)
     push(window.undo_stack, MoveNodesCommand(window.diagram, {node_id: ((node.x, node.y), (x, y))}))
 
