@@ -61,3 +61,35 @@ def test_repeated_pair_crossing_frequency_is_exact():
     expected = float(mpmath.sqrt(mpmath.sqrt(2) - mpmath.mpf("1.414213562373095048")))
     (e,) = _range("s^2 + (K^2-2)*s + K - 1.414213562373095048").endpoints
     assert e.kind == "crossing" and e.omega == pytest.approx(expected, rel=1e-12)
+
+
+def test_polynomial_vanishing_at_the_nominal_value_is_degenerate_not_a_crash():
+    # (1-K)(s+1)^2 is the zero polynomial at K = 1 (hand): no root count exists there
+    r = check_polynomial("(1-K)*(s^2+2*s+1)", parameter="K", at={"K": 1}, decay=1)
+    assert r.nominal.stable is False and r.nominal.poles == []
+    assert any("degenerate at K = 1" in n for n in r.nominal.notes)
+    assert r.decay.nominal_ok is False and not r.stable_range.contains(1)
+
+
+def test_polynomial_vanishing_at_fixed_values_is_e403_naming_them():
+    from core.errors import AnalysisError
+    with pytest.raises(AnalysisError) as err:  # (1-a)(...) at a = 1 is zero for every K (hand)
+        check_polynomial("(1-a)*(s^2+2*s+K)", parameter="K", at={"a": 1})
+    assert err.value.code == "E403" and "a = 1" in err.value.message
+
+
+def test_decay_verdict_at_nominal_agrees_with_the_exact_range():
+    # (s + 1 + 1e-20)(s + 2) + K at K = 0: roots -1 - 1e-20 and -2, both left of -1 (hand), so sigma = 1
+    # is met; the range starts at K = -1e-20 (where the shifted polynomial's constant term vanishes)
+    r = check_polynomial("(s+1+1e-20)*(s+2)+K", parameter="K", at={"K": 0}, decay=1)
+    assert r.decay.range.to_dict()["exact_intervals"] == [["-1/100000000000000000000", None]]
+    assert r.decay.nominal_ok is True and r.decay.range.contains(0)
+
+
+@pytest.mark.parametrize("root, met", [("0.6931471805599453", False), ("0.6931471805599454", True)])
+def test_time_to_half_compares_with_ln2_exactly(root, met):
+    # a pole at s = -c halves in ln 2 / c: T = 1 is met iff c > ln 2 = 0.69314718055994530942...
+    # (mpmath at 60 digits); 15-digit ln 2 would call both met
+    mpmath.mp.dps = 60
+    assert (mpmath.mpf(root) > mpmath.log(2)) is met
+    assert check_polynomial(f"s + {root}", decay=1, decay_mode="half_time").decay.nominal_ok is met

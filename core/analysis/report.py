@@ -13,14 +13,14 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from flint import fmpq
+from flint import arb, ctx, fmpq
 
 from core.errors import AnalysisError
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.model.diagram import Diagram
 from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, primitive_scale, to_fmpq
-from core.analysis.routh import RouthArray, routh_array, routh_counts
+from core.analysis.routh import RouthArray, is_hurwitz, routh_array, routh_counts
 from core.analysis.stable_range import StableRange, decay_range, margins, stable_range
 
 CAUTION = ("A linear model is not a safety case. Before power is applied, check actuator saturation, "
@@ -144,8 +144,15 @@ class Report:
         }
 
 
+HALF_TIME_BITS = 128  # ln 2 is bounded to this many bits for the decay range of a time to half
+
+
 def decay_sigma(mode: str, value: float) -> tuple[fmpq, str]:
-    """Exact sigma (1/s) from a decay requirement, and the note that says how it was read.
+    """Rational sigma (1/s) from a decay requirement, and the note that says how it was read.
+
+    Exact for "sigma" and "settling". For "half_time" sigma = ln 2 / T is transcendental: this is
+    an upper bound within 2^-128 relative (certified), so a range computed with it only lists values
+    that meet the requirement; the nominal verdict is decided exactly by :func:`_meets_decay`.
 
     >>> decay_sigma("settling", 2.0)[0]
     2
@@ -162,8 +169,37 @@ def decay_sigma(mode: str, value: float) -> tuple[fmpq, str]:
         return to_fmpq(value), DECAY_NOTES[mode]
     if mode == "settling":
         return to_fmpq(4) / to_fmpq(value), DECAY_NOTES[mode]
-    sigma = math.log(2) / value  # irrational: use its 15-digit decimal, said in the note
-    return to_fmpq(float(f"{sigma:.15g}")), DECAY_NOTES[mode] + " (ln 2 rounded to 15 digits)"
+    return _half_time_sigma(to_fmpq(value), HALF_TIME_BITS)[1], DECAY_NOTES[mode] + (
+        f" (ln 2 bounded above to {HALF_TIME_BITS} bits: every value listed meets the requirement)")
+
+
+def _half_time_sigma(half_time: fmpq, bits: int) -> tuple[fmpq, fmpq]:
+    """Rational bounds lo < ln 2 / T < hi, certified (arb), about 2^-bits relative apart."""
+    with ctx.workprec(bits + 16):
+        ln2 = arb(2).log()
+        mid, rad = _fmpq_of_arb(ln2.mid()), _fmpq_of_arb(ln2.rad())
+    return (mid - rad) / half_time, (mid + rad) / half_time
+
+
+def _fmpq_of_arb(x: arb) -> fmpq:
+    man, exp = x.man_exp()
+    return fmpq(int(man)) * fmpq(2) ** int(exp) if exp >= 0 else fmpq(int(man), 2 ** int(-exp))
+
+
+def _meets_decay(poly: ParametricPolynomial, mode: str, value: float, sigma: fmpq, nominal) -> bool:
+    """Exact: every root at the nominal value lies left of Re s = -sigma (sigma = ln 2 / T for a
+    time to half: bracketed ever tighter until both bounds agree; they do, since the real part of
+    an algebraic root never equals the transcendental -ln 2 / T)."""
+    if mode != "half_time":
+        return _shifted_stable(poly, sigma, nominal)
+    bits = 64
+    while True:
+        lo, hi = _half_time_sigma(to_fmpq(value), bits)
+        if _shifted_stable(poly, hi, nominal):
+            return True
+        if not _shifted_stable(poly, lo, nominal):
+            return False
+        bits *= 2
 
 
 def _exact_values(values: Mapping[str, object] | None) -> dict[str, fmpq]:
@@ -197,7 +233,9 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
     poly_mpoly = poly_mpoly * primitive_scale(poly_mpoly)  # integer coefficients, same roots and signs
     analysed = ParametricPolynomial.from_mpoly(poly_mpoly, parameter, values)
     if analysed.degree < 0:
-        raise AnalysisError("E403", "the characteristic polynomial is identically zero", where="polynomial")
+        fixed = {k: v for k, v in values.items() if k != parameter}
+        at = f" at {values_text(fixed)}" if fixed and not poly_mpoly.is_zero() else ""
+        raise AnalysisError("E403", f"the characteristic polynomial is identically zero{at}", where="polynomial")
     warnings: list[str] = []
     routh = routh_array(analysed)
     rng = stable_range(analysed) if parameter else None
@@ -210,10 +248,7 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
     dec = None
     if sigma > 0:
         drange = decay_range(analysed, sigma) if parameter else None
-        ok = None
-        if nominal is not None:
-            ok = bool(nominal.poles) and all(p.re < -float(sigma) for p in nominal.poles) \
-                and _shifted_stable(analysed, sigma, nominal_value)
+        ok = None if nominal is None else _meets_decay(analysed, mode, dvalue, sigma, nominal_value)
         dec = Decay(float(sigma), mode, note, drange, ok)
     marg = margins(rng, nominal_value) if (rng is not None and nominal_value is not None) else None
     return Report(polynomial=shown or mpoly_text(poly_mpoly), analysed=analysed, parameter=parameter,
@@ -222,13 +257,14 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
 
 
 def _shifted_stable(poly: ParametricPolynomial, sigma: fmpq, value) -> bool:
-    """Exact check that every root lies left of -sigma at one value."""
-    counts = routh_counts(poly.shifted(sigma).at(value))
-    return counts.rhp == 0 and counts.jw == 0 and len(poly.at(value)) - 1 == poly.degree
+    """Exact check that every root lies left of -sigma at one value (the order must not drop)."""
+    return is_hurwitz(poly.shifted(sigma).at(value), poly.degree)
 
 
 def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warnings: list[str]) -> Nominal:
     coeffs = poly.at(value)
+    if coeffs == [0]:
+        return _degenerate_nominal(poly, value, values, warnings)
     counts = routh_counts(coeffs)
     poles = certified_roots(coeffs)
     notes = list(counts.special)
@@ -243,6 +279,18 @@ def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warn
     return Nominal(values={k: float(v) for k, v in values.items()}, stable=stable, rhp=counts.rhp,
                    jw=counts.jw, lhp=counts.lhp, poles=poles, sign_changes=list(counts.sign_changes),
                    notes=notes)
+
+
+def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq],
+                        warnings: list[str]) -> Nominal:
+    """The nominal loop when the characteristic polynomial vanishes identically there: no verdict
+    of stability can hold (every s solves the loop equations), so it is reported as not stable."""
+    where = f"{poly.parameter} = {value}" if poly.parameter else "the nominal values"
+    note = (f"the loop is degenerate at {where}: the characteristic polynomial vanishes identically "
+            "there, so the loop equations do not determine the signals (not stable)")
+    warnings.append(note)
+    return Nominal(values={k: float(v) for k, v in values.items()}, stable=False, rhp=0, jw=0, lhp=0,
+                   poles=[], sign_changes=[], notes=[note])
 
 
 def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, object] | None = None,
