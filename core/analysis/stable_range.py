@@ -48,6 +48,8 @@ __all__ = [
     "decay_range",
     "hurwitz_delta",
     "margins",
+    "real_values",
+    "resultant_in_s",
     "stable_range",
 ]
 
@@ -214,6 +216,30 @@ def hurwitz_delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
     res = mctx.from_dict(even).resultant(mctx.from_dict(odd), "u")
     terms = {exps[1]: c for exps, c in res.to_dict().items()}
     return fmpq_poly([terms.get(j, 0) for j in range(max(terms, default=-1) + 1)])
+
+
+def resultant_in_s(p: ParametricPolynomial, q: ParametricPolynomial) -> fmpq_poly:
+    """Res_s(p, q) as a polynomial in the tuning parameter: zero at k where p and q share a root
+    (or both leading coefficients vanish).
+
+    >>> resultant_in_s(ParametricPolynomial.from_coefficients([1, fmpq_poly([0, 1])], "K"),
+    ...                ParametricPolynomial.from_coefficients([1, 1], "K"))  # s + K and s + 1
+    x + (-1)
+    """
+    mctx = fmpq_mpoly_ctx.get(("s", "k"), "lex")
+
+    def lift(poly: ParametricPolynomial):
+        n = poly.degree
+        return mctx.from_dict({(n - i, j): c[j] for i, c in enumerate(poly.coeffs)
+                               for j in range(c.degree() + 1) if c[j] != 0})
+    res = lift(p).resultant(lift(q), "s")
+    terms = {exps[1]: c for exps, c in res.to_dict().items()}
+    return fmpq_poly([terms.get(j, 0) for j in range(max(terms, default=-1) + 1)])
+
+
+def real_values(p: fmpq_poly) -> list[Boundary]:
+    """The distinct real roots of a nonzero polynomial, exact (rational or isolated), increasing."""
+    return _boundaries(_irreducible_factors(p))
 
 
 def _delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
