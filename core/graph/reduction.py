@@ -78,6 +78,7 @@ class Reduction:
     hidden_blocks: list[str] = field(default_factory=list)
     loops: list[list[str]] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
+    connected: bool = True  # some wire path leads from the input to the output
 
 
 def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None) -> Reduction:
@@ -106,6 +107,7 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
         else:
             num = x_out[0] * (characteristic / x_out[1])
         _set_transfer_function(red, graph, num)
+        red.connected = output_id == input_id or output_id in reachable(input_id, graph.successors())
         warnings += _reach_warnings(diagram, graph, input_id, output_id, num)
     return red
 
