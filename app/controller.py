@@ -150,7 +150,7 @@ class AnalysisController(QObject):
             self._set_busy(False)
 
     def _adopt_tuning(self, result: AnalysisResult) -> None:
-        tuning = result.tuning
+        tuning = result.tuning_range
         if tuning is None:
             self._current = None
             return
@@ -167,7 +167,7 @@ class AnalysisController(QObject):
     # -- current value --------------------------------------------------------------------------
     def set_current_value(self, value: float) -> None:
         """Move the current value live (slider drag); panels follow through ``currentValueChanged``."""
-        if self._result is None or self._result.tuning is None or not math.isfinite(value):
+        if self._result is None or self._result.tuning_range is None or not math.isfinite(value):
             return
         self._dragging = True
         if value != self._current:
@@ -177,7 +177,7 @@ class AnalysisController(QObject):
     def commit_current_value(self) -> None:
         """Ask for the current value to become the tuning parameter's nominal (``nominalCommitted``)."""
         self._dragging = False
-        tuning = self._result.tuning if self._result is not None else None
+        tuning = self._result.tuning_range if self._result is not None else None
         if tuning is None or self._current is None or self._disposed:
             return
         param = self._diagram.parameters.get(tuning.name)

@@ -380,7 +380,7 @@ class Inspector(QWidget):
         new = sorted((expression_parameters(num) | expression_parameters(den)) - set(d.parameters))
         commands = [EditNodeCommand(d, node.id, num=num, den=den)]
         commands += [SetParameterCommand(d, Parameter(name, **NEW_PARAMETER)) for name in new]
-        if new and d.sweep is None:
+        if new and d.tuning_parameter is None:
             commands.append(SetSweepCommand(d, new[0]))
         command = commands[0] if len(commands) == 1 else Macro(f"edit {node.title}", commands)
         return self._push(command)

@@ -84,7 +84,7 @@ class ReportInputs:
     @property
     def nominal_value(self) -> float | None:
         """The tuning parameter's nominal value as analysed (None without one)."""
-        tuning = self.result.tuning
+        tuning = self.result.tuning_range
         return tuning.nominal if tuning is not None else None
 
 
@@ -162,7 +162,7 @@ def diagram_html(inputs: ReportInputs) -> str:
                f"<span class='math'>{math_html(n.num)}</span>", f"<span class='math'>{math_html(n.den)}</span>"]
               for n in d.nodes.values() if n.kind == "block"]
     params = [[esc(p.name), _num(number(p.nominal)), _num(number(p.minimum)), _num(number(p.maximum)),
-               "yes" if d.sweep == p.name else ""] for p in d.parameters.values()]
+               "yes" if d.tuning_parameter == p.name else ""] for p in d.parameters.values()]
     out = ["<h2 id='diagram'>Block diagram</h2>", _picture(inputs, "diagram", "block diagram")]
     out.append("<h3>Blocks</h3>" + (_grid("blocks", ["Id", "Label", "Role", "Numerator", "Denominator"], blocks)
                                     if blocks else "<p class='muted'>no blocks</p>"))

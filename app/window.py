@@ -360,7 +360,7 @@ class MainWindow(QMainWindow):
         if report is None:
             return result.message or ""
         nominal = report.nominal
-        at = f" at {report.parameter} = {result.tuning.nominal:g}" if result.tuning is not None else ""
+        at = f" at {report.parameter} = {result.tuning_range.nominal:g}" if result.tuning_range is not None else ""
         if nominal is None:
             return "Analysed"
         if nominal.stable:

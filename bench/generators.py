@@ -117,6 +117,6 @@ def nested_loops_diagram(nodes: int) -> Diagram:
     d.set_parameter(Parameter("K", nominal=1.0, minimum=0.0, maximum=5.0))
     if any(node.num == "T" for node in d.nodes.values()):
         d.set_parameter(Parameter("T", nominal=0.5, minimum=0.0, maximum=2.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     return d

@@ -23,7 +23,7 @@ def unity_loop(controller, plant, params=(), sweep=None):
     for p in params:
         d.set_parameter(p)
     if sweep:
-        d.set_sweep(sweep)
+        d.set_tuning_parameter(sweep)
     d.set_analysis(input="r", output="y")
     return d
 

@@ -22,7 +22,14 @@ from hypothesis import strategies as st
 from core.analysis.report import Report, check_project
 from core.cli import main as cli_main
 from core.errors import CATALOGUE, LoopwrightError
-from core.io.project_file import MAX_FILE_BYTES, dumps_project, load_project, loads_project, save_project
+from core.io.project_file import (
+    CURRENT_VERSION,
+    MAX_FILE_BYTES,
+    dumps_project,
+    load_project,
+    loads_project,
+    save_project,
+)
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "resources" / "examples" / "conveyor_speed.loop.json"
@@ -128,7 +135,7 @@ HOSTILE_FILES = {
     "infinity": (json.dumps(BASE).replace('"max": 20', '"max": Infinity').encode(), "E201"),
     "number_as_text": (json.dumps(with_value(BASE, ("parameters", 0, "nominal"), "2")).encode(), "E205"),
     "version_as_text": (json.dumps(with_value(BASE, ("version",), "2")).encode(), "E205"),
-    "newer_version": (json.dumps(with_value(BASE, ("version",), 3)).encode(), "E203"),
+    "newer_version": (json.dumps(with_value(BASE, ("version",), CURRENT_VERSION + 1)).encode(), "E203"),
     "duplicate_key": (b'{"format": "loopwright-project", "version": 2, "version": 1, "nodes": []}', "E201"),
     "lone_surrogate": (json.dumps(with_value(BASE, ("nodes", 0, "label"), "\ud800")).encode(), "E205"),
     "latin1": ("{\"name\": \"caf\u00e9\"}".encode("latin-1"), "E201"),
@@ -140,7 +147,7 @@ HOSTILE_FILES = {
     "newline_in_id": (json.dumps(with_value(BASE, ("nodes", 0, "id"), "r\n")).encode(), "E205"),
     "control_in_id": (json.dumps(with_value(BASE, ("nodes", 0, "id"), "r\x1b[2J")).encode(), "E205"),
     "too_big": (b" " * (MAX_FILE_BYTES + 1), "E208"),
-    "code_in_den": (json.dumps(with_value(BASE, ("nodes", 4, "den"), "__import__('os')")).encode(), "E1"),
+    "code_in_den": (json.dumps(with_value(BASE, ("nodes", 4, "denominator"), "__import__('os')")).encode(), "E1"),
 }
 
 
@@ -223,7 +230,7 @@ json_leaves = (st.none() | st.booleans() | st.integers(-10**30, 10**30)
                | st.sampled_from([*IDS, "K", "s", "s^2 + K s + 1", "1/0", "(s+1)^60", "+-+-", "block", "sum", "input", "output", "branch", "plant", "sigma", "settling", ""]))
 json_values = st.recursive(json_leaves, lambda inner: st.lists(inner, max_size=3)
                            | st.dictionaries(st.sampled_from(["id", "kind", "x", "from", "to", "port", "name",
-                                                              "num", "den", "zz"]), inner, max_size=3),
+                                                              "num", "den", "numerator", "denominator", "inputs", "zz"]), inner, max_size=3),
                            max_leaves=6)
 
 

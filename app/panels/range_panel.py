@@ -289,8 +289,8 @@ class RangePanel(QWidget):
         """Show a new AnalysisResult (its error message when it has no Report)."""
         self._result = result
         self.message.show_message(result.message)
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         report = result.report
         has_range = report is not None and report.stable_range is not None
         self.line.setVisible(has_range)
@@ -305,7 +305,7 @@ class RangePanel(QWidget):
         else:
             rng = report.stable_range.to_dict()
             dec = report.decay.to_dict() if report.decay is not None else None
-            tuning = result.tuning
+            tuning = result.tuning_range
             ends = [e["value"] for e in rng["endpoints"]]
             if dec and dec["endpoints"]:
                 ends += [e["value"] for e in dec["endpoints"]]

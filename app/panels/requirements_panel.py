@@ -242,8 +242,8 @@ class RequirementsPanel(QWidget):
     def show_result(self, result) -> None:
         """Take a new AnalysisResult: the joint range at once, the verdicts at the current value."""
         self._result = result
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         self.error.show_message(result.message)
         self.range_text.setText(self.range_html())
         self._update_verdicts()

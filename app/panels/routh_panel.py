@@ -225,8 +225,8 @@ class RouthPanel(QWidget):
         """Show a new AnalysisResult (its error message when it has no Report)."""
         self._result = result
         self.message.show_message(result.message)
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         self._build()
 
     def changeEvent(self, event) -> None:

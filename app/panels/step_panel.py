@@ -138,8 +138,8 @@ class StepPanel(QWidget):
     def show_result(self, result) -> None:
         """Take a new AnalysisResult: refill the input choice and recompute at the current value."""
         self._result = result
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         td = getattr(result, "time_domain", None)
         previous = self.inputs.currentData()
         self.inputs.blockSignals(True)

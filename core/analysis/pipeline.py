@@ -8,7 +8,7 @@ the reference input's step response at the nominal value.
 
 >>> from core.io.project_file import load_project, project_to_dict
 >>> result = analyse_snapshot(project_to_dict(load_project("resources/examples/conveyor_speed.loop.json")), 1)
->>> result.ok, result.tuning.name, result.paths.shape[0] == PATH_SAMPLES
+>>> result.ok, result.tuning_range.name, result.paths.shape[0] == PATH_SAMPLES
 (True, 'K', True)
 """
 from __future__ import annotations
@@ -120,7 +120,7 @@ class AnalysisResult:
     float_warning: str | None = None
     internal_error: str | None = None
     elapsed_ms: float = 0.0
-    tuning: TuningRange | None = None
+    tuning_range: TuningRange | None = None
     path_values: np.ndarray = field(default_factory=lambda: np.empty(0))
     paths: np.ndarray = field(default_factory=lambda: np.empty((0, 0), dtype=complex))
     coefficient_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
@@ -194,7 +194,7 @@ class AnalysisResult:
         return step_response(self.time_domain.transfers[input_id], value)
 
     def _nominal_value(self) -> float | None:
-        return self.tuning.nominal if self.tuning is not None and self.report.parameter is not None else None
+        return self.tuning_range.nominal if self.tuning_range is not None and self.report.parameter is not None else None
 
 
 def _evaluate_table(table: np.ndarray, value: float | None) -> np.ndarray:
@@ -249,7 +249,7 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
         result.coefficient_table = coefficient_table(report.analysed)
         result.zero_table = zero_table(report)
         tuning = _tuning_range(diagram, report)
-        result.tuning = tuning
+        result.tuning_range = tuning
         if tuning is not None and report.analysed.degree >= 1:
             result.path_values = np.linspace(tuning.minimum, tuning.maximum, PATH_SAMPLES)
             result.paths = pole_paths(report.analysed, result.path_values)

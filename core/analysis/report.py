@@ -335,7 +335,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         raise AnalysisError("E406", f"no wire path leads from the input {settings.input} to the output "
                             f"{settings.output}: connect them to analyse the loop", where="analysis")
     values = _exact_values({p.name: p.nominal for p in project.parameters.values()})
-    parameter = project.sweep
+    parameter = project.tuning_parameter
     used = red.characteristic.context().names()[1:]
     if parameter is not None and parameter not in used:
         raise AnalysisError("E405", f"the tuning parameter '{parameter}' appears in no block",

@@ -32,7 +32,7 @@ def loop() -> Diagram:
     """An invented loop: controller, plant, sensor on the feedback path."""
     d = sensor_feedback_loop("test loop", ("K", "1"), "T*s + 1",
                              [Parameter("K", 2.0, 0.0, 20.0), Parameter("T", 0.5, 0.1, 5.0)])
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     return d
 
 
@@ -142,9 +142,9 @@ def test_removing_the_tuning_parameter_comes_back_in_place():
     stack = QUndoStack()
     before = project_to_dict(d)
     push(stack, RemoveParameterCommand(d, "K"))
-    assert d.sweep is None and list(d.parameters) == ["T"]
+    assert d.tuning_parameter is None and list(d.parameters) == ["T"]
     stack.undo()
-    assert list(d.parameters) == ["K", "T"] and d.sweep == "K"
+    assert list(d.parameters) == ["K", "T"] and d.tuning_parameter == "K"
     assert project_to_dict(d) == before
 
 

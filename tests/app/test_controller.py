@@ -30,7 +30,7 @@ def unity_loop(num: str = "K", den: str = "s^3 + 3s^2 + 2s", nominal: float = 2.
     for src, dst, port in (("r", "e", 0), ("e", "G", 0), ("G", "b", 0), ("b", "y", 0), ("b", "e", 1)):
         d.connect(src, dst, port)
     d.set_parameter(Parameter("K", nominal, 0.0, 10.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     return d
 
@@ -78,7 +78,7 @@ def test_quick_edits_make_one_analysis(qtbot, counted):
         d.set_parameter(Parameter("K", nominal, 0.0, 10.0))
     assert ctl.wait_for_idle(10000)
     assert len(counted) == 1
-    assert len(results) == 1 and results[0].tuning.nominal == 3.5
+    assert len(results) == 1 and results[0].tuning_range.nominal == 3.5
     assert results[0].generation == ctl.generation
 
 
@@ -101,13 +101,13 @@ def test_stale_result_is_dropped(qtbot, monkeypatch):
     gate.set()
     assert ctl.wait_for_idle(10000)
     assert len(seen) == 2
-    assert [r.tuning.nominal for r in results] == [7.0]  # the first (K = 2) result never arrived
+    assert [r.tuning_range.nominal for r in results] == [7.0]  # the first (K = 2) result never arrived
 
 
 def test_error_arrives_as_message(qtbot):
     d = unity_loop()
     d.set_parameter(Parameter("T", 1.0, 0.0, 2.0))
-    d.set_sweep("T")  # tuned but typed in no block: the analysis refuses with E405
+    d.set_tuning_parameter("T")  # tuned but typed in no block: the analysis refuses with E405
     ctl, _, results = make(qtbot, d)
     panels = [PolynomialPanel(), RouthPanel(), RangePanel()]
     for p in panels:
@@ -156,7 +156,7 @@ def test_live_value_and_commit_through_undo(qtbot):
     stack.undo()
     assert d.parameters["K"].nominal == 2.0
     assert ctl.wait_for_idle(10000)
-    assert results[-1].tuning.nominal == 2.0 and ctl.current_value == 2.0
+    assert results[-1].tuning_range.nominal == 2.0 and ctl.current_value == 2.0
 
 
 def test_dispose_abandons_a_running_analysis_and_ignores_later_changes(qtbot, monkeypatch):

@@ -103,7 +103,7 @@ def test_routh_panel_shows_live_values_during_a_drag_and_exact_ones_at_rest(qtbo
     qtbot.addWidget(panel)
     attach(panel, controller)
     arr = controller.result.report.routh
-    tuning = controller.result.tuning
+    tuning = controller.result.tuning_range
     for value in np.linspace(tuning.minimum, tuning.maximum, 9)[1:]:
         controller.set_current_value(float(value))
         cells = [[panel.table.item(i + 1, panel._value_column(j)).text() for j in range(len(row))]

@@ -163,7 +163,7 @@ def test_hidden_mode_is_named(qtbot):
                            ("b", "e", 1)):
         d.connect(src, dst, port)
     d.set_parameter(Parameter("K", 1.0, 0.0, 10.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     ctl = AnalysisController(d, ModelSignals(d))
     panel = PolynomialPanel()
@@ -179,7 +179,7 @@ def test_hidden_mode_is_named(qtbot):
 def test_panels_clear_on_error_result(loop, qtbot):
     d, ctl, panels = loop
     d.set_parameter(Parameter("T", 1.0, 0.0, 2.0))
-    d.set_sweep("T")  # in no block: E405
+    d.set_tuning_parameter("T")  # in no block: E405
     assert ctl.wait_for_idle(10000)
     assert ctl.result.error is not None
     assert panels["poly"].view.toPlainText() == ""
@@ -203,7 +203,7 @@ def fifth_order(qtbot):
                            ("b", "y", 0), ("b", "H", 0), ("H", "e", 1)):
         d.connect(src, dst, port)
     d.set_parameter(Parameter("K", 2.0, 0.0, 20.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     ctl = AnalysisController(d, ModelSignals(d))
     assert ctl.wait_for_idle(20000) and ctl.result.ok, ctl.result.message
