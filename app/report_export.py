@@ -15,15 +15,13 @@ from __future__ import annotations
 
 import base64
 import datetime
-import os
-import sys
 from pathlib import Path
 
 from PySide6.QtCore import QBuffer, QByteArray, QCoreApplication, QIODevice, QMarginsF, Qt, QUrl
 from PySide6.QtGui import QFont, QImage, QPageLayout, QPageSize, QPdfWriter, QTextDocument
 
 from app.about import program_version
-from app.export import ExportError, diagram_image, plot_image, plot_panels
+from app.pictures import ExportError, diagram_image, plot_image, plot_panels
 from app.report_html import OWN_SECTIONS, ReportInputs, ReportSection, report_html
 
 REPORT_SUFFIXES = (".html", ".pdf")
@@ -168,23 +166,3 @@ def export_report(window, path) -> Path:
     if suffix not in REPORT_SUFFIXES:
         raise ExportError(f"{path.name}: choose a name ending in .html or .pdf")
     return write_html(window, path) if suffix == ".html" else write_pdf(window, path)
-
-
-def report_command(out: str, project: Path, copy: bool = False) -> int:
-    """``python -m app --report OUT.pdf|OUT.html [PROJECT]``: exit 0, 1 (analysis too slow) or 2 (bad input)."""
-    from app.main import analysed_window
-    if Path(out).suffix.lower() not in REPORT_SUFFIXES:
-        print(f"loopwright: {out}: the report must end in .html or .pdf", file=sys.stderr)
-        return 2
-    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    window = analysed_window(project, copy, show=False)
-    if isinstance(window, int):
-        return window
-    try:
-        export_report(window, out)
-    except ExportError as err:
-        print(f"loopwright: {err}", file=sys.stderr)
-        return 2
-    window.undo_stack.setClean()
-    window.close()
-    return 0

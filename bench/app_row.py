@@ -129,7 +129,7 @@ def cold_starts(project: Path, scratch: Path, count: int) -> list[dict]:
 
 def run(quick: bool) -> list[Row]:
     from app.controller import DEBOUNCE_MS
-    from app.main import settle
+    from app.headless import settle
     with tempfile.TemporaryDirectory(prefix="loopwright-bench-") as tmp:
         scratch = Path(tmp)
         isolate(scratch)

@@ -37,7 +37,7 @@ def project_path(scratch: Path, nodes: int = 30) -> tuple[Path, str]:
 
 def open_window(path: Path):
     """A shown MainWindow (offscreen-safe, no saved layout) on the project at ``path``."""
-    from app.main import make_application
+    from app.headless import make_application
     from app.window import MainWindow
     make_application(["loopwright-bench"])
     window = MainWindow(rendering=True)

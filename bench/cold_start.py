@@ -19,7 +19,7 @@ def main(argv: list[str]) -> int:
     from PySide6.QtCore import QEvent, QEventLoop, QObject, QTimer
     from PySide6.QtWidgets import QMainWindow
 
-    from app.main import make_application, settle
+    from app.headless import make_application, settle
 
     app = make_application(["loopwright-bench"])
 

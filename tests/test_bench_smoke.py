@@ -107,7 +107,7 @@ def test_table_marks_pass_and_miss():
 
 def test_app_rows_once(tmp_path, qapp, monkeypatch):
     monkeypatch.setenv("LOOPWRIGHT_STATE_DIR", str(tmp_path / "state"))  # restored after the test
-    from app.main import settle
+    from app.headless import settle
     from bench import app_row
     from bench.app_session import isolate, open_window
     isolate(tmp_path)

@@ -159,7 +159,7 @@ def window(qtbot, dialogs, state_dir):
 
 def wait_analysed(window, timeout_ms: int = 60_000) -> None:
     """Wait until the window's analysis controller is idle and has delivered a result."""
-    from app.main import settle
+    from app.headless import settle
     assert settle(window, timeout_ms), "the analysis did not finish"
 
 

@@ -21,8 +21,9 @@ import numpy as np
 import pytest
 from PySide6.QtGui import QGuiApplication
 
-from app.export import ExportError, copy_routh, save_diagram, save_plot
+from app.export import copy_routh
 from app.panels.common import MINUS
+from app.pictures import ExportError, save_diagram, save_plot
 from app.report_export import export_report, report_page
 from core.analysis.report import CAUTION
 from core.io.project_file import save_project
