@@ -27,6 +27,10 @@ check: $(STAMP)        ## the command line on the shipped example
 bench: $(STAMP)        ## speed table (reported, never asserted)
 	QT_QPA_PLATFORM=offscreen $(PY) -m bench
 
+lint: $(STAMP)         ## ruff (rules in pyproject.toml) on every package, mypy on core/
+	$(PY) -m ruff check core app tests bench
+	$(PY) -m mypy
+
 screenshots: $(STAMP)  ## render every shipped example to docs/screenshots/
 	mkdir -p docs/screenshots
 	for f in resources/examples/*.loop.json; do \

@@ -18,7 +18,6 @@ from PySide6.QtCore import QObject, QSettings, QTimer, Signal
 from PySide6.QtWidgets import QFileDialog, QMessageBox, QWidget
 
 from core.errors import LoopwrightError
-from core.model.diagram import Diagram
 from core.io.project_file import (
     SUFFIX,
     Recovery,
@@ -31,6 +30,7 @@ from core.io.project_file import (
     save_project,
     write_recovery,
 )
+from core.model.diagram import Diagram
 
 AUTOSAVE_MS = 30_000
 MAX_RECENT = 8

@@ -27,7 +27,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.commands import (
+from app.document.commands import (
     EditNodeCommand,
     Macro,
     SetAnalysisCommand,
@@ -36,8 +36,8 @@ from app.commands import (
     push,
 )
 from app.theme import figure_font
-from core.errors import LoopwrightError
 from core.algebra.expression import block_transfer, expression_parameters
+from core.errors import LoopwrightError
 from core.model.diagram import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram, Parameter
 
 KIND_TITLES = {"input": "Input", "output": "Output", "sum": "Summing junction", "branch": "Branch point",
@@ -82,7 +82,7 @@ def factored_text(num: str, den: str) -> str:
     gain_d, bottom = _factor_texts(d)
     gain = gain_n / gain_d
     if gain != 1 or not top:
-        top = [_gain_text(gain)] + top
+        top = [_gain_text(gain), *top]
     top_text = "·".join(top).replace("-1·", "-", 1) if top[0] == "-1" else "·".join(top)
     if not bottom:
         return top_text.removeprefix("(").removesuffix(")") if len(top) == 1 else top_text
@@ -380,7 +380,7 @@ class Inspector(QWidget):
         new = sorted((expression_parameters(num) | expression_parameters(den)) - set(d.parameters))
         commands = [EditNodeCommand(d, node.id, num=num, den=den)]
         commands += [SetParameterCommand(d, Parameter(name, **NEW_PARAMETER)) for name in new]
-        if new and d.sweep is None:
+        if new and d.tuning_parameter is None:
             commands.append(SetSweepCommand(d, new[0]))
         command = commands[0] if len(commands) == 1 else Macro(f"edit {node.title}", commands)
         return self._push(command)

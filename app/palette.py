@@ -17,7 +17,9 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from .canvas import NODE_MIME, DiagramScene
+from app.canvas import NODE_MIME
+from app.document.editor import DiagramEditor
+
 from .theme import Theme, current_theme, label_font
 
 # (section, entries of (short label, full name, kind, role)); the short label keeps the palette narrow
@@ -139,11 +141,11 @@ class PaletteButton(QToolButton):
 
 
 class Palette(QWidget):
-    """Buttons for every node kind and block role; placing goes through ``scene.place_node``."""
+    """Buttons for every node kind and block role; placing goes through ``editor.place_node``."""
 
-    def __init__(self, scene: DiagramScene, parent: QWidget | None = None):
+    def __init__(self, editor: DiagramEditor | None, parent: QWidget | None = None):
         super().__init__(parent)
-        self.scene = scene
+        self.editor = editor
         self.buttons: dict[tuple[str, str], PaletteButton] = {}
         self._muted: list[QLabel] = []
         layout = QVBoxLayout(self)
@@ -189,10 +191,10 @@ class Palette(QWidget):
             self._apply_theme()
         super().changeEvent(event)
 
-    def set_scene(self, scene: DiagramScene) -> None:
-        """Place into another scene (after a project was opened)."""
-        self.scene = scene
+    def set_editor(self, editor: DiagramEditor) -> None:
+        """Place through another editor (after a project was opened)."""
+        self.editor = editor
 
     def place(self, kind: str, role: str) -> str | None:
         """Place a node at the next free spot near the view centre; returns its id."""
-        return self.scene.place_node(kind, role)
+        return self.editor.place_node(kind, role)

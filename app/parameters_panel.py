@@ -28,10 +28,10 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
+from app.document.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
 from app.theme import figure_font
-from core.errors import LoopwrightError
 from core.algebra.expression import expression_parameters
+from core.errors import LoopwrightError
 from core.model.diagram import Diagram, Parameter
 
 COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tune")
@@ -195,8 +195,8 @@ class ParametersPanel(QWidget):
                 self.table.item(row, column).setText(number_text(getattr(p, field)) if p else "")
             radio = self.tune_group.button(row)
             radio.setEnabled(p is not None)
-            radio.setChecked(d.sweep == name)
-        if d.sweep is None and self.tune_group.checkedButton() is not None:
+            radio.setChecked(d.tuning_parameter == name)
+        if d.tuning_parameter is None and self.tune_group.checkedButton() is not None:
             self.tune_group.setExclusive(False)
             self.tune_group.checkedButton().setChecked(False)
             self.tune_group.setExclusive(True)
@@ -288,7 +288,7 @@ class ParametersPanel(QWidget):
         if self._filling or not checked:
             return
         name = self.table.item(row, 0).data(Qt.ItemDataRole.UserRole)
-        if name != self.diagram.sweep:
+        if name != self.diagram.tuning_parameter:
             self._push(SetSweepCommand(self.diagram, name))
 
     def _commit_decay(self) -> None:

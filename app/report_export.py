@@ -61,7 +61,7 @@ def report_pictures(window) -> dict[str, QImage]:
         pictures["diagram"] = image
     result = window.controller.result
     if result is not None and result.report is not None:
-        value = result.tuning.nominal if result.tuning is not None else None
+        value = result.tuning_range.nominal if result.tuning_range is not None else None
         for panel in plot_panels(window):
             pictures[_key(panel)] = panel_picture(panel, result, value)
     return pictures

@@ -25,9 +25,9 @@ from app.panels.common import MINUS, complex_number, math_html, number
 from app.panels.polynomial_panel import HIDDEN_PREFIX, factored
 from app.panels.range_panel import how_lost, range_intervals_html
 from app.panels.routh_panel import entry_display, evaluate_entry, power_label
+from core.algebra.polynomial import to_fmpq
 from core.analysis.report import CAUTION
 from core.model.diagram import Diagram
-from core.algebra.polynomial import to_fmpq
 
 ROLE_NAMES = {"gain": "Gain", "controller": "Controller", "actuator": "Actuator", "plant": "Plant",
               "sensor": "Sensor", "other": "Other"}
@@ -84,7 +84,7 @@ class ReportInputs:
     @property
     def nominal_value(self) -> float | None:
         """The tuning parameter's nominal value as analysed (None without one)."""
-        tuning = self.result.tuning
+        tuning = self.result.tuning_range
         return tuning.nominal if tuning is not None else None
 
 
@@ -162,7 +162,7 @@ def diagram_html(inputs: ReportInputs) -> str:
                f"<span class='math'>{math_html(n.num)}</span>", f"<span class='math'>{math_html(n.den)}</span>"]
               for n in d.nodes.values() if n.kind == "block"]
     params = [[esc(p.name), _num(number(p.nominal)), _num(number(p.minimum)), _num(number(p.maximum)),
-               "yes" if d.sweep == p.name else ""] for p in d.parameters.values()]
+               "yes" if d.tuning_parameter == p.name else ""] for p in d.parameters.values()]
     out = ["<h2 id='diagram'>Block diagram</h2>", _picture(inputs, "diagram", "block diagram")]
     out.append("<h3>Blocks</h3>" + (_grid("blocks", ["Id", "Label", "Role", "Numerator", "Denominator"], blocks)
                                     if blocks else "<p class='muted'>no blocks</p>"))
@@ -346,8 +346,8 @@ def poles_html(inputs: ReportInputs) -> str:
 
 def _reference_step(inputs: ReportInputs):
     """The unit-step response from the reference input at the nominal value, or None."""
-    from core.errors import LoopwrightError
     from core.analysis.time_response import step_response
+    from core.errors import LoopwrightError
     td = getattr(inputs.result, "time_domain", None)
     reference = td.transfers.get(td.reference) if td is not None and td.reference else None
     if reference is None:

@@ -28,8 +28,10 @@ from app.about import app_icon, show_about, show_caution
 from app.bridge import ModelSignals
 from app.canvas.scene import DiagramScene
 from app.canvas.view import ZOOM_STEP, DiagramView
-from app.commands import RenameCommand, push
 from app.controller import AnalysisController
+from app.document.commands import RenameCommand, push
+from app.document.editing import commit_nominals
+from app.document.editor import DiagramEditor
 from app.export import ExportActions
 from app.files import Dialogs, ProjectFiles
 from app.inspector import Inspector
@@ -71,6 +73,7 @@ class MainWindow(QMainWindow):
         self.diagram = Diagram()
         self.signals: ModelSignals | None = None
         self.scene: DiagramScene | None = None
+        self.editor: DiagramEditor | None = None
         self.view: DiagramView | None = None
         self.controller: AnalysisController | None = None
         self._painted = False
@@ -90,7 +93,7 @@ class MainWindow(QMainWindow):
             panel.setAutoFillBackground(True)  # opaque: a panel repainted never repaints its dock and the window
         self._build_status_bar()
         self.set_document(Diagram())
-        self.palette_panel = Palette(self.scene, self)
+        self.palette_panel = Palette(self.editor, self)
         self.setCentralWidget(self.view)
         self.docks: dict[str, QDockWidget] = {}
         self._arranged = False
@@ -205,9 +208,9 @@ class MainWindow(QMainWindow):
         self.act_redo.setShortcut(QKeySequence(Key.Redo))
         self.act_redo.setIcon(self.style().standardIcon(SP.SP_ArrowForward))
         self.act_cut = self._action("Cu&t", self.cut, Key.Cut)
-        self.act_copy = self._action("&Copy", lambda: self.scene.copy_selection(), Key.Copy)
-        self.act_paste = self._action("&Paste", lambda: self.scene.paste(), Key.Paste)
-        self.act_delete = self._action("&Delete", lambda: self.scene.delete_selection(), Key.Delete)
+        self.act_copy = self._action("&Copy", lambda: self.editor.copy_selection(), Key.Copy)
+        self.act_paste = self._action("&Paste", lambda: self.editor.paste(), Key.Paste)
+        self.act_delete = self._action("&Delete", lambda: self.editor.delete_selection(), Key.Delete)
         self.act_select_all = self._action("Select &All", self.select_all, Key.SelectAll)
         for action in (self.act_cut, self.act_copy, self.act_paste, self.act_delete, self.act_select_all):
             # only while the canvas has focus: text fields keep their own editing keys
@@ -306,7 +309,8 @@ class MainWindow(QMainWindow):
         self.diagram = diagram
         self.undo_stack.clear()
         self.signals = ModelSignals(diagram, self)
-        old_scene, self.scene = self.scene, DiagramScene(diagram, self.signals, self.undo_stack, parent=self)
+        old_scene, self.scene = self.scene, DiagramScene(diagram, self.signals, parent=self)
+        self.editor = DiagramEditor(self.scene, self.undo_stack)
         if self.view is None:
             self.view = DiagramView(self.scene, self)
             self.view.setObjectName("canvas")
@@ -317,12 +321,13 @@ class MainWindow(QMainWindow):
         self.scene.selectionChangedTo.connect(self.inspector.show_nodes)
         self.scene.statusHint.connect(lambda text: self.statusBar().showMessage(text, 6000))
         if self.palette_panel is not None:
-            self.palette_panel.set_scene(self.scene)
+            self.palette_panel.set_editor(self.editor)
         self.inspector.set_document(diagram, self.signals, self.undo_stack)
         self.parameters.set_document(diagram, self.signals, self.undo_stack)
         self.requirements_panel.set_document(diagram, self.signals, self.undo_stack)
         self.signals.settingsChanged.connect(self._on_settings_changed)
-        self.controller = AnalysisController(diagram, self.signals, self.undo_stack, self)
+        self.controller = AnalysisController(diagram, self.signals, self)
+        commit_nominals(self.controller, diagram, self.undo_stack)
         for panel in self.analysis_panels:
             attach(panel, self.controller)
         self.controller.resultReady.connect(self._show_verdict)
@@ -355,7 +360,7 @@ class MainWindow(QMainWindow):
         if report is None:
             return result.message or ""
         nominal = report.nominal
-        at = f" at {report.parameter} = {result.tuning.nominal:g}" if result.tuning is not None else ""
+        at = f" at {report.parameter} = {result.tuning_range.nominal:g}" if result.tuning_range is not None else ""
         if nominal is None:
             return "Analysed"
         if nominal.stable:
@@ -389,8 +394,8 @@ class MainWindow(QMainWindow):
     # -- edit actions -----------------------------------------------------------------------------
     def cut(self) -> None:
         """Copy the selection, then delete it (one undo step)."""
-        self.scene.copy_selection()
-        self.scene.delete_selection()
+        self.editor.copy_selection()
+        self.editor.delete_selection()
 
     def select_all(self) -> None:
         """Select every node and wire on the canvas."""

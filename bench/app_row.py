@@ -43,7 +43,7 @@ def edit_latencies(window, count: int) -> tuple[list[float], list[float], list[f
     """(to panels updated, to panels painted, worker analysis time) in seconds per edit."""
     from PySide6.QtCore import QEventLoop, QTimer
 
-    from app.commands import EditNodeCommand
+    from app.document.commands import EditNodeCommand
     controller = window.controller
     node_id = _edited_block(window)
     original = window.diagram.nodes[node_id].num

@@ -41,7 +41,7 @@ def routh_first_column(coeffs: list[sympy.Expr]) -> list[sympy.Expr]:
         prev, above = rows[-1], rows[-2]
         new = [sympy.cancel((prev[0] * above[j + 1] - above[0] * prev[j + 1]) / prev[0])
                for j in range(width - 1)]
-        rows.append(new + [zero])
+        rows.append([*new, zero])
     return [r[0] for r in rows]
 
 

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 from flint import fmpq_mpoly
 
-from core.model.diagram import Diagram, Node, Parameter
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context
+from core.model.diagram import Diagram, Node, Parameter
 
 STAGE_NODES = 6   # e, G, b, H, F, p
 GROUP = 3         # stages inside one outer loop
@@ -117,6 +117,6 @@ def nested_loops_diagram(nodes: int) -> Diagram:
     d.set_parameter(Parameter("K", nominal=1.0, minimum=0.0, maximum=5.0))
     if any(node.num == "T" for node in d.nodes.values()):
         d.set_parameter(Parameter("T", nominal=0.5, minimum=0.0, maximum=2.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     return d

@@ -11,8 +11,8 @@ from __future__ import annotations
 import sys
 import time
 
-from core.model.diagram import Diagram, Node
 from core.graph.reduction import reduce_diagram
+from core.model.diagram import Diagram, Node
 
 
 def nested_chain(stages: int, group: int = 3) -> Diagram:

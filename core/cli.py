@@ -89,9 +89,9 @@ def run(args) -> int:
 
 
 def _check_project_with_values(path: str, at: dict[str, str], decay):
+    from core.algebra.polynomial import to_fmpq
     from core.analysis.report import check_project
     from core.errors import AnalysisError
-    from core.algebra.polynomial import to_fmpq
     from core.io.project_file import load_project
 
     project = load_project(path)
@@ -125,7 +125,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:  # the reader went away (e.g. piped into head): nothing more to say
         sys.stderr.close()
         return 0
-    except Exception as err:  # noqa: BLE001 - a bug of ours: one line, never a traceback
+    except Exception as err:
         print(f"{PROGRAM}: internal error ({type(err).__name__}: {err}); please report it", file=sys.stderr)
         return 70
 

@@ -51,6 +51,7 @@ CATALOGUE: dict[str, str] = {
     "E405": "analysis option invalid",
     "E406": "input does not reach the output",
     "E407": "transfer function improper: no step response",
+    "E408": "a block's denominator is zero at the nominal values",
     # command line
     "E501": "command-line arguments invalid",
 }

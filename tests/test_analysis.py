@@ -61,7 +61,7 @@ def test_cancelled_unstable_pole_is_reported_as_hidden_mode():
 def test_nominal_poles_match_scipy_closed_loop():
     # closed loop of K (s+3) / (s (s+1)(s+2)(s+4)) in unity feedback; scipy.signal is the reference
     d = unity_loop(("K*(s+3)", "1"), ("1", "s*(s+1)*(s+2)*(s+4)"), [Parameter("K", 5.0, 0.0, 50.0)])
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     r = check_project(d)
     num = 5 * np.array([1, 3])
     den = np.polymul(np.polymul([1, 0], [1, 1]), np.polymul([1, 2], [1, 4]))

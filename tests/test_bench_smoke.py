@@ -23,7 +23,7 @@ from core.graph.reduction import reduce_diagram
 def test_nested_loops_diagram_has_the_asked_node_count(nodes):
     d = generators.nested_loops_diagram(nodes)
     assert len(d.nodes) == nodes
-    assert d.sweep == "K" and d.analysis.input == "r" and d.analysis.output == "y"
+    assert d.tuning_parameter == "K" and d.analysis.input == "r" and d.analysis.output == "y"
     assert reduce_diagram(d, "r", "y").characteristic.degrees()[0] > 0
 
 

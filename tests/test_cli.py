@@ -45,9 +45,9 @@ def test_unity_feedback_range_and_endpoints_in_json(capsys):
 
 def test_fail_unstable_gates_on_the_nominal_verdict():
     args = ["check", "--poly", "s^3 + 3s^2 + 2s + K", "--param", "K"]
-    assert main(args + ["--at", "K=10", "--fail-unstable"]) == 1   # K = 10 > 6: unstable
-    assert main(args + ["--at", "K=10"]) == 0                      # analysed, whatever the verdict
-    assert main(args + ["--at", "K=1", "--fail-unstable"]) == 0
+    assert main([*args, "--at", "K=10", "--fail-unstable"]) == 1   # K = 10 > 6: unstable
+    assert main([*args, "--at", "K=10"]) == 0                      # analysed, whatever the verdict
+    assert main([*args, "--at", "K=1", "--fail-unstable"]) == 0
 
 
 @pytest.mark.parametrize("args, code", [

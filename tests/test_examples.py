@@ -109,9 +109,9 @@ def test_hand_written_blocks_match_the_file(stem):
 @pytest.mark.parametrize("stem", sorted(CLAIMS))
 def test_stable_intervals_match_notes(stem):
     d = load_project(EXAMPLES / f"{stem}.loop.json")
-    p = d.parameters[d.sweep]
-    others = {sp.Symbol(q.name): sp.nsimplify(q.nominal) for q in d.parameters.values() if q.name != d.sweep}
-    found = stable_intervals(reference_characteristic(stem), sp.Symbol(d.sweep), others, p.minimum, p.maximum)
+    p = d.parameters[d.tuning_parameter]
+    others = {sp.Symbol(q.name): sp.nsimplify(q.nominal) for q in d.parameters.values() if q.name != d.tuning_parameter}
+    found = stable_intervals(reference_characteristic(stem), sp.Symbol(d.tuning_parameter), others, p.minimum, p.maximum)
     step = (p.maximum - p.minimum) / 1499
     claims = CLAIMS[stem]
     assert len(found) == len(claims), found  # numpy.roots sweep

@@ -9,7 +9,6 @@ from fractions import Fraction
 import pytest
 import sympy
 
-from core.errors import ExpressionError
 from core.algebra.expression import (
     block_transfer,
     expression_parameters,
@@ -19,6 +18,7 @@ from core.algebra.expression import (
     to_mpoly,
 )
 from core.algebra.polynomial import mpoly_context
+from core.errors import ExpressionError
 
 s, K, T, Kp, Ti = sympy.symbols("s K T Kp Ti")
 

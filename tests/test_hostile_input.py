@@ -22,7 +22,14 @@ from hypothesis import strategies as st
 from core.analysis.report import Report, check_project
 from core.cli import main as cli_main
 from core.errors import CATALOGUE, LoopwrightError
-from core.io.project_file import MAX_FILE_BYTES, dumps_project, load_project, loads_project, save_project
+from core.io.project_file import (
+    CURRENT_VERSION,
+    MAX_FILE_BYTES,
+    dumps_project,
+    load_project,
+    loads_project,
+    save_project,
+)
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "resources" / "examples" / "conveyor_speed.loop.json"
@@ -48,12 +55,12 @@ def field_paths() -> list[tuple]:
             paths.append(path)
         elif isinstance(value, dict):
             for k, v in value.items():
-                walk(v, path + (k,))
+                walk(v, (*path, k))
         elif isinstance(value, list):
             for i, v in enumerate(value):
-                walk(v, path + (i,))
+                walk(v, (*path, i))
     walk(BASE, ())
-    return paths + [("view",), ("view", "zoom")]
+    return [*paths, ("view",), ("view", "zoom")]
 
 
 def with_value(data, path, value):
@@ -94,7 +101,7 @@ def test_payloads_in_every_string_field(path, tmp_path):
         start = time.perf_counter()
         try:
             report = load_and_check(json.dumps(with_value(BASE, path, text)))
-        except Exception as err:  # noqa: BLE001 - the point: report anything that is not ours
+        except Exception as err:
             pytest.fail(f"{path} = {text[:40]!r}: {type(err).__name__}: {err}")
         assert time.perf_counter() - start < 5.0
         if report is not None:
@@ -128,7 +135,7 @@ HOSTILE_FILES = {
     "infinity": (json.dumps(BASE).replace('"max": 20', '"max": Infinity').encode(), "E201"),
     "number_as_text": (json.dumps(with_value(BASE, ("parameters", 0, "nominal"), "2")).encode(), "E205"),
     "version_as_text": (json.dumps(with_value(BASE, ("version",), "2")).encode(), "E205"),
-    "newer_version": (json.dumps(with_value(BASE, ("version",), 3)).encode(), "E203"),
+    "newer_version": (json.dumps(with_value(BASE, ("version",), CURRENT_VERSION + 1)).encode(), "E203"),
     "duplicate_key": (b'{"format": "loopwright-project", "version": 2, "version": 1, "nodes": []}', "E201"),
     "lone_surrogate": (json.dumps(with_value(BASE, ("nodes", 0, "label"), "\ud800")).encode(), "E205"),
     "latin1": ("{\"name\": \"caf\u00e9\"}".encode("latin-1"), "E201"),
@@ -140,7 +147,7 @@ HOSTILE_FILES = {
     "newline_in_id": (json.dumps(with_value(BASE, ("nodes", 0, "id"), "r\n")).encode(), "E205"),
     "control_in_id": (json.dumps(with_value(BASE, ("nodes", 0, "id"), "r\x1b[2J")).encode(), "E205"),
     "too_big": (b" " * (MAX_FILE_BYTES + 1), "E208"),
-    "code_in_den": (json.dumps(with_value(BASE, ("nodes", 4, "den"), "__import__('os')")).encode(), "E1"),
+    "code_in_den": (json.dumps(with_value(BASE, ("nodes", 4, "denominator"), "__import__('os')")).encode(), "E1"),
 }
 
 
@@ -211,20 +218,19 @@ def all_paths(value, path=()):
     yield path
     if isinstance(value, dict):
         for k, v in value.items():
-            yield from all_paths(v, path + (k,))
+            yield from all_paths(v, (*path, k))
     elif isinstance(value, list):
         for i, v in enumerate(value):
-            yield from all_paths(v, path + (i,))
+            yield from all_paths(v, (*path, i))
 
 
 IDS = [n["id"] for n in BASE["nodes"]]
 json_leaves = (st.none() | st.booleans() | st.integers(-10**30, 10**30)
                | st.floats(allow_nan=False, allow_infinity=False) | st.text(max_size=12)
-               | st.sampled_from(IDS + ["K", "s", "s^2 + K s + 1", "1/0", "(s+1)^60", "+-+-", "block", "sum",
-                                        "input", "output", "branch", "plant", "sigma", "settling", ""]))
+               | st.sampled_from([*IDS, "K", "s", "s^2 + K s + 1", "1/0", "(s+1)^60", "+-+-", "block", "sum", "input", "output", "branch", "plant", "sigma", "settling", ""]))
 json_values = st.recursive(json_leaves, lambda inner: st.lists(inner, max_size=3)
                            | st.dictionaries(st.sampled_from(["id", "kind", "x", "from", "to", "port", "name",
-                                                              "num", "den", "zz"]), inner, max_size=3),
+                                                              "num", "den", "numerator", "denominator", "inputs", "zz"]), inner, max_size=3),
                            max_leaves=6)
 
 

@@ -28,7 +28,7 @@ from core.model.diagram import (
 
 def snapshot(d: Diagram):
     return (d.name, copy.deepcopy(list(d.nodes.items())), copy.deepcopy(d.wires), copy.deepcopy(d.parameters),
-            d.sweep, copy.deepcopy(d.analysis))
+            d.tuning_parameter, copy.deepcopy(d.analysis))
 
 
 @pytest.fixture
@@ -251,17 +251,17 @@ def test_set_parameter_refusals(loop, p):
     refused(loop, "E304", loop.set_parameter, p)
 
 
-def test_sweep_and_remove_parameter(loop):
-    assert loop.set_sweep("K") is None and loop.sweep == "K"
-    assert loop.set_sweep(None) == "K"
-    loop.set_sweep("K")
-    refused(loop, "E304", loop.set_sweep, "L")
-    refused(loop, "E304", loop.set_sweep, ["K"])
+def test_tuning_parameter_and_remove_parameter(loop):
+    assert loop.set_tuning_parameter("K") is None and loop.tuning_parameter == "K"
+    assert loop.set_tuning_parameter(None) == "K"
+    loop.set_tuning_parameter("K")
+    refused(loop, "E304", loop.set_tuning_parameter, "L")
+    refused(loop, "E304", loop.set_tuning_parameter, ["K"])
     loop.events.clear()
     assert loop.remove_parameter("K") == Parameter("K", 2.0, 0.0, 20.0)
-    assert loop.sweep is None and "K" not in loop.parameters
+    assert loop.tuning_parameter is None and "K" not in loop.parameters
     # Added event: clearing the tuning choice is announced too.
-    assert loop.events == [("parameters_changed", "K"), ("settings_changed", "sweep")]
+    assert loop.events == [("parameters_changed", "K"), ("settings_changed", "tuning_parameter")]
     refused(loop, "E304", loop.remove_parameter, "K")
 
 

@@ -16,8 +16,8 @@ import pytest
 import sympy
 from flint import fmpq
 
-from core.analysis.report import check_polynomial
 from core.analysis.poles import certified_roots, path_sensitivity
+from core.analysis.report import check_polynomial
 from core.analysis.routh import routh_counts
 
 s = sympy.symbols("s")

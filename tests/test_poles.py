@@ -2,8 +2,8 @@
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from core.analysis.poles import Pole, certified_roots, pole_paths
 from core.algebra.polynomial import ParametricPolynomial, fmpq_poly
+from core.analysis.poles import Pole, certified_roots, pole_paths
 
 
 def matched_error(a, b):

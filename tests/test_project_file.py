@@ -16,9 +16,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from core.io import project_file as pf
 from core.errors import LoopwrightError, ProjectFileError
-from core.model.diagram import Diagram, Parameter
+from core.io import project_file as pf
 from core.io.project_file import (
     CURRENT_VERSION,
     MIGRATIONS,
@@ -26,10 +25,12 @@ from core.io.project_file import (
     file_fingerprint,
     load_project,
     loads_project,
+    migrate_1_to_2,
     project_from_dict,
     project_to_dict,
     save_project,
 )
+from core.model.diagram import Diagram, Parameter
 
 EXAMPLES = sorted((Path(__file__).resolve().parent.parent / "resources" / "examples").glob("*.loop.json"))
 
@@ -69,7 +70,7 @@ def test_issue_json_loads_as_written():
     assert list(d.nodes) == ["r", "e", "C", "P", "b", "y"]
     assert [w.key for w in d.wires] == ["r->e:0", "e->C:0", "C->P:0", "P->b:0", "b->y:0", "b->e:1"]
     assert d.parameters["K"] == Parameter("K", 2.0, 0.0, 20.0)
-    assert (d.sweep, d.analysis.input, d.analysis.output) == ("K", "r", "y")
+    assert (d.tuning_parameter, d.analysis.input, d.analysis.output) == ("K", "r", "y")
     assert (d.analysis.decay_mode, d.analysis.decay_value) == ("sigma", 0.0)
     assert d.node("P").den == "s*(s+1)*(s+2)" and d.node("e").signs == "+-"
 
@@ -94,7 +95,7 @@ def test_version_1_with_explicit_mode_keeps_it():
 def test_migration_table_is_chained_to_current_version():
     version, data = 1, {"version": 1, "analysis": {"decay": 1}}
     while version < CURRENT_VERSION:
-        data = MIGRATIONS[version](data)
+        data = MIGRATIONS[version](data, "t.loop.json")
         assert data["version"] == version + 1
         version = data["version"]
 
@@ -535,6 +536,7 @@ json_values = st.recursive(
     max_leaves=25)
 
 field_names = st.sampled_from(["id", "kind", "x", "y", "label", "flipped", "role", "num", "den", "signs",
+                               "numerator", "denominator", "inputs", "polarity", "tuning_parameter",
                                "from", "to", "port", "bends", "name", "nominal", "min", "max", "input",
                                "output", "decay", "decay_mode", "decay_value"])
 
@@ -564,3 +566,49 @@ def test_random_field_edits_raise_only_project_errors(index, section, field, val
         project_from_dict(data)
     except LoopwrightError as exc:
         assert exc.code.startswith(("E1", "E2")), str(exc)
+
+
+# -- version 3: tuning_parameter, numerator/denominator, one polarity entry per junction input ----
+def version_3_dict() -> dict:
+    return project_to_dict(project_from_dict(issue_dict()))
+
+
+def test_version_2_file_reads_as_version_3_with_the_same_model():
+    v2 = migrate_1_to_2(issue_dict(), "t.loop.json")
+    v3 = version_3_dict()
+    assert v3["tuning_parameter"] == "K" and "sweep" not in v3
+    assert v3["nodes"][1]["inputs"] == [{"polarity": "add"}, {"polarity": "subtract"}]
+    assert v3["nodes"][3]["denominator"] == "s*(s+1)*(s+2)" and "den" not in v3["nodes"][3]
+    assert project_to_dict(project_from_dict(v2)) == v3
+    assert project_from_dict(v3).node("e").signs == "+-"
+
+
+@pytest.mark.parametrize("inputs", [[{"polarity": "add"}], [{"polarity": "plus"}, {"polarity": "add"}],
+                                    [{"polarity": "add"}, {"polarity": 1}], [{"polarity": "add"}, "subtract"],
+                                    [{"polarity": "add", "side": "top"}, {"polarity": "add"}], "+-", []])
+def test_bad_junction_inputs_name_the_node(inputs):
+    data = version_3_dict()
+    data["nodes"][1]["inputs"] = inputs
+    expect("E205", data, "node e")
+
+
+@pytest.mark.parametrize("old, new", [("num", "numerator"), ("den", "denominator"), ("signs", "inputs")])
+def test_old_field_name_in_a_version_3_file_says_the_new_one(old, new):
+    data = version_3_dict()
+    node = data["nodes"][1 if old == "signs" else 3]
+    node[old] = node.pop(new) if old != "signs" else "+-"
+    node.pop(new, None)
+    error = expect("E205", data, "node")
+    assert f"'{new}'" in error.message
+
+
+def test_junction_input_without_polarity_is_a_missing_field():
+    data = version_3_dict()
+    data["nodes"][1]["inputs"] = [{"polarity": "add"}, {}]
+    expect("E204", data, "node e, input 2")
+
+
+def test_old_tuning_key_in_a_version_3_file_says_the_new_one():
+    data = version_3_dict()
+    data["sweep"] = data.pop("tuning_parameter")
+    assert "'tuning_parameter'" in expect("E205", data).message

@@ -13,12 +13,12 @@ import sympy
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from core.algebra.polynomial import ParametricPolynomial
 from core.errors import AnalysisError
 from core.graph.mason import mason_gain
-from core.model.diagram import Diagram, Node
-from core.algebra.polynomial import ParametricPolynomial
 from core.graph.reduction import block_polynomials, diagram_parameters, reduce_diagram
 from core.graph.signal_graph import build_signal_graph, simple_cycles
+from core.model.diagram import Diagram, Node
 
 s, K, T = sympy.symbols("s K T")
 
@@ -272,7 +272,7 @@ def random_diagrams(draw):
     nodes: list[tuple] = [("r", "input")]
     for i in range(draw(st.integers(1, 4))):
         deg = draw(st.integers(0, 2))
-        den = [draw(st.integers(1, 3))] + draw(st.lists(st.integers(-3, 3), min_size=deg, max_size=deg))
+        den = [draw(st.integers(1, 3)), *draw(st.lists(st.integers(-3, 3), min_size=deg, max_size=deg))]
         num = draw(st.lists(st.integers(-3, 3), min_size=1, max_size=deg + 1))
         factor = "K*" if draw(st.booleans()) else ""
         nodes.append((f"B{i}", "block", factor + "(" + poly_text(num) + ")", poly_text(den)))
@@ -286,7 +286,7 @@ def random_diagrams(draw):
     for spec in nodes:
         ports = len(spec[2]) if spec[1] == "sum" else 0 if spec[1] == "input" else 1
         for port in range(ports):
-            source = draw(st.sampled_from(senders + [None]))
+            source = draw(st.sampled_from([*senders, None]))
             if source is not None and source != spec[0]:
                 wires.append((source, spec[0], port))
     d = make(nodes, wires)
@@ -305,7 +305,7 @@ def brute_force_loops(graph) -> set[tuple[str, ...]]:
             if w == path[0]:
                 out.add(tuple(path))
             elif w not in path and order.index(w) > order.index(path[0]):
-                extend(path + [w])
+                extend([*path, w])
 
     for v in order:
         extend([v])

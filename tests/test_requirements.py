@@ -7,9 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from core.analysis.report import check_polynomial
-from core.errors import ModelError
 from core.algebra.polynomial import to_fmpq
+from core.analysis.report import check_polynomial
 from core.analysis.requirements import (
     Requirements,
     evaluate,
@@ -19,6 +18,7 @@ from core.analysis.requirements import (
 )
 from core.analysis.stable_range import decay_range
 from core.analysis.time_response import step_response, transfer_from_text
+from core.errors import ModelError
 
 CUBIC = "s^3 + 3s^2 + 2s + K"  # stable for 0 < K < 6 (Routh; from memory, the classic example)
 
@@ -173,8 +173,8 @@ def test_no_tuning_parameter_gives_no_range():
 
 def test_requirements_round_trip_through_the_project_file():
     from core.errors import ProjectFileError
-    from core.model.diagram import Diagram, Node
     from core.io.project_file import dumps_project, loads_project, project_to_dict
+    from core.model.diagram import Diagram, Node
     d = Diagram("requirements round trip")
     d.add_node(Node("r", "input"))
     assert "requirements" not in project_to_dict(d)  # optional: left out when none is set

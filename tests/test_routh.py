@@ -9,7 +9,14 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from core.algebra.polynomial import ParametricPolynomial
-from core.analysis.routh import RationalFunction, _build, imaginary_axis_roots, is_hurwitz, routh_array, routh_counts
+from core.analysis.routh import (
+    RationalFunction,
+    _build,
+    imaginary_axis_roots,
+    is_hurwitz,
+    routh_array,
+    routh_counts,
+)
 
 K = fmpq_poly([0, 1])
 
@@ -205,7 +212,7 @@ def test_axis_roots_counted_exactly(c, omegas, zeros, real_pair):
     arr_agrees = len(counts.sign_changes) == counts.rhp
     # the array's own sign count is exact unless the ε method meets axis roots (then a note says so)
     uses_eps = any(s.kind == "zero_first" for s in counts.array.special)
-    assert arr_agrees or (uses_eps and counts.jw) and any("do not give" in n for n in counts.special)
+    assert arr_agrees or ((uses_eps and counts.jw) and any("do not give" in n for n in counts.special))
 
 
 def test_is_hurwitz_degree_drop_and_zero():

@@ -10,9 +10,9 @@ from flint import fmpq, fmpq_poly
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.errors import AnalysisError
 from core.algebra.polynomial import ParametricPolynomial
 from core.analysis.stable_range import decay_range, margins, stable_range
+from core.errors import AnalysisError
 
 K = fmpq_poly([0, 1])
 

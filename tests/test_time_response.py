@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from core.analysis.time_response import step_metrics, step_response, transfer_from_diagram, transfer_from_text
 from core.errors import AnalysisError
 from core.model.diagram import Diagram, Node, Parameter
-from core.analysis.time_response import step_metrics, step_response, transfer_from_diagram, transfer_from_text
 
 
 def second_order(zeta: float, wn: float):
@@ -103,7 +103,7 @@ def test_disturbance_input_error_is_its_final_value():
                        ("P", "b", 0), ("b", "y", 0), ("b", "e", 1)):
         d.connect(a, b, port)
     d.set_parameter(Parameter("K", 2.0, 0.0, 10.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     dist = transfer_from_diagram(d, "d")
     assert not dist.reference

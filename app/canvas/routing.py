@@ -130,7 +130,7 @@ def drag_segment(points: list[Point], index: int, offset: float) -> list[Point]:
         tail = [stub, b]
         b = stub
     middle = [shifted(a), shifted(b)]
-    return simplify(head[:-1] + [head[-1], middle[0], middle[1], tail[0]] + tail[1:])
+    return simplify([*head[:-1], head[-1], middle[0], middle[1], tail[0], *tail[1:]])
 
 
 def interior(points: list[Point]) -> list[Point]:

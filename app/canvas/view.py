@@ -1,12 +1,11 @@
 """The canvas view: zoom (Ctrl+wheel, +/- keys), pan (middle mouse or Space+drag), fit all."""
 from __future__ import annotations
 
-from PySide6.QtCore import QEvent, QRectF, Qt
+from PySide6.QtCore import QEvent, QPoint, QRectF, Qt
 from PySide6.QtGui import QPainter
 from PySide6.QtWidgets import QGraphicsView
 
 from ..theme import current_theme
-from .gestures import PanGesture
 from .scene import DiagramScene
 
 MIN_ZOOM, MAX_ZOOM, ZOOM_STEP = 0.2, 4.0, 1.2
@@ -115,3 +114,23 @@ class DiagramView(QGraphicsView):
             event.accept()
             return
         super().mouseReleaseEvent(event)
+
+
+class PanGesture:
+    """Middle-button or Space+drag: scroll the view with the mouse."""
+
+    def __init__(self, view: QGraphicsView, pos: QPoint):
+        self.view, self.last = view, QPoint(pos)
+
+    def move(self, pos: QPoint) -> None:
+        d = pos - self.last
+        self.last = QPoint(pos)
+        h, v = self.view.horizontalScrollBar(), self.view.verticalScrollBar()
+        h.setValue(h.value() - d.x())
+        v.setValue(v.value() - d.y())
+
+    def release(self, pos: QPoint) -> None:
+        self.move(pos)
+
+    def cancel(self) -> None:
+        pass

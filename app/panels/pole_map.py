@@ -174,7 +174,7 @@ class PoleMap(QWidget):
         self._result = result
         self.message.show_message(result.message or result.float_warning)
         report = result.report
-        tuning = result.tuning
+        tuning = result.tuning_range
         if tuning is not None:
             self._value = tuning.nominal
         self._set_controls_enabled(tuning is not None and report is not None)
@@ -232,7 +232,7 @@ class PoleMap(QWidget):
         zeros = result.zeros_at(value) if result.zero_table.size else self._nominal_zeros()
         self.zeros.setData(zeros.real, zeros.imag)
         self.caption.setText(self._caption(poles, value))
-        if value is not None and result.tuning is not None:
+        if value is not None and result.tuning_range is not None:
             self._updating = True
             self.slider.setValue(self._slider_position(value))
             self.spin.setValue(value)

@@ -118,8 +118,8 @@ class PolynomialPanel(QWidget):
     def show_result(self, result) -> None:
         """Show a new AnalysisResult (its error message when it has no Report)."""
         self._result = result
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         self.message.show_message(result.message)
         text = self.html()
         if text != self._shown_html:  # laying out rich text is slow; many edits leave it as it was

@@ -8,9 +8,7 @@ import html
 import math
 import re
 from dataclasses import dataclass, field
-from itertools import pairwise
 
-from flint import fmpq_poly
 from PySide6.QtCore import QPointF, QRectF, QSize, Qt
 from PySide6.QtGui import QColor, QGuiApplication, QPainter, QPainterPath, QPalette, QPen
 from PySide6.QtWidgets import (
@@ -34,10 +32,7 @@ from app.panels.common import (
     number,
     number_css,
 )
-from app.panels.routh_values import FloatEntries
 from app.theme import figure_font, label_font
-from core.algebra.polynomial import to_fmpq
-from core.analysis.routh import RouthArray, is_hurwitz, routh_counts
 
 HOW_LOST = {
     "origin": "a real pole passes through s = 0",
@@ -249,24 +244,6 @@ def _interval_plain(iv, exact) -> str:
     return f"({ends[0]}, {ends[1]})"
 
 
-def first_column_tables(arr: RouthArray) -> FloatEntries | None:
-    """Float tables of the Routh array's first column in the tuning parameter, when the array is
-    the plain one (no special rows, no ε): only then do its signs at a value count the roots there."""
-    plain = arr.parameter is not None and not arr.uses_eps and not arr.special
-    if not plain or not all(isinstance(e.num, fmpq_poly) for e in arr.first_column):
-        return None
-    return FloatEntries([[e] for e in arr.first_column])
-
-
-def first_column_signs(tables: FloatEntries | None, value: float) -> list[int] | None:
-    """The first column's signs at ``value`` when the float tables prove every one of them nonzero
-    (so the array at that value is the symbolic one evaluated, with no zero to treat); else None."""
-    if tables is None:
-        return None
-    signs = [row[0] for row in tables.at(value)]
-    return None if any(s is None for s in signs) else [s[1] for s in signs]
-
-
 class RangePanel(QWidget):
     """Shows the stable range of the tuning parameter and the verdict at the current value."""
 
@@ -276,7 +253,6 @@ class RangePanel(QWidget):
         super().__init__(parent)
         self._result = None
         self._value: float | None = None
-        self._first_column: FloatEntries | None = None
         self.message = MessageLabel(self)
         self.line = NumberLine(self)
         self.verdict = QLabel(self)
@@ -313,10 +289,9 @@ class RangePanel(QWidget):
         """Show a new AnalysisResult (its error message when it has no Report)."""
         self._result = result
         self.message.show_message(result.message)
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         report = result.report
-        self._first_column = first_column_tables(report.routh) if report is not None else None
         has_range = report is not None and report.stable_range is not None
         self.line.setVisible(has_range)
         self.copy_button.setEnabled(has_range)
@@ -330,7 +305,7 @@ class RangePanel(QWidget):
         else:
             rng = report.stable_range.to_dict()
             dec = report.decay.to_dict() if report.decay is not None else None
-            tuning = result.tuning
+            tuning = result.tuning_range
             ends = [e["value"] for e in rng["endpoints"]]
             if dec and dec["endpoints"]:
                 ends += [e["value"] for e in dec["endpoints"]]
@@ -461,21 +436,10 @@ class RangePanel(QWidget):
             if nominal is None:
                 return ""
             return self._verdict_words("", nominal.stable, nominal.rhp, nominal.jw, None)
-        v = to_fmpq(self._value)
-        decay = None
-        if report.decay is not None and report.decay.range is not None:
-            decay = report.decay.range.contains(v)
+        verdict = self._result.verdict_at(self._value)
         where = f"At {report.parameter} = <span class='num'>{number(self._value)}</span>: "
-        signs = first_column_signs(self._first_column, self._value)
-        if signs is not None:  # Routh: as many right-half-plane roots as sign changes, none on the axis
-            rhp = sum(a != b for a, b in pairwise(signs))
-            return self._verdict_words(where, rhp == 0, rhp, 0, decay)
-        coeffs = report.analysed.at(v)
-        dropped = len(coeffs) - 1 < report.analysed.degree
-        stable = is_hurwitz(coeffs, report.analysed.degree)  # fast exact test; counts only when unstable
-        counts = routh_counts(coeffs) if not stable and len(coeffs) > 1 else None
-        return self._verdict_words(where, stable, counts.rhp if counts else 0, counts.jw if counts else 0,
-                                   decay, dropped)
+        return self._verdict_words(where, verdict.stable, verdict.rhp, verdict.jw, verdict.decay_met,
+                                   verdict.order_drops)
 
     @staticmethod
     def _verdict_words(where: str, stable: bool, rhp: int, jw: int, decay: bool | None,

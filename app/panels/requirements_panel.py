@@ -14,12 +14,12 @@ import math
 from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import QComboBox, QGridLayout, QLabel, QLineEdit, QVBoxLayout, QWidget
 
-from app.commands import ModelCommand, SetAnalysisCommand, push
+from app.document.commands import ModelCommand, SetAnalysisCommand, push
 from app.panels.common import MINUS, MessageLabel, Readout, colour, number, number_css
 from app.theme import figure_font, label_font
+from core.analysis.requirements import Verdict, evaluate, intervals_text
 from core.errors import LoopwrightError
 from core.model.diagram import Diagram
-from core.analysis.requirements import Verdict, evaluate, intervals_text
 from core.model.requirements import Requirements
 
 DECAY_LABELS = {"sigma": ("Decay rate σ ≥", "1/s"), "half_time": ("Time to half amplitude ≤", "s"),
@@ -242,8 +242,8 @@ class RequirementsPanel(QWidget):
     def show_result(self, result) -> None:
         """Take a new AnalysisResult: the joint range at once, the verdicts at the current value."""
         self._result = result
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         self.error.show_message(result.message)
         self.range_text.setText(self.range_html())
         self._update_verdicts()

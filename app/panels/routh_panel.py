@@ -33,8 +33,8 @@ from app.panels.common import MINUS, MessageLabel, colour, is_palette_change, nu
 from app.panels.routh_values import FloatEntries
 from app.theme import figure_font
 from core.algebra.polynomial import to_fmpq
-from core.present.report_text import routh_table
 from core.analysis.routh import RationalFunction, RouthArray
+from core.present.report_text import routh_table
 
 ENTRY_CHARS = 24  # symbolic entries wider than this wrap within their cell (full text in the tooltip)
 SUPERSCRIPTS = str.maketrans("0123456789", "⁰¹²³⁴⁵⁶⁷⁸⁹")
@@ -225,8 +225,8 @@ class RouthPanel(QWidget):
         """Show a new AnalysisResult (its error message when it has no Report)."""
         self._result = result
         self.message.show_message(result.message)
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         self._build()
 
     def changeEvent(self, event) -> None:

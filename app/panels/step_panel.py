@@ -17,8 +17,8 @@ from PySide6.QtWidgets import QComboBox, QGridLayout, QHBoxLayout, QLabel, QVBox
 
 from app.panels.common import MessageLabel, Readout, colour, number
 from app.theme import figure_font, label_font
-from core.errors import LoopwrightError
 from core.analysis.time_response import UNSTABLE_NOTE, StepResponse
+from core.errors import LoopwrightError
 
 THROTTLE_MS = 100
 
@@ -138,8 +138,8 @@ class StepPanel(QWidget):
     def show_result(self, result) -> None:
         """Take a new AnalysisResult: refill the input choice and recompute at the current value."""
         self._result = result
-        if result.tuning is not None:
-            self._value = result.tuning.nominal
+        if result.tuning_range is not None:
+            self._value = result.tuning_range.nominal
         td = getattr(result, "time_domain", None)
         previous = self.inputs.currentData()
         self.inputs.blockSignals(True)

@@ -54,8 +54,8 @@ from functools import lru_cache
 import sympy
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
 
-from core.errors import ExpressionError
 from core.algebra.polynomial import S, mpoly_context
+from core.errors import ExpressionError
 
 __all__ = [
     "LAPLACE",

@@ -13,15 +13,22 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from flint import fmpq
+from flint import arb, ctx, fmpq, fmpq_poly
 
-from core.errors import AnalysisError
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
-from core.model.diagram import Diagram
-from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, primitive_scale, to_fmpq
-from core.analysis.routh import RouthArray, routh_array, routh_counts
-from core.analysis.stable_range import StableRange, decay_range, margins, stable_range
+from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
+from core.analysis.routh import RouthArray, is_hurwitz, routh_array, routh_counts
+from core.analysis.stable_range import (
+    StableRange,
+    decay_range,
+    margins,
+    real_values,
+    resultant_in_s,
+    stable_range,
+)
+from core.errors import AnalysisError
+from core.model.diagram import Diagram
 
 CAUTION = ("A linear model is not a safety case. Before power is applied, check actuator saturation, "
            "time delays, sampling, sensor noise and hardware limits; defer to the applicable machinery "
@@ -144,8 +151,15 @@ class Report:
         }
 
 
+HALF_TIME_BITS = 128  # ln 2 is bounded to this many bits for the decay range of a time to half
+
+
 def decay_sigma(mode: str, value: float) -> tuple[fmpq, str]:
-    """Exact sigma (1/s) from a decay requirement, and the note that says how it was read.
+    """Rational sigma (1/s) from a decay requirement, and the note that says how it was read.
+
+    Exact for "sigma" and "settling". For "half_time" sigma = ln 2 / T is transcendental: this is
+    an upper bound within 2^-128 relative (certified), so a range computed with it only lists values
+    that meet the requirement; the nominal verdict is decided exactly by :func:`_meets_decay`.
 
     >>> decay_sigma("settling", 2.0)[0]
     2
@@ -162,8 +176,37 @@ def decay_sigma(mode: str, value: float) -> tuple[fmpq, str]:
         return to_fmpq(value), DECAY_NOTES[mode]
     if mode == "settling":
         return to_fmpq(4) / to_fmpq(value), DECAY_NOTES[mode]
-    sigma = math.log(2) / value  # irrational: use its 15-digit decimal, said in the note
-    return to_fmpq(float(f"{sigma:.15g}")), DECAY_NOTES[mode] + " (ln 2 rounded to 15 digits)"
+    return _half_time_sigma(to_fmpq(value), HALF_TIME_BITS)[1], DECAY_NOTES[mode] + (
+        f" (ln 2 bounded above to {HALF_TIME_BITS} bits: every value listed meets the requirement)")
+
+
+def _half_time_sigma(half_time: fmpq, bits: int) -> tuple[fmpq, fmpq]:
+    """Rational bounds lo < ln 2 / T < hi, certified (arb), about 2^-bits relative apart."""
+    with ctx.workprec(bits + 16):
+        ln2 = arb(2).log()
+        mid, rad = _fmpq_of_arb(ln2.mid()), _fmpq_of_arb(ln2.rad())
+    return (mid - rad) / half_time, (mid + rad) / half_time
+
+
+def _fmpq_of_arb(x: arb) -> fmpq:
+    man, exp = x.man_exp()
+    return fmpq(int(man)) * fmpq(2) ** int(exp) if exp >= 0 else fmpq(int(man), 2 ** int(-exp))
+
+
+def _meets_decay(poly: ParametricPolynomial, mode: str, value: float, sigma: fmpq, nominal) -> bool:
+    """Exact: every root at the nominal value lies left of Re s = -sigma (sigma = ln 2 / T for a
+    time to half: bracketed ever tighter until both bounds agree; they do, since the real part of
+    an algebraic root never equals the transcendental -ln 2 / T)."""
+    if mode != "half_time":
+        return _shifted_stable(poly, sigma, nominal)
+    bits = 64
+    while True:
+        lo, hi = _half_time_sigma(to_fmpq(value), bits)
+        if _shifted_stable(poly, hi, nominal):
+            return True
+        if not _shifted_stable(poly, lo, nominal):
+            return False
+        bits *= 2
 
 
 def _exact_values(values: Mapping[str, object] | None) -> dict[str, fmpq]:
@@ -197,7 +240,9 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
     poly_mpoly = poly_mpoly * primitive_scale(poly_mpoly)  # integer coefficients, same roots and signs
     analysed = ParametricPolynomial.from_mpoly(poly_mpoly, parameter, values)
     if analysed.degree < 0:
-        raise AnalysisError("E403", "the characteristic polynomial is identically zero", where="polynomial")
+        fixed = {k: v for k, v in values.items() if k != parameter}
+        at = f" at {values_text(fixed)}" if fixed and not poly_mpoly.is_zero() else ""
+        raise AnalysisError("E403", f"the characteristic polynomial is identically zero{at}", where="polynomial")
     warnings: list[str] = []
     routh = routh_array(analysed)
     rng = stable_range(analysed) if parameter else None
@@ -210,10 +255,7 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
     dec = None
     if sigma > 0:
         drange = decay_range(analysed, sigma) if parameter else None
-        ok = None
-        if nominal is not None:
-            ok = bool(nominal.poles) and all(p.re < -float(sigma) for p in nominal.poles) \
-                and _shifted_stable(analysed, sigma, nominal_value)
+        ok = None if nominal is None else _meets_decay(analysed, mode, dvalue, sigma, nominal_value)
         dec = Decay(float(sigma), mode, note, drange, ok)
     marg = margins(rng, nominal_value) if (rng is not None and nominal_value is not None) else None
     return Report(polynomial=shown or mpoly_text(poly_mpoly), analysed=analysed, parameter=parameter,
@@ -222,13 +264,14 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
 
 
 def _shifted_stable(poly: ParametricPolynomial, sigma: fmpq, value) -> bool:
-    """Exact check that every root lies left of -sigma at one value."""
-    counts = routh_counts(poly.shifted(sigma).at(value))
-    return counts.rhp == 0 and counts.jw == 0 and len(poly.at(value)) - 1 == poly.degree
+    """Exact check that every root lies left of -sigma at one value (the order must not drop)."""
+    return is_hurwitz(poly.shifted(sigma).at(value), poly.degree)
 
 
 def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warnings: list[str]) -> Nominal:
     coeffs = poly.at(value)
+    if coeffs == [0]:
+        return _degenerate_nominal(poly, value, values, warnings)
     counts = routh_counts(coeffs)
     poles = certified_roots(coeffs)
     notes = list(counts.special)
@@ -243,6 +286,18 @@ def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warn
     return Nominal(values={k: float(v) for k, v in values.items()}, stable=stable, rhp=counts.rhp,
                    jw=counts.jw, lhp=counts.lhp, poles=poles, sign_changes=list(counts.sign_changes),
                    notes=notes)
+
+
+def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq],
+                        warnings: list[str]) -> Nominal:
+    """The nominal loop when the characteristic polynomial vanishes identically there: no verdict
+    of stability can hold (every s solves the loop equations), so it is reported as not stable."""
+    where = f"{poly.parameter} = {value}" if poly.parameter else "the nominal values"
+    note = (f"the loop is degenerate at {where}: the characteristic polynomial vanishes identically "
+            "there, so the loop equations do not determine the signals (not stable)")
+    warnings.append(note)
+    return Nominal(values={k: float(v) for k, v in values.items()}, stable=False, rhp=0, jw=0, lhp=0,
+                   poles=[], sign_changes=[], notes=[note])
 
 
 def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, object] | None = None,
@@ -262,9 +317,13 @@ def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, o
 
 
 def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None) -> Report:
-    """Analyse a project (a Diagram or a path to a project file)."""
-    from core.io.project_file import load_project
+    """Analyse a project (a Diagram or a path to a project file).
+
+    Raises E406 when no wire path leads from the input to the output, E408 when a block's
+    denominator vanishes identically at the nominal values.
+    """
     from core.graph.reduction import reduce_diagram
+    from core.io.project_file import load_project
 
     source = ""
     if not isinstance(project, Diagram):
@@ -272,12 +331,16 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         project = load_project(project)
     settings = project.analysis
     red = reduce_diagram(project, settings.input, settings.output)
+    if not red.connected:
+        raise AnalysisError("E406", f"no wire path leads from the input {settings.input} to the output "
+                            f"{settings.output}: connect them to analyse the loop", where="analysis")
     values = _exact_values({p.name: p.nominal for p in project.parameters.values()})
-    parameter = project.sweep
+    parameter = project.tuning_parameter
     used = red.characteristic.context().names()[1:]
     if parameter is not None and parameter not in used:
         raise AnalysisError("E405", f"the tuning parameter '{parameter}' appears in no block",
                             where=f"parameter {parameter}")
+    _check_block_denominators(project, values)
     report = analyse_polynomial(red.characteristic, parameter,
                                 {k: v for k, v in values.items() if k in used},
                                 decay or (settings.decay_mode, settings.decay_value))
@@ -291,9 +354,11 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
             "num_full": mpoly_text(red.closed_num * full_scale), "den_full": mpoly_text(red.closed_den * full_scale)}
         report.closed_num = red.closed_num_reduced * scale
         all_values = {k: v for k, v in values.items() if k in used}
-        if (parameter is None or parameter in all_values) and not red.closed_num.is_zero():
-            report.hidden_modes = _hidden_modes(red, all_values)
-            report.zeros = _roots_at(red.closed_num_reduced, all_values)
+        if not red.closed_num.is_zero():
+            if parameter is None or parameter in all_values:
+                report.hidden_modes, report.zeros = _nominal_cancellation(project, red, all_values)
+            if parameter is not None:
+                report.warnings += _cancellation_values(red, parameter, all_values, report.stable_range)
         for mode in report.hidden_modes:
             where = f" (from {', '.join(mode.blocks)})" if mode.blocks else ""
             state = "UNSTABLE" if mode.unstable else "stable"
@@ -302,17 +367,75 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
     return report
 
 
-def _roots_at(poly, values: Mapping[str, fmpq]) -> list[Pole]:
-    p = ParametricPolynomial.from_mpoly(poly, None, values)
-    return certified_roots(p.at())
+def _check_block_denominators(project: Diagram, values: Mapping[str, fmpq]) -> None:
+    """E408 for a block whose denominator is identically zero at the nominal values."""
+    from core.graph.signal_graph import block_polynomials
+
+    for block, (_, den) in block_polynomials(project).items():
+        names = den.context().names()[1:]
+        at = {n: values[n] for n in names if n in values}
+        if not den.is_zero() and at and den.subs(at).is_zero():
+            used = {n: v for n, v in at.items() if den.degrees()[names.index(n) + 1] > 0}
+            raise AnalysisError("E408", f"block {block}: its denominator {mpoly_text(den)} is zero at "
+                                f"{values_text(used)}, so the block does not exist there", where=f"node {block}")
 
 
-def _hidden_modes(red, values: Mapping[str, fmpq]) -> list[HiddenMode]:
-    if red.hidden_factor is None:
+def _univariate(poly, values: Mapping[str, fmpq]) -> fmpq_poly:
+    """The polynomial in s at the given values of every parameter."""
+    return fmpq_poly(list(reversed(ParametricPolynomial.from_mpoly(poly, None, values).at())))
+
+
+def _nominal_cancellation(project: Diagram, red, values: Mapping[str, fmpq]) -> tuple[list[HiddenMode], list[Pole]]:
+    """Hidden modes and transfer-function zeros at the nominal values: the common factor of the
+    transfer function's numerator and the characteristic polynomial taken after substituting every
+    value, so a cancellation that happens only at these values is found too."""
+    from core.graph.signal_graph import block_polynomials
+
+    num, den = _univariate(red.closed_num, values), _univariate(red.closed_den, values)
+    if num.is_zero() or den.is_zero():
+        return [], []
+    common = num.gcd(den)
+    if common.degree() < 1:
+        return [], _poles_of(num)
+    blocks = [b for b, (_, d) in block_polynomials(project).items()
+              if not d.is_zero() and _univariate(d, values).gcd(common).degree() > 0]
+    return [HiddenMode(p, blocks) for p in _poles_of(common)], _poles_of(num // common)
+
+
+def _poles_of(p: fmpq_poly) -> list[Pole]:
+    return certified_roots([p[i] for i in range(p.degree(), -1, -1)])
+
+
+CANCELLATION_DEGREE = 40  # above this degree in s, values where extra modes cancel are not searched
+
+
+def _cancellation_values(red, parameter: str, values: Mapping[str, fmpq], rng: StableRange | None) -> list[str]:
+    """Warnings naming the tuning values where a further mode cancels out of the transfer function:
+    the real roots of Res_s(N/g, D/g) (g the generic common factor), exact; a rational one is kept
+    only when an exact gcd there confirms a common root."""
+    fixed = {k: v for k, v in values.items() if k != parameter}
+    num = ParametricPolynomial.from_mpoly(red.closed_num_reduced, parameter, fixed)
+    den = ParametricPolynomial.from_mpoly(red.closed_den_reduced, parameter, fixed)
+    if num.degree < 1 or den.degree < 1:
         return []
-    poles = _roots_at(red.hidden_factor, values)
-    blocks = list(getattr(red, "hidden_blocks", []) or [])
-    return [HiddenMode(p, blocks) for p in poles]
+    if den.degree > CANCELLATION_DEGREE:
+        return [f"values of {parameter} where a further mode cancels were not searched above degree "
+                f"{CANCELLATION_DEGREE} in s"]
+    out = []
+    ends = [] if rng is None else [e for lo, hi in rng.intervals for e in (lo, hi) if e is not None]
+    for b in real_values(resultant_in_s(num, den)):
+        if b.rational is not None and _univariate_at(num, b.rational).gcd(_univariate_at(den, b.rational)).degree() < 1:
+            continue  # both leading coefficients vanish there: no common root
+        at_end = any(e.factor == b.factor and e.lo <= b.hi and b.lo <= e.hi for e in ends)
+        inside = rng is not None and b.rational is not None and rng.contains(b.rational)
+        where = ", inside the stable range" if inside else ", at an end of the stable range" if at_end else ""
+        out.append(f"at {parameter} = {b.text(parameter)} a mode cancels out of the input-output transfer "
+                   f"function (hidden there{where})")
+    return out
+
+
+def _univariate_at(p: ParametricPolynomial, value: fmpq) -> fmpq_poly:
+    return fmpq_poly(list(reversed(p.at(value))))
 
 
 def _complex_text(p: Pole) -> str:

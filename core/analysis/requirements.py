@@ -28,14 +28,14 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
 
+from core.algebra.polynomial import to_fmpq
 from core.errors import LoopwrightError
 from core.model.requirements import Requirements
-from core.algebra.polynomial import to_fmpq
 
 if TYPE_CHECKING:  # scipy loads on first use only
     from core.analysis.time_response import ParametricTransfer, StepResponse

@@ -33,12 +33,18 @@ import math
 from dataclasses import dataclass, field
 from itertools import pairwise
 
-import numpy
-from flint import arb, ctx, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
+from flint import arb, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
 
-from core.errors import AnalysisError
 from core.algebra.polynomial import ParametricPolynomial, poly_text, to_fmpq
-from core.analysis.routh import fraction_free_rows, imaginary_axis_roots, integer_coefficients, is_hurwitz, real_roots
+from core.analysis.poles import certified_roots
+from core.analysis.routh import (
+    fraction_free_rows,
+    imaginary_axis_roots,
+    integer_coefficients,
+    is_hurwitz,
+    real_roots,
+)
+from core.errors import AnalysisError
 
 __all__ = [
     "Boundary",
@@ -48,6 +54,8 @@ __all__ = [
     "decay_range",
     "hurwitz_delta",
     "margins",
+    "real_values",
+    "resultant_in_s",
     "stable_range",
 ]
 
@@ -56,21 +64,67 @@ DIGITS = 15  # significant digits shown for irrational endpoints
 
 @dataclass(frozen=True)
 class Boundary:
-    """One real candidate value: exact rational, or a root of an irreducible integer polynomial."""
+    """One real candidate value: an exact rational, or the one root of an irreducible integer
+    polynomial ``factor`` (degree >= 2) inside the isolating interval (lo, hi) with rational ends
+    (so factor(lo) and factor(hi) are nonzero and of opposite signs)."""
 
     factor: fmpz_poly
-    ball: arb
+    lo: fmpq
+    hi: fmpq
     rational: fmpq | None = None
+
+    @classmethod
+    def of_rational(cls, factor: fmpz_poly, value: fmpq) -> Boundary:
+        return cls(factor, value, value, value)
+
+    @property
+    def ball(self) -> arb:
+        """A ball containing the value (its midpoint is the interval's)."""
+        if self.rational is not None:
+            return arb(self.rational)
+        return arb((self.lo + self.hi) / 2, (self.hi - self.lo) / 2)
 
     @property
     def value(self) -> float:
         return float(self.rational) if self.rational is not None else float(self.ball.mid())
+
+    def sign_minus(self, v: fmpq) -> int:
+        """Exact sign of (value - v) for a rational v (never 0 for an irrational value)."""
+        if self.rational is not None:
+            return (self.rational > v) - (self.rational < v)
+        if v <= self.lo:
+            return 1
+        if v >= self.hi:
+            return -1
+        return 1 if _sign_at(self.factor, v) == _sign_at(self.factor, self.lo) else -1
+
+    def bisected(self) -> Boundary:
+        """The same value with an isolating interval half as wide (exact signs at the midpoint)."""
+        if self.rational is not None:
+            return self
+        mid = (self.lo + self.hi) / 2
+        if _sign_at(self.factor, mid) == _sign_at(self.factor, self.lo):
+            return Boundary(self.factor, mid, self.hi)
+        return Boundary(self.factor, self.lo, mid)
+
+    def narrowed(self, width: fmpq) -> Boundary:
+        """Bisected until its interval is at most ``width`` wide."""
+        b = self
+        while b.hi - b.lo > width:
+            b = b.bisected()
+        return b
 
     def text(self, name: str) -> str:
         if self.rational is not None:
             return str(self.rational)
         poly = poly_text([fmpq(self.factor[i]) for i in range(self.factor.degree(), -1, -1)], name)
         return f"root of {poly} near {self.value:.{DIGITS}g}"
+
+
+def _sign_at(f: fmpz_poly, v: fmpq) -> int:
+    """Exact sign of f(v) at a rational v."""
+    x = f(v)
+    return (x > 0) - (x < 0)
 
 
 @dataclass(frozen=True)
@@ -141,24 +195,11 @@ class StableRange:
 
 
 def _less(b: Boundary, v: fmpq) -> bool:
-    if b.rational is not None:
-        return b.rational < v
-    return _sign_of(b, v) < 0
+    return b.sign_minus(v) < 0
 
 
 def _less_rev(v: fmpq, b: Boundary) -> bool:
-    if b.rational is not None:
-        return v < b.rational
-    return _sign_of(b, v) > 0
-
-
-def _sign_of(b: Boundary, v: fmpq) -> int:
-    """Sign of (b - v) for an irrational b (never equal to a rational)."""
-    ball, prec = b.ball, 64
-    while ball.contains(arb(v)):
-        prec *= 2
-        ball = next(r for r in real_roots(b.factor, prec) if r.overlaps(b.ball))
-    return 1 if ball > arb(v) else -1
+    return b.sign_minus(v) > 0
 
 
 def hurwitz_delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
@@ -181,6 +222,30 @@ def hurwitz_delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
     res = mctx.from_dict(even).resultant(mctx.from_dict(odd), "u")
     terms = {exps[1]: c for exps, c in res.to_dict().items()}
     return fmpq_poly([terms.get(j, 0) for j in range(max(terms, default=-1) + 1)])
+
+
+def resultant_in_s(p: ParametricPolynomial, q: ParametricPolynomial) -> fmpq_poly:
+    """Res_s(p, q) as a polynomial in the tuning parameter: zero at k where p and q share a root
+    (or both leading coefficients vanish).
+
+    >>> resultant_in_s(ParametricPolynomial.from_coefficients([1, fmpq_poly([0, 1])], "K"),
+    ...                ParametricPolynomial.from_coefficients([1, 1], "K"))  # s + K and s + 1: 1 - K
+    (-1)*x + 1
+    """
+    mctx = fmpq_mpoly_ctx.get(("s", "k"), "lex")
+
+    def lift(poly: ParametricPolynomial):
+        n = poly.degree
+        return mctx.from_dict({(n - i, j): c[j] for i, c in enumerate(poly.coeffs)
+                               for j in range(c.degree() + 1) if c[j] != 0})
+    res = lift(p).resultant(lift(q), "s")
+    terms = {exps[1]: c for exps, c in res.to_dict().items()}
+    return fmpq_poly([terms.get(j, 0) for j in range(max(terms, default=-1) + 1)])
+
+
+def real_values(p: fmpq_poly) -> list[Boundary]:
+    """The distinct real roots of a nonzero polynomial, exact (rational or isolated), increasing."""
+    return _boundaries(_irreducible_factors(p))
 
 
 def _delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
@@ -209,27 +274,34 @@ def _key(f: fmpz_poly) -> tuple[int, ...]:
 
 
 def _boundaries(factors: list[fmpz_poly]) -> list[Boundary]:
-    """All real roots of distinct irreducible factors, sorted, with separated balls."""
-    rational = []
-    higher = []
+    """All real roots of distinct irreducible factors, in increasing order, each isolating interval
+    strictly left of the next one's (exact: interval ends are rationals, refined by bisection with
+    exact signs; two distinct candidates always separate, so this terminates)."""
+    found: list[Boundary] = []
     for f in factors:
         if f.degree() == 1:
-            r = -fmpq(f[0], f[1])
-            rational.append(Boundary(f, arb(r), r))
+            found.append(Boundary.of_rational(f, -fmpq(f[0], f[1])))
         else:
-            higher.append(f)
-    prec = 64
+            found += [_isolated(f, ball) for ball in real_roots(f)]
     while True:
-        found = list(rational)
-        for f in higher:
-            found += [Boundary(f, ball) for ball in real_roots(f, prec)]
-        found.sort(key=lambda b: float(b.ball.mid()))
-        if all(not found[i].ball.overlaps(found[i + 1].ball) for i in range(len(found) - 1)):
+        found.sort(key=lambda b: (b.lo, b.hi))
+        clash = next((i for i in range(len(found) - 1) if not found[i].hi < found[i + 1].lo), None)
+        if clash is None:
             return found
-        prec *= 2
+        a, b = found[clash], found[clash + 1]
+        wider = clash if a.hi - a.lo >= b.hi - b.lo else clash + 1
+        found[wider] = found[wider].bisected()
+
+
+def _isolated(f: fmpz_poly, ball: arb) -> Boundary:
+    """The root of f in a certified real ball as an exact isolating interval [mid - rad, mid + rad]
+    (the ball holds exactly one root of f, irrational, so strictly inside)."""
+    mid, rad = _fmpq_of(ball.mid()), _fmpq_of(ball.rad())
+    return Boundary(f, mid - rad, mid + rad)
 
 
 def _fmpq_of(x: arb) -> fmpq:
+    """The midpoint of a ball, exactly."""
     man, exp = x.mid().man_exp()
     return fmpq(int(man)) * fmpq(2) ** int(exp) if exp >= 0 else fmpq(int(man), 2 ** int(-exp))
 
@@ -253,10 +325,10 @@ def _simplest_between(x: fmpq | None, y: fmpq | None) -> fmpq:
 def _test_points(bounds: list[Boundary]) -> list[fmpq]:
     if not bounds:
         return [fmpq(0)]
-    pts = [_simplest_between(None, _fmpq_of(bounds[0].ball.lower()))]
+    pts = [_simplest_between(None, bounds[0].lo)]
     for a, b in pairwise(bounds):
-        pts.append(_simplest_between(_fmpq_of(a.ball.upper()), _fmpq_of(b.ball.lower())))
-    pts.append(_simplest_between(_fmpq_of(bounds[-1].ball.upper()), None))
+        pts.append(_simplest_between(a.hi, b.lo))
+    pts.append(_simplest_between(bounds[-1].hi, None))
     return pts
 
 
@@ -328,30 +400,29 @@ def _endpoint(b: Boundary, kinds: set[str], poly: ParametricPolynomial, name: st
     return Endpoint(b.value, exact, "infinity")
 
 
+CROSSING_BITS = 512  # an irrational crossing value is approached by a rational this close
+
+
 def _crossing_omega(b: Boundary, poly: ParametricPolynomial, drops: bool) -> tuple[float | None, bool]:
     """(omega, on_axis): smallest omega > 0 with ±jω a root at the boundary value.
 
-    Exact at rational values; at irrational ones from the roots of the polynomial evaluated at 200
-    bits (the pair nearest the axis; ``on_axis`` when it lies within 1e-6 relative of it).
+    Exact at rational values. At an irrational value b, from the certified roots (exact square-free
+    factorisation, then isolation) of the rational polynomial at a rational r with |r - b| below
+    2^-512: a root of multiplicity m moves by about |r - b|^(1/m), far below double precision, so
+    repeated pairs keep their omega; ``on_axis`` when the nearest pair lies within 1e-6 relative
+    of the axis.
     """
     if b.rational is not None:
         pairs = [w for w, _ in imaginary_axis_roots(poly.at(b.rational)) if w > 0]
         return (pairs[0], True) if pairs else (None, False)
-    with ctx.workprec(200):
-        x = next(r for r in real_roots(b.factor, 200) if r.overlaps(b.ball))
-        coeffs = [float(_eval_arb(c, x).mid()) for c in poly.coeffs[1 if drops else 0:]]
-    upper = [r for r in numpy.roots(coeffs) if r.imag > 0]
+    near = b.narrowed(fmpq(1, 2 ** CROSSING_BITS))
+    coeffs = poly.at((near.lo + near.hi) / 2)
+    upper = [p for p in certified_roots(coeffs[1:] if drops else coeffs)
+             if p.im > 0]
     if not upper:
         return None, False
-    nearest = min(upper, key=lambda r: abs(r.real))
-    return float(nearest.imag), abs(nearest.real) <= 1e-6 * max(1.0, abs(nearest))
-
-
-def _eval_arb(c: fmpq_poly, x: arb) -> arb:
-    acc = arb(0)
-    for i in range(c.degree(), -1, -1):
-        acc = acc * x + arb(c[i])
-    return acc
+    nearest = min(upper, key=lambda p: (abs(p.re), p.im))
+    return nearest.im, abs(nearest.re) <= 1e-6 * max(1.0, nearest.natural_frequency)
 
 
 def margins(r: StableRange, nominal) -> Margins:

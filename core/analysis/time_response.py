@@ -33,10 +33,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from flint import fmpq
 
-from core.errors import AnalysisError
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, to_fmpq
 from core.analysis.routh import is_hurwitz
+from core.errors import AnalysisError
 
 POINTS = 1000
 MAX_POINTS = 8000
@@ -121,7 +121,7 @@ def transfer_from_diagram(diagram, input_id: str | None = None, output_id: str |
                           values: Mapping[str, object] | None = None, reduction=None) -> ParametricTransfer:
     """The transfer function of a diagram from an input (default: the analysis input) to the output.
 
-    Every parameter but the tuning one (``diagram.sweep``) is fixed at ``values`` or its nominal.
+    Every parameter but the tuning one (``diagram.tuning_parameter``) is fixed at ``values`` or its nominal.
     ``reduction``, when given, is the diagram already reduced from that input to that output.
     Raises AnalysisError (E401 no input/output, E404 a parameter without value).
     """
@@ -136,7 +136,7 @@ def transfer_from_diagram(diagram, input_id: str | None = None, output_id: str |
     red = reduction if reduction is not None else reduce_diagram(diagram, input_id, output_id)
     fixed = {p.name: p.nominal for p in diagram.parameters.values()}
     fixed.update(values or {})
-    parameter = diagram.sweep
+    parameter = diagram.tuning_parameter
     polys = []
     for poly in (red.closed_num_reduced, red.closed_den_reduced, red.closed_den):
         try:

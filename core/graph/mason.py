@@ -17,8 +17,8 @@ from itertools import pairwise
 
 from flint import fmpq, fmpq_mpoly
 
-from core.model.diagram import Diagram
 from core.graph.signal_graph import SignalGraph, build_signal_graph, check_endpoints, simple_cycles
+from core.model.diagram import Diagram
 
 
 def mason_gain(diagram: Diagram, input_id: str, output_id: str) -> tuple[fmpq_mpoly, fmpq_mpoly]:
@@ -79,5 +79,5 @@ def _forward_paths(graph: SignalGraph, start: str, end: str) -> list[list[str]]:
             continue
         for w in succ.get(v, ()):
             if w not in path:
-                stack.append((w, path + [w]))
+                stack.append((w, [*path, w]))
     return paths

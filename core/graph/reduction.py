@@ -45,10 +45,9 @@ from dataclasses import dataclass, field
 
 from flint import fmpq_mpoly
 
-from core.graph.elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
 from core.errors import AnalysisError
+from core.graph.elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
 from core.graph.mason import mason_gain
-from core.model.diagram import Diagram
 from core.graph.signal_graph import (
     MAX_LOOPS,
     SignalGraph,
@@ -60,6 +59,7 @@ from core.graph.signal_graph import (
     simple_cycles,
     strong_components,
 )
+from core.model.diagram import Diagram
 
 __all__ = ["Reduction", "block_polynomials", "diagram_parameters", "mason_gain", "reduce_diagram"]
 
@@ -78,6 +78,7 @@ class Reduction:
     hidden_blocks: list[str] = field(default_factory=list)
     loops: list[list[str]] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
+    connected: bool = True  # some wire path leads from the input to the output
 
 
 def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None) -> Reduction:
@@ -106,6 +107,7 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
         else:
             num = x_out[0] * (characteristic / x_out[1])
         _set_transfer_function(red, graph, num)
+        red.connected = output_id == input_id or output_id in reachable(input_id, graph.successors())
         warnings += _reach_warnings(diagram, graph, input_id, output_id, num)
     return red
 

@@ -27,9 +27,9 @@ from functools import lru_cache
 
 from flint import fmpq, fmpq_mpoly
 
+from core.algebra.polynomial import mpoly_context
 from core.errors import AnalysisError
 from core.model.diagram import Diagram
-from core.algebra.polynomial import mpoly_context
 
 MAX_LOOPS = 2000  # enumeration cap for simple loops (their number can grow exponentially)
 

@@ -18,7 +18,10 @@ Parameters named in blocks but missing from ``parameters`` are accepted and left
 analysis reports them (E404), and the file is not silently changed.
 
 Version 1 wrote the decay requirement as ``analysis.decay`` (sigma, 1/s); version 2 writes
-``decay_mode`` + ``decay_value``. Optional fields in both: node ``label``/``flipped``, wire
+``decay_mode`` + ``decay_value``. Version 3 names the tuning parameter ``tuning_parameter`` (was
+``sweep``), a block's polynomials ``numerator`` and ``denominator`` (were ``num``/``den``) and gives a
+summing junction one entry per input, ``"inputs": [{"polarity": "add"}, {"polarity": "subtract"}]``
+(was a sign string). Optional fields in all versions: node ``label``/``flipped``, wire
 ``bends``, top-level ``notes`` and ``view`` (window state; dropped when it is not a JSON object of
 plain values, since it never changes meaning).
 
@@ -32,7 +35,7 @@ plain values, since it never changes meaning).
 True
 >>> loads_project('{"format": "loopwright-project", "version": 99, "nodes": []}', "x")
 Traceback (most recent call last):
-core.errors.ProjectFileError: E203 at x: made by a newer Loopwright (version 99); this one reads up to 2
+core.errors.ProjectFileError: E203 at x: made by a newer Loopwright (version 99); this one reads up to 3
 """
 from __future__ import annotations
 
@@ -57,13 +60,14 @@ from core.model.requirements import Requirements
 
 FORMAT = "loopwright-project"
 RECOVERY_FORMAT = "loopwright-recovery"
-CURRENT_VERSION = 2
+CURRENT_VERSION = 3
 SUFFIX = ".loop.json"
 MAX_FILE_BYTES = 10 * 1024 * 1024
 MAX_NODES = 5000
 MAX_WIRES = 20000
 MAX_PARAMETERS = 500
 MAX_BENDS = 500
+MAX_SUM_INPUTS = 64    # entries read; the model enforces its own port limit
 MAX_DEPTH = 32          # JSON nesting; a valid project needs 5 (top, list, wire, bends, pair)
 MAX_VIEW_DEPTH = 4
 MAX_TEXT = 100_000      # notes
@@ -85,7 +89,7 @@ class NodeSpec:
     role: str
     num: str
     den: str
-    signs: str
+    signs: str  # the model's form: one '+' or '-' per input, in port order
 
 
 @dataclass(frozen=True)
@@ -111,7 +115,7 @@ class ProjectSpec:
     name: str
     notes: str
     parameters: tuple[ParameterSpec, ...]
-    sweep: str | None
+    tuning_parameter: str | None
     nodes: tuple[NodeSpec, ...]
     wires: tuple[WireSpec, ...]
     analysis_input: str | None
@@ -123,12 +127,12 @@ class ProjectSpec:
 
 
 # -- migrations ---------------------------------------------------------------------------------
-def migrate_1_to_2(data: dict) -> dict:
+def migrate_1_to_2(data: dict, where: str) -> dict:
     """Version 1 -> 2: ``analysis.decay`` (sigma, 1/s) becomes ``decay_mode`` + ``decay_value``.
 
     When a version-1 file already carries ``decay_mode``/``decay_value`` those win over ``decay``.
 
-    >>> migrate_1_to_2({"version": 1, "analysis": {"decay": 0.3}})["analysis"]
+    >>> migrate_1_to_2({"version": 1, "analysis": {"decay": 0.3}}, "x")["analysis"]
     {'decay_mode': 'sigma', 'decay_value': 0.3}
     """
     out = dict(data, version=2)
@@ -143,7 +147,45 @@ def migrate_1_to_2(data: dict) -> dict:
     return out
 
 
-MIGRATIONS: dict[int, Callable[[dict], dict]] = {1: migrate_1_to_2}
+POLARITY_WORDS = {"+": "add", "-": "subtract"}
+RENAMED_IN_3 = {"sweep": "tuning_parameter", "num": "numerator", "den": "denominator", "signs": "inputs"}
+
+
+def _inputs_from_signs(signs, where: str) -> list[dict]:
+    """A version-2 sign string as version-3 input entries (E205 naming the node when it is not one)."""
+    if not isinstance(signs, str) or not signs or set(signs) - set(POLARITY_WORDS):
+        raise ProjectFileError("E205", f"'signs' must be a text of '+' and '-', not {str(signs)[:40]!r}",
+                               where=where)
+    return [{"polarity": POLARITY_WORDS[c]} for c in signs]
+
+
+def migrate_2_to_3(data: dict, where: str) -> dict:
+    """Version 2 -> 3: ``sweep`` -> ``tuning_parameter``, ``num``/``den`` -> ``numerator``/``denominator``,
+    a junction's sign string -> one ``inputs`` entry per input.
+
+    >>> out = migrate_2_to_3({"version": 2, "sweep": "K", "nodes": [
+    ...     {"id": "P", "kind": "block", "num": "K", "den": "s+1"}, {"id": "e", "kind": "sum", "signs": "+-"}]}, "x")
+    >>> out["tuning_parameter"], out["nodes"][0]["numerator"], out["nodes"][1]["inputs"][1]
+    ('K', 'K', {'polarity': 'subtract'})
+    """
+    out = {("tuning_parameter" if k == "sweep" else k): v for k, v in data.items()}
+    out["version"] = 3
+    nodes = data.get("nodes")
+    if isinstance(nodes, list):
+        out["nodes"] = [_migrate_node_2_to_3(n, where) if isinstance(n, dict) else n for n in nodes]
+    return out
+
+
+def _migrate_node_2_to_3(node: dict, where: str) -> dict:
+    renamed = {"num": "numerator", "den": "denominator"}
+    out = {renamed.get(k, k): v for k, v in node.items() if k != "signs"}
+    if "signs" in node:
+        name = node.get("id") if isinstance(node.get("id"), str) else "?"
+        out["inputs"] = _inputs_from_signs(node["signs"], f"{where}, node {name[:64]}")
+    return out
+
+
+MIGRATIONS: dict[int, Callable[[dict, str], dict]] = {1: migrate_1_to_2, 2: migrate_2_to_3}
 
 
 def migrate(data: dict, where: str) -> dict:
@@ -157,7 +199,7 @@ def migrate(data: dict, where: str) -> dict:
         raise ProjectFileError("E203", f"made by a newer Loopwright (version {version}); "
                                        f"this one reads up to {CURRENT_VERSION}", where=where)
     while version < CURRENT_VERSION:
-        data = MIGRATIONS[version](data)
+        data = MIGRATIONS[version](data, where)
         version = data["version"]
     return data
 
@@ -248,8 +290,11 @@ class _Fields:
             raise ProjectFileError("E205", f"{what} must be an object, not {_type_name(obj)}", where=where)
         unknown = [k for k in obj if k not in known]
         if unknown:
-            raise ProjectFileError("E205", f"{what} has an unknown field '{str(unknown[0])[:40]}' "
-                                           f"(known: {', '.join(known)})", where=where)
+            new_name = RENAMED_IN_3.get(unknown[0])
+            hint = (f"; since version 3 it is '{new_name}'" if new_name in known
+                    else f" (known: {', '.join(known)})")
+            raise ProjectFileError("E205", f"{what} has an unknown field '{str(unknown[0])[:40]}'{hint}",
+                                   where=where)
         self.obj, self.where = obj, where
 
     def _get(self, key, default, required):
@@ -306,7 +351,7 @@ class _Fields:
 
 
 NODE_FIELDS = {
-    "input": (), "output": (), "branch": (), "sum": ("signs",), "block": ("role", "num", "den"),
+    "input": (), "output": (), "branch": (), "sum": ("inputs",), "block": ("role", "numerator", "denominator"),
 }
 COMMON_NODE_FIELDS = ("id", "kind", "x", "y", "label", "flipped")
 
@@ -328,8 +373,22 @@ def _node_spec(obj, source: str, index: int) -> NodeSpec:
         id=f.text("id", required=True, limit=64), kind=f.text("kind", required=True),
         x=f.number("x", limit=MAX_COORDINATE), y=f.number("y", limit=MAX_COORDINATE),
         label=f.text("label"), flipped=f.boolean("flipped"),
-        role=f.text("role", "other"), num=f.text("num", "1", limit=MAX_TEXT),
-        den=f.text("den", "1", limit=MAX_TEXT), signs=f.text("signs", "+-"))
+        role=f.text("role", "other"), num=f.text("numerator", "1", limit=MAX_TEXT),
+        den=f.text("denominator", "1", limit=MAX_TEXT), signs=_junction_signs(f, place))
+
+
+def _junction_signs(fields: _Fields, place: str) -> str:
+    """A junction's ``inputs`` entries in the model's form (default: one added, one subtracted input)."""
+    words = {word: sign for sign, word in POLARITY_WORDS.items()}
+    signs = []
+    for i, entry in enumerate(fields.items("inputs", MAX_SUM_INPUTS)):
+        where = f"{place}, input {i + 1}"
+        polarity = _Fields(entry, where, "an input", ("polarity",)).text("polarity", required=True)
+        if polarity not in words:
+            raise ProjectFileError("E205", f"'polarity' must be {' or '.join(words)}, not {polarity[:40]!r}",
+                                   where=where)
+        signs.append(words[polarity])
+    return "".join(signs) if "inputs" in fields.obj else "+-"
 
 
 def _wire_spec(obj, source: str, index: int) -> WireSpec:
@@ -368,7 +427,7 @@ def _plain_view(value, depth: int = 0) -> bool:
     return False
 
 
-TOP_FIELDS = ("format", "version", "name", "notes", "parameters", "sweep", "nodes", "wires", "analysis", "view",
+TOP_FIELDS = ("format", "version", "name", "notes", "parameters", "tuning_parameter", "nodes", "wires", "analysis", "view",
               "requirements")
 REQUIREMENT_FIELDS = ("min_damping", "max_overshoot", "min_gain_margin", "gain_margin_unit")
 
@@ -406,7 +465,7 @@ def parse_spec(data, source: str = "<memory>") -> ProjectSpec:
     view = data.get("view", {})
     return ProjectSpec(
         name=top.text("name", DEFAULT_NAME), notes=top.text("notes", limit=MAX_TEXT),
-        parameters=params, sweep=top.text("sweep", None, nullable=True, limit=64),
+        parameters=params, tuning_parameter=top.text("tuning_parameter", None, nullable=True, limit=64),
         nodes=nodes, wires=wires,
         analysis_input=analysis.text("input", None, nullable=True, limit=64),
         analysis_output=analysis.text("output", None, nullable=True, limit=64),
@@ -462,9 +521,9 @@ def diagram_from_spec(spec: ProjectSpec, source: str = "<memory>") -> Diagram:
             raise ProjectFileError("E206", f"the analysis {key} '{value}' is not a node of this diagram",
                                    where=f"{source}, analysis")
     try:
-        d.set_sweep(spec.sweep)
+        d.set_tuning_parameter(spec.tuning_parameter)
     except ModelError as exc:
-        raise _model_error(exc, f"{source}, sweep", source) from exc
+        raise _model_error(exc, f"{source}, tuning_parameter", source) from exc
     try:
         d.set_analysis(input=spec.analysis_input, output=spec.analysis_output,
                        decay_mode=spec.decay_mode, decay_value=spec.decay_value)
@@ -532,9 +591,9 @@ def project_to_dict(diagram: Diagram) -> dict:
     for n in diagram.nodes.values():
         item = {"id": n.id, "kind": n.kind}
         if n.kind == "block":
-            item.update(role=n.role, num=n.num, den=n.den)
+            item.update(role=n.role, numerator=n.num, denominator=n.den)
         elif n.kind == "sum":
-            item["signs"] = n.signs
+            item["inputs"] = [{"polarity": POLARITY_WORDS[c]} for c in n.signs]
         item.update(x=_plain_number(n.x), y=_plain_number(n.y))
         if n.label:
             item["label"] = n.label
@@ -552,7 +611,7 @@ def project_to_dict(diagram: Diagram) -> dict:
         out["notes"] = diagram.notes
     out["parameters"] = [{"name": p.name, "nominal": _plain_number(p.nominal), "min": _plain_number(p.minimum),
                           "max": _plain_number(p.maximum)} for p in diagram.parameters.values()]
-    out["sweep"] = diagram.sweep
+    out["tuning_parameter"] = diagram.tuning_parameter
     out["nodes"], out["wires"] = nodes, wires
     a = diagram.analysis
     out["analysis"] = {"input": a.input, "output": a.output, "decay_mode": a.decay_mode,
@@ -613,7 +672,7 @@ def _os_problem(exc: OSError, reading: bool = False) -> str:
 MAX_NAME_BYTES = 255          # one file name, on the file systems people save to
 TEMP_TOKEN_HEX = 12
 STALE_TEMP_SECONDS = 3600     # a temp file of ours this old is left over from a killed save
-_TEMP_NAME = re.compile(r"\..+\.[0-9a-f]{%d}\.tmp" % TEMP_TOKEN_HEX, re.DOTALL)
+_TEMP_NAME = re.compile(r"\..+\.[0-9a-f]{" + str(TEMP_TOKEN_HEX) + r"}\.tmp", re.DOTALL)
 
 
 def _fit_name(prefix: str, suffix: str) -> str:

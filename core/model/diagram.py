@@ -148,7 +148,7 @@ class Diagram:
         self.nodes: dict[str, Node] = {}
         self.wires: list[Wire] = []
         self.parameters: dict[str, Parameter] = {}
-        self.sweep: str | None = None
+        self.tuning_parameter: str | None = None  # the parameter whose stable range is sought
         self.analysis = AnalysisSettings()
         self.requirements = Requirements()
         self.view: dict = {}
@@ -350,17 +350,17 @@ class Diagram:
             raise ModelError("E304", f"there is no parameter '{name}'", where=f"parameter {name}")
         old = self.parameters.pop(name)
         self._emit("parameters_changed", name)
-        if self.sweep == name:
-            self.sweep = None
-            self._emit("settings_changed", "sweep")
+        if self.tuning_parameter == name:
+            self.tuning_parameter = None
+            self._emit("settings_changed", "tuning_parameter")
         return old
 
-    def set_sweep(self, name: str | None) -> str | None:
+    def set_tuning_parameter(self, name: str | None) -> str | None:
         """Choose the tuning parameter (None for none); return the previous choice."""
         if name is not None and (not isinstance(name, str) or name not in self.parameters):
             raise ModelError("E304", f"there is no parameter '{name}' to tune", where=f"parameter {name}")
-        old, self.sweep = self.sweep, name
-        self._emit("settings_changed", "sweep")
+        old, self.tuning_parameter = self.tuning_parameter, name
+        self._emit("settings_changed", "tuning_parameter")
         return old
 
     def set_analysis(self, **changes) -> dict:

@@ -73,7 +73,7 @@ def unity_feedback_loop(name: str = "unity feedback test loop"):
                                  ("b", "e", 1)):
         d.connect(source, target, port)
     d.set_parameter(Parameter("K", 2.0, 0.0, 10.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     return d
 

@@ -13,10 +13,11 @@ from PySide6.QtWidgets import QApplication
 
 from app.bridge import ModelSignals
 from app.canvas import NODE_MIME, DiagramScene, DiagramView
+from app.document.editor import DiagramEditor
 from app.palette import Palette
 from app.theme import ROLE_COLOURS, Theme
-from core.model.diagram import Diagram, Node, Parameter
 from core.io.project_file import project_to_dict
+from core.model.diagram import Diagram, Node, Parameter
 
 
 def feedback_loop() -> Diagram:
@@ -31,7 +32,8 @@ class Canvas:
         self.qtbot, self.diagram = qtbot, diagram
         self.stack = QUndoStack()
         self.signals = ModelSignals(diagram)
-        self.scene = DiagramScene(diagram, self.signals, self.stack, theme=theme or Theme.light())
+        self.scene = DiagramScene(diagram, self.signals, theme=theme or Theme.light())
+        self.editor = DiagramEditor(self.scene, self.stack)
         self.view = DiagramView(self.scene)
         self.view.resize(900, 500)
         qtbot.addWidget(self.view)
@@ -158,7 +160,7 @@ def test_deleting_a_node_takes_its_wires_and_undo_restores_them_in_place(canvas)
 
 def test_deleting_the_analysed_output_clears_it_and_undo_sets_it_back(canvas):
     canvas.scene.select_node("y")
-    canvas.scene.delete_selection()
+    canvas.editor.delete_selection()
     assert canvas.diagram.analysis.output is None
     canvas.stack.undo()
     assert canvas.diagram.analysis.output == "y"
@@ -244,7 +246,7 @@ def test_dragging_a_wire_segment_adds_bends(canvas):
 
 def test_palette_places_nodes_and_first_terminals_become_analysis_ends(qtbot):
     c = Canvas(qtbot, Diagram("empty"))
-    palette = Palette(c.scene)
+    palette = Palette(c.editor)
     qtbot.addWidget(palette)
     for key in [("input", ""), ("sum", "3"), ("block", "plant"), ("block", "plant"), ("output", ""),
                 ("branch", "")]:
@@ -285,11 +287,11 @@ def test_undo_everything_then_redo_everything(canvas):
         lambda: canvas.drag((200, 0), (200, -40)),
         lambda: canvas.key(Qt.Key.Key_Left),
         lambda: canvas.key(Qt.Key.Key_F),
-        lambda: canvas.scene.place_node("block", "gain"),
+        lambda: canvas.editor.place_node("block", "gain"),
         lambda: canvas.drag(canvas.port("G", True), QPointF(600, 300)),  # refused: nothing happens
         lambda: canvas.click(canvas.scene.node_items["e"].mapToScene(canvas.scene.node_items["e"]._sign_spots[0])),
         lambda: (scene.select_node("P"), canvas.key(Qt.Key.Key_Delete)),
-        lambda: (scene.select_node("b"), scene.copy_selection(), scene.paste()),
+        lambda: (scene.select_node("b"), canvas.editor.copy_selection(), canvas.editor.paste()),
     ]
     for step in d_steps:
         step()
@@ -426,7 +428,7 @@ def test_a_wire_drawn_back_to_the_left_runs_under_the_forward_path(qtbot):
 
 def test_palette_clicks_in_a_row_lay_out_a_left_to_right_chain(qtbot):
     c = Canvas(qtbot, Diagram("empty"))
-    palette = Palette(c.scene)
+    palette = Palette(c.editor)
     qtbot.addWidget(palette)
     for key in [("input", ""), ("sum", "2"), ("block", "controller"), ("block", "plant"), ("output", "")]:
         qtbot.mouseClick(palette.buttons[key], Qt.MouseButton.LeftButton)
@@ -448,11 +450,13 @@ def test_process_ends_cleanly_after_copying_to_the_clipboard():
         "app = QApplication([])\n"
         "from app.bridge import ModelSignals\n"
         "from app.canvas import DiagramScene\n"
+        "from app.document.editor import DiagramEditor\n"
         "import conftest\n"
         "d = conftest.sensor_feedback_loop('exit', ('1', '1'), 's + 1')\n"
-        "scene = DiagramScene(d, ModelSignals(d), QUndoStack())\n"
+        "scene = DiagramScene(d, ModelSignals(d))\n"
+        "editor = DiagramEditor(scene, QUndoStack())\n"
         "scene.select_node('C')\n"
-        "scene.copy_selection()\n"
+        "editor.copy_selection()\n"
         "print('copied')\n")
     import os
     from pathlib import Path

@@ -7,7 +7,7 @@ import pytest
 from conftest import sensor_feedback_loop
 from PySide6.QtGui import QUndoStack
 
-from app.commands import (
+from app.document.commands import (
     AddNodeCommand,
     ConnectCommand,
     DisconnectCommand,
@@ -24,15 +24,15 @@ from app.commands import (
     push,
 )
 from core.errors import LoopwrightError
-from core.model.diagram import Diagram, Node, Parameter
 from core.io.project_file import project_to_dict
+from core.model.diagram import Diagram, Node, Parameter
 
 
 def loop() -> Diagram:
     """An invented loop: controller, plant, sensor on the feedback path."""
     d = sensor_feedback_loop("test loop", ("K", "1"), "T*s + 1",
                              [Parameter("K", 2.0, 0.0, 20.0), Parameter("T", 0.5, 0.1, 5.0)])
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     return d
 
 
@@ -124,7 +124,8 @@ def test_keyboard_nudges_merge_but_drags_do_not():
     push(stack, MoveNodesCommand(d, {"C": ((230, 0), (300, 0))}))
     push(stack, MoveNodesCommand(d, {"C": ((300, 0), (310, 0))}))
     assert stack.count() == 3
-    stack.undo(); stack.undo(); stack.undo()
+    for _ in range(3):
+        stack.undo()
     assert (d.node("C").x, d.node("C").y) == (200, 0)
 
 
@@ -141,9 +142,9 @@ def test_removing_the_tuning_parameter_comes_back_in_place():
     stack = QUndoStack()
     before = project_to_dict(d)
     push(stack, RemoveParameterCommand(d, "K"))
-    assert d.sweep is None and list(d.parameters) == ["T"]
+    assert d.tuning_parameter is None and list(d.parameters) == ["T"]
     stack.undo()
-    assert list(d.parameters) == ["K", "T"] and d.sweep == "K"
+    assert list(d.parameters) == ["K", "T"] and d.tuning_parameter == "K"
     assert project_to_dict(d) == before
 
 

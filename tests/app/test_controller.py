@@ -12,9 +12,12 @@ import pytest
 from PySide6.QtGui import QUndoStack
 
 import app.controller as controller_module
+import core.analysis.pipeline as pipeline
 from app.bridge import ModelSignals
 from app.controller import AnalysisController
+from app.document.editing import commit_nominals
 from app.panels import PolynomialPanel, RangePanel, RouthPanel, attach
+from core.analysis.pipeline import PATH_SAMPLES
 from core.model.diagram import Diagram, Node, Parameter
 
 
@@ -27,7 +30,7 @@ def unity_loop(num: str = "K", den: str = "s^3 + 3s^2 + 2s", nominal: float = 2.
     for src, dst, port in (("r", "e", 0), ("e", "G", 0), ("G", "b", 0), ("b", "y", 0), ("b", "e", 1)):
         d.connect(src, dst, port)
     d.set_parameter(Parameter("K", nominal, 0.0, 10.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     return d
 
@@ -47,7 +50,9 @@ def counted(monkeypatch):
 
 def make(qtbot, diagram, undo_stack=None):
     signals = ModelSignals(diagram)
-    ctl = AnalysisController(diagram, signals, undo_stack)
+    ctl = AnalysisController(diagram, signals)
+    if undo_stack is not None:
+        commit_nominals(ctl, diagram, undo_stack)
     results = []
     ctl.resultReady.connect(results.append)
     return ctl, signals, results
@@ -62,7 +67,7 @@ def test_first_result_has_the_loop(qtbot, counted):
     got = np.sort_complex(results[0].poles_at(2.0))
     want = np.sort_complex(np.roots([1, 3, 2, 2]))  # reference: numpy
     assert np.allclose(got, want)
-    assert results[0].paths.shape == (controller_module.PATH_SAMPLES, 3)
+    assert results[0].paths.shape == (PATH_SAMPLES, 3)
     assert ctl.current_value == 2.0
 
 
@@ -73,7 +78,7 @@ def test_quick_edits_make_one_analysis(qtbot, counted):
         d.set_parameter(Parameter("K", nominal, 0.0, 10.0))
     assert ctl.wait_for_idle(10000)
     assert len(counted) == 1
-    assert len(results) == 1 and results[0].tuning.nominal == 3.5
+    assert len(results) == 1 and results[0].tuning_range.nominal == 3.5
     assert results[0].generation == ctl.generation
 
 
@@ -96,13 +101,13 @@ def test_stale_result_is_dropped(qtbot, monkeypatch):
     gate.set()
     assert ctl.wait_for_idle(10000)
     assert len(seen) == 2
-    assert [r.tuning.nominal for r in results] == [7.0]  # the first (K = 2) result never arrived
+    assert [r.tuning_range.nominal for r in results] == [7.0]  # the first (K = 2) result never arrived
 
 
 def test_error_arrives_as_message(qtbot):
     d = unity_loop()
     d.set_parameter(Parameter("T", 1.0, 0.0, 2.0))
-    d.set_sweep("T")  # tuned but typed in no block: the analysis refuses with E405
+    d.set_tuning_parameter("T")  # tuned but typed in no block: the analysis refuses with E405
     ctl, _, results = make(qtbot, d)
     panels = [PolynomialPanel(), RouthPanel(), RangePanel()]
     for p in panels:
@@ -118,7 +123,7 @@ def test_error_arrives_as_message(qtbot):
 def test_unexpected_exception_becomes_internal_error(qtbot, monkeypatch):
     def broken(diagram):
         raise RuntimeError("boom")
-    monkeypatch.setattr(controller_module, "check_project", broken)
+    monkeypatch.setattr(pipeline, "check_project", broken)
     ctl, _, results = make(qtbot, unity_loop())
     assert ctl.wait_for_idle(10000)
     assert results[-1].message == "internal error: RuntimeError: boom"
@@ -151,7 +156,7 @@ def test_live_value_and_commit_through_undo(qtbot):
     stack.undo()
     assert d.parameters["K"].nominal == 2.0
     assert ctl.wait_for_idle(10000)
-    assert results[-1].tuning.nominal == 2.0 and ctl.current_value == 2.0
+    assert results[-1].tuning_range.nominal == 2.0 and ctl.current_value == 2.0
 
 
 def test_dispose_abandons_a_running_analysis_and_ignores_later_changes(qtbot, monkeypatch):

@@ -8,7 +8,7 @@ from pathlib import Path
 import pytest
 from PySide6.QtGui import QUndoStack
 
-from app.commands import EditNodeCommand, RenameCommand, push
+from app.document.commands import EditNodeCommand, RenameCommand, push
 from app.files import MAX_RECENT, RecentFiles
 from core.io.project_file import (
     find_recoveries,

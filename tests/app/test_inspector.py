@@ -9,8 +9,8 @@ from PySide6.QtGui import QUndoStack
 
 from app.bridge import ModelSignals
 from app.inspector import Inspector, check_transfer, factored_text
-from core.model.diagram import Diagram, Node, Parameter
 from core.io.project_file import project_to_dict
+from core.model.diagram import Diagram, Node, Parameter
 
 
 @pytest.fixture
@@ -69,20 +69,20 @@ def test_enter_commits_and_adds_new_parameter_as_tuning_in_one_step(qtbot, setup
     assert d.node("C").num == "Kp (s + a)"
     assert d.parameters["Kp"] == Parameter("Kp", 1.0, 0.0, 10.0)
     assert d.parameters["a"] == Parameter("a", 1.0, 0.0, 10.0)
-    assert d.sweep == "Kp"  # first new name (sorted) becomes the tuning parameter
+    assert d.tuning_parameter == "Kp"  # first new name (sorted) becomes the tuning parameter
     assert stack.count() == 1
     stack.undo()
-    assert d.node("C").num == "1" and d.parameters == {} and d.sweep is None
+    assert d.node("C").num == "1" and d.parameters == {} and d.tuning_parameter is None
 
 
 def test_existing_tuning_parameter_is_kept(qtbot, setup):
     d, _stack, inspector = setup
     d.set_parameter(Parameter("K", 2.0, 0.0, 5.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     inspector.show_node("C")
     type_into(qtbot, inspector.num.edit, "K T")
     qtbot.keyClick(inspector.num.edit, Qt.Key.Key_Return)
-    assert d.sweep == "K" and d.parameters["K"].nominal == 2.0 and "T" in d.parameters
+    assert d.tuning_parameter == "K" and d.parameters["K"].nominal == 2.0 and "T" in d.parameters
 
 
 def test_focus_change_to_other_node_commits_pending_valid_text(qtbot, setup):

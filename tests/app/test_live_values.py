@@ -15,13 +15,13 @@ from app.bridge import ModelSignals
 from app.controller import AnalysisController
 from app.panels import RangePanel, RouthPanel, attach
 from app.panels.common import number
-from app.panels.range_panel import first_column_signs, first_column_tables
 from app.panels.routh_panel import LIVE_TIP
 from app.panels.routh_values import FloatEntries
-from core.analysis.report import check_project
 from core.algebra.polynomial import to_fmpq
-from core.io.project_file import load_project
+from core.analysis.pipeline import FirstColumnSigns
+from core.analysis.report import check_project
 from core.analysis.routh import RationalFunction
+from core.io.project_file import load_project
 
 EXAMPLES = Path(__file__).resolve().parents[2] / "resources" / "examples"
 K = sympy.Symbol("K")
@@ -103,7 +103,7 @@ def test_routh_panel_shows_live_values_during_a_drag_and_exact_ones_at_rest(qtbo
     qtbot.addWidget(panel)
     attach(panel, controller)
     arr = controller.result.report.routh
-    tuning = controller.result.tuning
+    tuning = controller.result.tuning_range
     for value in np.linspace(tuning.minimum, tuning.maximum, 9)[1:]:
         controller.set_current_value(float(value))
         cells = [[panel.table.item(i + 1, panel._value_column(j)).text() for j in range(len(row))]
@@ -148,15 +148,15 @@ def test_a_panel_tabbed_out_of_view_catches_up_when_shown(window, analysed, qtbo
 def test_range_verdict_from_first_column_signs_counts_the_right_half_plane_roots(name, qtbot):
     diagram = load_project(EXAMPLES / name)
     report = check_project(diagram)
-    tables = first_column_tables(report.routh)
+    tables = FirstColumnSigns.of(report.routh)
     assert tables is not None
     p = diagram.parameters[report.parameter]
     ends = [e["value"] for e in report.stable_range.to_dict()["endpoints"]]
     grid = list(np.linspace(p.minimum, p.maximum, 23))
     values = grid + [e * f for e in ends for f in (1 + 1e-9, 1 - 1e-9)]
-    assert sum(first_column_signs(tables, v) is not None for v in grid) >= 0.8 * len(grid)  # mostly fast
+    assert sum(tables.at(v) is not None for v in grid) >= 0.8 * len(grid)  # mostly fast
     for v in values:
-        signs = first_column_signs(tables, v)
+        signs = tables.at(v)
         if signs is None:
             continue
         rhp = sum(a != b for a, b in pairwise(signs))
@@ -172,7 +172,7 @@ def test_range_verdict_from_first_column_signs_counts_the_right_half_plane_roots
     for v in values[::3]:
         controller.set_current_value(float(v))
         quick = panel.verdict_html()
-        panel._first_column = None  # force the exact path (exact root counts)
+        controller.result.__dict__["_first_column"] = None  # force the exact path (exact root counts)
         assert quick == panel.verdict_html(), v
-        panel._first_column = first_column_tables(report.routh)
+        del controller.result.__dict__["_first_column"]
     controller.dispose()

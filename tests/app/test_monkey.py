@@ -117,7 +117,7 @@ class Monkey:
         if not sums:
             return self.place()
         node_id = self.rnd.choice(sums)
-        self.scene.flip_sign(node_id, self.rnd.randrange(len(self.window.diagram.node(node_id).signs)))
+        self.window.editor.flip_sign(node_id, self.rnd.randrange(len(self.window.diagram.node(node_id).signs)))
         return f"flip sign {node_id}"
 
     def drag_node(self) -> str:

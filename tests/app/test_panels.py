@@ -11,15 +11,16 @@ import numpy as np
 import pytest
 import sympy
 from PySide6.QtCore import Qt
-from PySide6.QtGui import QGuiApplication
+from PySide6.QtGui import QGuiApplication, QUndoStack
 from test_controller import unity_loop
 
 from app.bridge import ModelSignals
 from app.controller import AnalysisController
+from app.document.editing import commit_nominals
 from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
 from app.panels.polynomial_panel import factored
-from core.model.diagram import Diagram, Node, Parameter
 from core.algebra.polynomial import ParametricPolynomial
+from core.model.diagram import Diagram, Node, Parameter
 from core.present.report_text import routh_table
 
 
@@ -34,6 +35,7 @@ def loop(qtbot):
     d = unity_loop(nominal=2.0)
     signals = ModelSignals(d)
     ctl = AnalysisController(d, signals)
+    commit_nominals(ctl, d, QUndoStack())
     panels = {"poly": PolynomialPanel(), "routh": RouthPanel(), "range": RangePanel(), "map": PoleMap()}
     for p in panels.values():
         qtbot.addWidget(p)
@@ -161,7 +163,7 @@ def test_hidden_mode_is_named(qtbot):
                            ("b", "e", 1)):
         d.connect(src, dst, port)
     d.set_parameter(Parameter("K", 1.0, 0.0, 10.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     ctl = AnalysisController(d, ModelSignals(d))
     panel = PolynomialPanel()
@@ -177,7 +179,7 @@ def test_hidden_mode_is_named(qtbot):
 def test_panels_clear_on_error_result(loop, qtbot):
     d, ctl, panels = loop
     d.set_parameter(Parameter("T", 1.0, 0.0, 2.0))
-    d.set_sweep("T")  # in no block: E405
+    d.set_tuning_parameter("T")  # in no block: E405
     assert ctl.wait_for_idle(10000)
     assert ctl.result.error is not None
     assert panels["poly"].view.toPlainText() == ""
@@ -201,7 +203,7 @@ def fifth_order(qtbot):
                            ("b", "y", 0), ("b", "H", 0), ("H", "e", 1)):
         d.connect(src, dst, port)
     d.set_parameter(Parameter("K", 2.0, 0.0, 20.0))
-    d.set_sweep("K")
+    d.set_tuning_parameter("K")
     d.set_analysis(input="r", output="y")
     ctl = AnalysisController(d, ModelSignals(d))
     assert ctl.wait_for_idle(20000) and ctl.result.ok, ctl.result.message

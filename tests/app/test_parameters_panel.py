@@ -72,9 +72,9 @@ def test_tuning_choice(qtbot, setup):
     d, stack, panel = setup
     panel.table.item(row_of(panel, "T"), 1).setText("0.5")
     qtbot.mouseClick(panel.tune_group.button(row_of(panel, "T")), Qt.MouseButton.LeftButton)
-    assert d.sweep == "T"
+    assert d.tuning_parameter == "T"
     stack.undo()
-    assert d.sweep == "K" and panel.tune_group.button(row_of(panel, "K")).isChecked()
+    assert d.tuning_parameter == "K" and panel.tune_group.button(row_of(panel, "K")).isChecked()
 
 
 def test_decay_requirement(qtbot, setup):

@@ -13,6 +13,7 @@ from scipy import signal
 
 from app.bridge import ModelSignals
 from app.controller import AnalysisController
+from app.document.editing import commit_nominals
 from app.panels import attach
 from app.panels.requirements_panel import RequirementsPanel
 from app.panels.step_panel import StepPanel
@@ -35,7 +36,8 @@ def conveyor_closed_loop(k: float):
 def panels(qtbot, diagram):
     signals = ModelSignals(diagram)
     stack = QUndoStack()
-    controller = AnalysisController(diagram, signals, stack)
+    controller = AnalysisController(diagram, signals)
+    commit_nominals(controller, diagram, stack)
     step, requirements = StepPanel(), RequirementsPanel()
     qtbot.addWidget(step)
     qtbot.addWidget(requirements)

@@ -14,7 +14,7 @@ from PySide6.QtCore import QSettings
 from PySide6.QtWidgets import QMessageBox
 
 from app import about
-from app.commands import RenameCommand, push
+from app.document.commands import RenameCommand, push
 from app.window import shipped_examples
 from core.analysis.report import CAUTION, check_project
 from core.io.project_file import load_project
@@ -153,4 +153,4 @@ def test_window_rebuilds_on_new_document(window, example_path):
     old_scene = window.scene
     window.files.new_project()
     assert window.scene is not old_scene and window.view.scene() is window.scene
-    assert window.palette_panel.scene is window.scene
+    assert window.palette_panel.editor is window.editor and window.editor.scene is window.scene

@@ -16,10 +16,10 @@ import pytest
 from PySide6.QtCore import QMimeData
 from PySide6.QtGui import QGuiApplication
 
-from app.canvas.scene import CLIPBOARD_MIME
-from app.commands import EditNodeCommand, push
-from core.model.diagram import Diagram, Node
+from app.document.commands import EditNodeCommand, push
+from app.document.editor import CLIPBOARD_MIME
 from core.io.project_file import find_recoveries, load_project, project_to_dict, save_project
+from core.model.diagram import Diagram, Node
 
 
 @pytest.fixture
@@ -194,11 +194,11 @@ def test_hostile_clipboard_paste_changes_nothing(window, make_loop, payload):
 
 
 def test_analysis_bug_is_shown_not_raised(window, make_loop, analysed, monkeypatch):
-    from app import controller
+    import core.analysis.pipeline as pipeline
 
     def broken(_diagram):
         raise ZeroDivisionError("a bug of ours")
-    monkeypatch.setattr(controller, "check_project", broken)
+    monkeypatch.setattr(pipeline, "check_project", broken)
     window.set_document(make_loop())
     analysed(window)
     result = window.controller.result

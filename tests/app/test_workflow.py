@@ -31,7 +31,7 @@ def place(qtbot, window, kind: str, role: str = "") -> str:
 
 
 def move_node(window, node_id: str, x: float, y: float) -> None:
-    from app.commands import MoveNodesCommand, push
+    from app.document.commands import MoveNodesCommand, push
     node = window.diagram.node(node_id)
     push(window.undo_stack, MoveNodesCommand(window.diagram, {node_id: ((node.x, node.y), (x, y))}))
 
@@ -98,7 +98,7 @@ def test_full_workflow(qtbot, window, dialogs, tmp_path, analysed):
     select(window, c)
     type_and_enter(qtbot, window.inspector.num.edit, "K")
     assert window.diagram.node(p).den == "s*(s+1)*(s+2)" and window.diagram.node(c).num == "K"
-    assert window.diagram.sweep == "K"  # the first parameter became the tuning parameter
+    assert window.diagram.tuning_parameter == "K"  # the first parameter became the tuning parameter
 
     # K's nominal value through the parameters table; K stays the tuning choice
     table = window.parameters.table

@@ -1,35 +1,35 @@
 """Each mouse gesture on the canvas is one small object: press starts it, ``move`` follows the
 mouse, ``release`` finishes it (pushing at most one undo command), ``cancel`` undoes its preview.
 
-The scene creates them; they only read the model, change items' looks, and push commands
-through the scene.
+The editor (:mod:`app.document.editor`) creates them; they only read the model, change items'
+looks, and push commands through the editor.
 """
 from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-from PySide6.QtCore import QPoint, QPointF
+from PySide6.QtCore import QPointF
 
-from ..commands import ConnectCommand, MoveNodesCommand, SetBendsCommand
-from .port_item import PortItem
-from .routing import drag_segment, interior, route
-from .wire_item import WireItem
+from app.canvas.port_item import PortItem
+from app.canvas.routing import drag_segment, interior, route
+from app.canvas.wire_item import WireItem
+from app.document.commands import ConnectCommand, MoveNodesCommand, SetBendsCommand
 
 if TYPE_CHECKING:
-    from .scene import DiagramScene
-    from .view import DiagramView
+    from app.canvas.scene import DiagramScene
+    from app.document.editor import DiagramEditor
 
 
 class NewWireGesture:
     """Drag from an output port: a rubber wire follows the mouse; free input ports light up."""
 
-    def __init__(self, scene: DiagramScene, source: PortItem):
-        self.scene, self.source = scene, source
-        self.rubber = WireItem("<new wire>", scene.theme)
+    def __init__(self, editor: DiagramEditor, source: PortItem):
+        self.editor, self.scene, self.source = editor, editor.scene, source
+        self.rubber = WireItem("<new wire>", self.scene.theme)
         self.rubber.preview = True
         self.rubber.setZValue(10)
-        scene.addItem(self.rubber)
-        self.candidates = [p for p in scene.all_input_ports() if self._acceptable(p)]
+        self.scene.addItem(self.rubber)
+        self.candidates = [p for p in self.scene.all_input_ports() if self._acceptable(p)]
         for port in self.candidates:
             port.set_highlight("candidate")
         self.target: PortItem | None = None
@@ -58,7 +58,7 @@ class NewWireGesture:
             self.scene.statusHint.emit("Drop the wire on a free input port to connect it.")
             return
         bends = return_path(self.scene, self.source, target)
-        self.scene.try_push(ConnectCommand(self.scene.diagram, self.source.node_id, target.node_id, target.index,
+        self.editor.try_push(ConnectCommand(self.scene.diagram, self.source.node_id, target.node_id, target.index,
                                            bends=bends))
 
     def cancel(self) -> None:
@@ -100,10 +100,10 @@ def return_path(scene: DiagramScene, source: PortItem, target: PortItem) -> list
 class MoveGesture:
     """Drag selected nodes: items follow the mouse (snapped); one move command on release."""
 
-    def __init__(self, scene: DiagramScene, grabbed: str, pos: QPointF):
-        self.scene, self.grabbed, self.press = scene, grabbed, QPointF(pos)
-        ids = scene.selected_node_ids() or [grabbed]
-        self.old = {i: (scene.diagram.node(i).x, scene.diagram.node(i).y) for i in ids}
+    def __init__(self, editor: DiagramEditor, grabbed: str, pos: QPointF):
+        self.editor, self.scene, self.grabbed, self.press = editor, editor.scene, grabbed, QPointF(pos)
+        ids = self.scene.selected_node_ids() or [grabbed]
+        self.old = {i: (self.scene.diagram.node(i).x, self.scene.diagram.node(i).y) for i in ids}
         self.delta = (0.0, 0.0)
 
     def move(self, pos: QPointF) -> None:
@@ -120,7 +120,7 @@ class MoveGesture:
             return
         dx, dy = self.delta
         moves = {i: ((x, y), (x + dx, y + dy)) for i, (x, y) in self.old.items()}
-        if not self.scene.try_push(MoveNodesCommand(self.scene.diagram, moves)):
+        if not self.editor.try_push(MoveNodesCommand(self.scene.diagram, moves)):
             self.cancel()
 
     def cancel(self) -> None:
@@ -132,8 +132,9 @@ class MoveGesture:
 class BendGesture:
     """Drag one segment of a wire sideways; on release the new corners become the wire's bends."""
 
-    def __init__(self, scene: DiagramScene, wire: WireItem, segment: int, pos: QPointF):
-        self.scene, self.wire, self.segment, self.press = scene, wire, segment, QPointF(pos)
+    def __init__(self, editor: DiagramEditor, wire: WireItem, segment: int, pos: QPointF):
+        self.editor, self.scene = editor, editor.scene
+        self.wire, self.segment, self.press = wire, segment, QPointF(pos)
         self.original = list(wire.points)
         (_, ay), (_, by) = self.original[segment], self.original[segment + 1]
         self.horizontal = abs(ay - by) < 1e-9
@@ -152,28 +153,8 @@ class BendGesture:
         self.move(pos)
         if self.points == self.original:
             return
-        if not self.scene.try_push(SetBendsCommand(self.scene.diagram, self.wire.key, interior(self.points))):
+        if not self.editor.try_push(SetBendsCommand(self.scene.diagram, self.wire.key, interior(self.points))):
             self.cancel()
 
     def cancel(self) -> None:
         self.wire.set_points(self.original)
-
-
-class PanGesture:
-    """Middle-button or Space+drag: scroll the view with the mouse."""
-
-    def __init__(self, view: DiagramView, pos: QPoint):
-        self.view, self.last = view, QPoint(pos)
-
-    def move(self, pos: QPoint) -> None:
-        d = pos - self.last
-        self.last = QPoint(pos)
-        h, v = self.view.horizontalScrollBar(), self.view.verticalScrollBar()
-        h.setValue(h.value() - d.x())
-        v.setValue(v.value() - d.y())
-
-    def release(self, pos: QPoint) -> None:
-        self.move(pos)
-
-    def cancel(self) -> None:
-        pass

@@ -228,10 +228,10 @@ class RemoveParameterCommand(ModelCommand):
         self.diagram, self.name = diagram, name
         self.old: Parameter | None = None
         self.order: list[str] = []
-        self.sweep: str | None = None
+        self.tuning_parameter: str | None = None
 
     def apply(self) -> None:
-        self.order, self.sweep = list(self.diagram.parameters), self.diagram.sweep
+        self.order, self.tuning_parameter = list(self.diagram.parameters), self.diagram.tuning_parameter
         self.old = self.diagram.remove_parameter(self.name)
 
     def revert(self) -> None:
@@ -240,8 +240,8 @@ class RemoveParameterCommand(ModelCommand):
         for name in self.order[self.order.index(self.name) + 1:]:  # re-append later ones: old order
             if name in d.parameters:
                 d.set_parameter(d.remove_parameter(name))
-        if d.sweep != self.sweep:
-            d.set_sweep(self.sweep)
+        if d.tuning_parameter != self.tuning_parameter:
+            d.set_tuning_parameter(self.tuning_parameter)
 
 
 class SetSweepCommand(ModelCommand):
@@ -253,10 +253,10 @@ class SetSweepCommand(ModelCommand):
         self.old: str | None = None
 
     def apply(self) -> None:
-        self.old = self.diagram.set_sweep(self.name)
+        self.old = self.diagram.set_tuning_parameter(self.name)
 
     def revert(self) -> None:
-        self.diagram.set_sweep(self.old)
+        self.diagram.set_tuning_parameter(self.old)
 
 
 class SetAnalysisCommand(ModelCommand):
