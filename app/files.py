@@ -26,7 +26,7 @@ from core.io.project_file import (
     find_recoveries,
     load_project,
     load_recovery,
-    recovery_path,
+    new_recovery_owner,
     save_project,
     write_recovery,
 )
@@ -110,7 +110,7 @@ class RecentFiles:
     def paths(self) -> list[Path]:
         """Recent files that still exist (the stored list is pruned as a side effect)."""
         stored = [Path(p) for p in self._stored()]
-        alive = [p for p in stored if p.is_file()][:MAX_RECENT]
+        alive = [p for p in stored if is_file_quietly(p)][:MAX_RECENT]
         if len(alive) != len(stored):
             self._store(alive)
         return alive
@@ -152,7 +152,9 @@ class ProjectFiles(QObject):
         self.recent = RecentFiles()
         self.path: Path | None = None
         self.fingerprint = None
-        self._recoveries: set[Path] = set()   # autosaved copies that belong to the open project
+        self.owner = new_recovery_owner()      # this run's autosaved copies carry it
+        self._written: set[Path] = set()       # autosaved copies this run wrote for the open project
+        self._adopted: set[Path] = set()       # another run's copy the user chose to recover
         self.autosave_timer = QTimer(self)
         self.autosave_timer.setInterval(autosave_ms)
         self.autosave_timer.timeout.connect(self.autosave)
@@ -263,32 +265,39 @@ class ProjectFiles(QObject):
 
     # -- recovery ---------------------------------------------------------------------------------
     def autosave(self) -> Path | None:
-        """Write the recovery copy when there are unsaved changes; return where it went."""
+        """Write this run's recovery copy when there are unsaved changes; return where it went."""
         if self.is_clean:
             return None
         try:
-            target = write_recovery(self.host.diagram, self.path)
+            target = write_recovery(self.host.diagram, self.path, self.owner)
         except LoopwrightError as err:
             self.message.emit(f"Autosave failed: {err}")
             return None
-        self._recoveries.add(target)
+        self._written.add(target)
         return target
 
     def forget_recoveries(self) -> None:
-        """Remove the autosaved copies of the open project (after a save, or when it is left)."""
-        for path in [*list(self._recoveries), recovery_path(self.path)]:
+        """After a save, or when the user let the open project's unsaved work go: remove the copies
+        this run wrote (only if still recorded as ours) and the recovered copy the user adopted."""
+        for path, owner in [(p, self.owner) for p in self._written] + [(p, None) for p in self._adopted]:
             try:
-                discard_recovery(path)
+                discard_recovery(path, owner)
             except LoopwrightError as err:
                 self.message.emit(f"Could not remove an autosaved copy: {err}")
-        self._recoveries.clear()
+        self._written.clear()
+        self._adopted.clear()
 
     def offer_recoveries(self) -> bool:
         """On start: offer each autosaved copy (recover, discard, or keep for later); True if one was recovered."""
         for recovery in find_recoveries():
+            if recovery.owner == self.owner:
+                continue
             answer = self.dialogs.recover(self.host, recovery)
             if answer == "discard":
-                discard_recovery(recovery.path)
+                try:
+                    discard_recovery(recovery.path)
+                except LoopwrightError as err:
+                    self.dialogs.error(self.host, "Could not discard the autosaved copy", err)
             elif answer == "recover":
                 try:
                     diagram = load_recovery(recovery.path)
@@ -297,14 +306,22 @@ class ProjectFiles(QObject):
                     continue
                 project = recovery.project_path
                 fingerprint = None
-                if project is not None and project.is_file():
+                if project is not None and is_file_quietly(project):
                     try:
                         fingerprint = file_fingerprint(project)
                     except LoopwrightError:
                         fingerprint = None
                 self._adopt(diagram, project, fingerprint, dirty=True)
-                self._recoveries.add(recovery.path)
+                self._adopted.add(recovery.path)
                 return True
+        return False
+
+
+def is_file_quietly(path: Path) -> bool:
+    """Whether ``path`` is a file; False also when its folder cannot be entered or the name is too long."""
+    try:
+        return Path(path).is_file()
+    except OSError:
         return False
 
 

@@ -449,22 +449,11 @@ def test_read_only_folder(tmp_path, monkeypatch):
 def test_disk_full(tmp_path, monkeypatch):
     d, path = saved_example(tmp_path)
     before = path.read_bytes()
-    real_fdopen = os.fdopen
 
-    class FullFile:
-        def __init__(self, fh):
-            self.fh = fh
+    def full(fd, data):
+        raise OSError(errno.ENOSPC, "No space left on device")
 
-        def __enter__(self):
-            return self
-
-        def __exit__(self, *exc):
-            self.fh.close()
-
-        def write(self, data):
-            raise OSError(errno.ENOSPC, "No space left on device")
-
-    monkeypatch.setattr(os, "fdopen", lambda fd, mode="r", *a, **k: FullFile(real_fdopen(fd, mode, *a, **k)))
+    monkeypatch.setattr(os, "write", full)
     with pytest.raises(ProjectFileError) as info:
         save_project(d, path)
     assert info.value.code == "E209" and "disk is full" in info.value.message
@@ -514,20 +503,21 @@ def test_fingerprint_is_content_based(tmp_path):
 # -- recovery ------------------------------------------------------------------------------------------
 def test_recovery_write_find_load_discard(tmp_path, monkeypatch):
     monkeypatch.setenv("LOOPWRIGHT_STATE_DIR", str(tmp_path / "state"))
+    owner = pf.new_recovery_owner()
     d = loads_project(ISSUE_JSON, "x")
     project = tmp_path / "belt.loop.json"
-    target = pf.write_recovery(d, project)
-    untitled = pf.write_recovery(Diagram("scratch"), None)
-    assert target == pf.recovery_path(project) and target.parent == tmp_path / "state" / "recovery"
+    target = pf.write_recovery(d, project, owner)
+    untitled = pf.write_recovery(Diagram("scratch"), None, owner)
+    assert target == pf.recovery_path(project, owner) and target.parent == tmp_path / "state" / "recovery"
     assert target != untitled
     found = {r.path: r for r in pf.find_recoveries()}
     assert found[target].project_path == project.absolute() and found[target].name == d.name
-    assert found[untitled].project_path is None
+    assert found[untitled].project_path is None and found[untitled].owner == owner
     assert project_to_dict(pf.load_recovery(target)) == project_to_dict(d)
     (target.parent / "junk.recovery.json").write_text("{not json")
     assert len(pf.find_recoveries()) == 2
-    pf.discard_recovery(target)
-    pf.discard_recovery(target)  # already gone: fine
+    assert pf.discard_recovery(target, owner)
+    assert not pf.discard_recovery(target, owner)  # already gone: fine
     assert [r.path for r in pf.find_recoveries()] == [untitled]
     with pytest.raises(ProjectFileError):
         pf.discard_recovery(project)

@@ -659,12 +659,53 @@ def file_fingerprint(path) -> Fingerprint:
     return Fingerprint(mtime, len(raw), hashlib.sha256(raw).hexdigest())
 
 
-def _os_problem(exc: OSError) -> str:
+def _os_problem(exc: OSError, reading: bool = False) -> str:
     if exc.errno in (errno.ENOSPC, getattr(errno, "EDQUOT", -1)):
         return "the disk is full"
+    if exc.errno == errno.ENAMETOOLONG:
+        return f"a file name there would be too long (at most {MAX_NAME_BYTES} bytes)"
     if isinstance(exc, PermissionError) or exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
-        return "no permission to write there"
+        return "no permission to read it" if reading else "no permission to write there"
     return exc.strerror or str(exc) or type(exc).__name__
+
+
+MAX_NAME_BYTES = 255          # one file name, on the file systems people save to
+TEMP_TOKEN_HEX = 12
+STALE_TEMP_SECONDS = 3600     # a temp file of ours this old is left over from a killed save
+_TEMP_NAME = re.compile(r"\..+\.[0-9a-f]{" + str(TEMP_TOKEN_HEX) + r"}\.tmp", re.DOTALL)
+
+
+def _fit_name(prefix: str, suffix: str) -> str:
+    """``prefix + suffix``, the prefix cut at a character boundary so the name fits MAX_NAME_BYTES.
+
+    >>> len(_fit_name("é" * 200, ".bak").encode()), _fit_name("belt", ".bak")
+    (254, 'belt.bak')
+    """
+    room = MAX_NAME_BYTES - len(os.fsencode(suffix))
+    while len(os.fsencode(prefix)) > room:
+        prefix = prefix[:-1]
+    return prefix + suffix
+
+
+def temp_name(name: str, token: str) -> str:
+    """The hidden temp file's name for a save of ``name`` (fits MAX_NAME_BYTES; see :data:`_TEMP_NAME`)."""
+    return _fit_name("." + name, f".{token}.tmp")
+
+
+def backup_name(name: str) -> str:
+    """``NAME.bak``; for a name too long for that, a cut name with a short hash of the whole name.
+
+    >>> backup_name("belt.loop.json")
+    'belt.loop.json.bak'
+    >>> long = "x" * 250 + ".loop.json"
+    >>> b = backup_name(long); len(b), b.endswith(".bak"), b == backup_name(long)
+    (255, True, True)
+    """
+    plain = name + ".bak"
+    if len(os.fsencode(plain)) <= MAX_NAME_BYTES:
+        return plain
+    digest = hashlib.sha256(os.fsencode(name)).hexdigest()[:8]
+    return _fit_name(name, f"~{digest}.bak")
 
 
 def _fsync_directory(directory: Path) -> None:
@@ -681,23 +722,31 @@ def _fsync_directory(directory: Path) -> None:
         os.close(fd)
 
 
-def _write_temp(directory: Path, stem: str, data: bytes, mode: int | None = None) -> Path:
-    """A new hidden temp file beside the target holding ``data``, flushed and fsynced.
+def _write_all(fd: int, data: bytes) -> None:
+    view = memoryview(data)
+    while view:
+        written = os.write(fd, view)
+        view = view[written:]
+
+
+def _write_temp(directory: Path, name: str, data: bytes, mode: int | None = None) -> Path:
+    """A new hidden temp file beside ``name`` holding ``data``, written and fsynced.
 
     Created with mode 0o666 less the umask (like any new file), or ``mode`` to keep an existing
     file's permissions.
     """
-    temp = directory / f".{stem}.{secrets.token_hex(6)}.tmp"
+    temp = directory / temp_name(name, secrets.token_hex(TEMP_TOKEN_HEX // 2))
     fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0), 0o666)
     try:
-        if mode is not None:
-            os.chmod(temp, mode)
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
+        try:
+            if mode is not None:
+                os.chmod(temp, mode)
+            _write_all(fd, data)
+            os.fsync(fd)
+        finally:
+            os.close(fd)
     except BaseException:
-        _remove_quietly(Path(temp))
+        _remove_quietly(temp)
         raise
     return temp
 
@@ -709,40 +758,130 @@ def _remove_quietly(path: Path) -> None:
         pass
 
 
+def remove_stale_temps(directory: Path, now: float | None = None) -> list[Path]:
+    """Delete hidden temp files of our own pattern older than :data:`STALE_TEMP_SECONDS` (left by
+    a save that was killed); return what was removed. Problems only mean nothing is removed."""
+    now = time.time() if now is None else now
+    removed = []
+    try:
+        entries = list(os.scandir(directory))
+    except OSError:
+        return removed
+    for entry in entries:
+        if not _TEMP_NAME.fullmatch(entry.name):
+            continue
+        try:
+            if entry.is_file(follow_symlinks=False) and now - entry.stat(follow_symlinks=False).st_mtime > STALE_TEMP_SECONDS:
+                os.unlink(entry.path)
+                removed.append(Path(entry.path))
+        except OSError:
+            continue
+    return removed
+
+
+def save_target(path) -> Path:
+    """Where a save of ``path`` really goes: a symbolic link's target (so the link stays a link).
+
+    E209 when the name is too long or its folder cannot be entered.
+    """
+    path = Path(path)
+    _check_name_length(path, str(path))
+    try:
+        return Path(os.path.realpath(path)) if path.is_symlink() else path
+    except OSError as exc:
+        raise _folder_problem(path, exc) from None
+
+
+def _check_name_length(path: Path, where: str) -> None:
+    size = len(os.fsencode(path.name))
+    if size > MAX_NAME_BYTES:
+        raise ProjectFileError("E209", f"the file name is {size} bytes long; at most {MAX_NAME_BYTES} are "
+                                       f"allowed; {SAVE_AS_HINT} and a shorter name", where=where)
+
+
+def _folder_problem(path: Path, exc: OSError) -> ProjectFileError:
+    return ProjectFileError("E209", f"cannot open the folder {path.parent}: {_os_problem(exc, True)}; "
+                                    f"{SAVE_AS_HINT}", where=str(path))
+
+
+class _Step:
+    """Turns an OSError in one step of a save into E209 naming that step; the previous file is unchanged."""
+
+    def __init__(self, where: str, directory: Path):
+        self.where, self.directory = where, directory
+
+    def fail(self, what: str, exc: OSError, reading: bool = False) -> ProjectFileError:
+        return ProjectFileError("E209", f"could not save in {self.directory}: {what}: "
+                                        f"{_os_problem(exc, reading)}; the previous file is unchanged; "
+                                        f"{SAVE_AS_HINT}", where=self.where)
+
+
+def _check_target(path: Path, where: str) -> None:
+    """E209 before anything is written: a folder, a missing folder, a name too long."""
+    _check_name_length(path, where)
+    try:
+        if path.is_dir():
+            raise ProjectFileError("E209", f"this is a folder; {SAVE_AS_HINT} and a file name", where=where)
+        if not path.parent.is_dir():
+            raise ProjectFileError("E209", f"the folder {path.parent} does not exist; {SAVE_AS_HINT}",
+                                   where=where)
+    except OSError as exc:
+        raise _folder_problem(path, exc) from None
+
+
 def atomic_write(path, data: bytes, *, backup: bool = True) -> None:
     """Replace ``path`` with ``data`` so that readers see the old file or the new one, never half.
 
-    The new bytes go to a temp file in the same folder (flushed and fsynced), the old file is
-    copied to ``NAME.bak`` (itself written atomically), then the temp file is renamed over
-    ``path`` and the folder fsynced. On any failure the old file is untouched, temp files are
-    removed and :class:`ProjectFileError` E209 says what and where.
+    A symbolic link is followed: its target is replaced (the ``.bak`` goes beside the target).
+    The new bytes go to a hidden temp file in the same folder (written and fsynced), the old file
+    is copied to :func:`backup_name` (itself written atomically), then the temp file is renamed
+    over the target and the folder fsynced. Stale temp files of ours are removed first. On any
+    failure the old file is untouched, temp files are removed and :class:`ProjectFileError` E209
+    says which step failed and where.
     """
-    path = Path(path)
     where = str(path)
-    if path.is_dir():
-        raise ProjectFileError("E209", f"this is a folder; {SAVE_AS_HINT} and a file name", where=where)
-    directory = path.parent
-    if not directory.is_dir():
-        raise ProjectFileError("E209", f"the folder {directory} does not exist; {SAVE_AS_HINT}", where=where)
+    target = save_target(path)
+    _check_target(target, where)
+    directory = target.parent
+    step = _Step(where, directory)
+    remove_stale_temps(directory)
     temps: list[Path] = []
     try:
-        existing = path.is_file()
-        mode = stat.S_IMODE(path.stat().st_mode) if existing else None
-        temps.append(_write_temp(directory, path.name, data, mode))
+        try:
+            existing = target.is_file()
+            mode = stat.S_IMODE(target.stat().st_mode) if existing else None
+        except OSError as exc:
+            raise step.fail("cannot look at the previous file", exc, reading=True) from exc
+        try:
+            temps.append(_write_temp(directory, target.name, data, mode))
+        except OSError as exc:
+            raise step.fail("cannot write the new file", exc) from exc
         if backup and existing:
-            old = path.read_bytes()
-            temps.append(_write_temp(directory, path.name + ".bak", old, mode))
-            os.replace(temps[-1], path.with_name(path.name + ".bak"))
-            temps.pop()
-        os.replace(temps[0], path)
+            _keep_backup(target, mode, temps, step)
+        try:
+            os.replace(temps[0], target)
+        except OSError as exc:
+            raise step.fail("cannot put the new file in place", exc) from exc
         temps.pop()
-    except OSError as exc:
-        raise ProjectFileError("E209", f"could not save in {directory}: {_os_problem(exc)}; "
-                                       f"the previous file is unchanged; {SAVE_AS_HINT}", where=where) from exc
     finally:
         for temp in temps:
             _remove_quietly(temp)
     _fsync_directory(directory)
+
+
+def _keep_backup(target: Path, mode: int | None, temps: list[Path], step: _Step) -> None:
+    """Copy the file about to be replaced to its backup name, atomically."""
+    bak = target.with_name(backup_name(target.name))
+    try:
+        old = target.read_bytes()
+    except OSError as exc:
+        raise step.fail(f"cannot read the previous file to keep it as {bak.name}", exc, reading=True) from exc
+    try:
+        temps.append(_write_temp(target.parent, bak.name, old, mode))
+        os.replace(temps[-1], bak)
+    except OSError as exc:
+        raise step.fail(f"cannot write the backup {bak.name}", exc) from exc
+    temps.pop()
 
 
 def save_project(diagram: Diagram, path, *, expected_fingerprint: Fingerprint | None = None,
@@ -779,14 +918,23 @@ def save_project(diagram: Diagram, path, *, expected_fingerprint: Fingerprint | 
 
 
 # -- crash recovery ---------------------------------------------------------------------------------
+# Every run that autosaves has an *owner* token (random, so runs that share a process id, as in
+# containers, never collide). The token is in each autosaved copy's name and in its owner record;
+# a run writes and removes only its own copies. Removing another run's copy takes the user's word.
 @dataclass(frozen=True)
 class Recovery:
-    """An autosaved copy found on start-up: where it is, which project it belongs to, when."""
+    """An autosaved copy found on start-up: where it is, which project it belongs to, when, whose."""
 
     path: Path
     project_path: Path | None
     saved_at: float
     name: str
+    owner: str | None = None
+
+
+def new_recovery_owner() -> str:
+    """A fresh owner token for one run's autosaved copies."""
+    return secrets.token_hex(8)
 
 
 def state_directory() -> Path:
@@ -803,32 +951,44 @@ def recovery_directory() -> Path:
     return state_directory() / "recovery"
 
 
-def recovery_path(project_path=None) -> Path:
-    """The autosave file for a project (by its absolute path), or for this process's untitled one.
+_OWNER_TOKEN = re.compile(r"[0-9a-f]{16}")
 
-    >>> recovery_path("/home/a/belt.loop.json").name.startswith("belt-")
-    True
+
+def recovery_path(project_path, owner: str) -> Path:
+    """The autosave file of one run (``owner``) for a project (by its absolute path) or an untitled one.
+
+    >>> p = recovery_path("/home/a/belt.loop.json", "0123456789abcdef")
+    >>> p.name.startswith("belt-"), p.name.endswith("-0123456789abcdef.recovery.json")
+    (True, True)
     """
+    if not _OWNER_TOKEN.fullmatch(owner or ""):
+        raise ValueError("a recovery owner is a token from new_recovery_owner()")
     if project_path is None:
-        name = f"untitled-{os.getpid()}"
+        name = f"untitled-{owner}"
     else:
         absolute = str(Path(project_path).expanduser().absolute())
         stem = Path(absolute).name.removesuffix(SUFFIX)[:40] or "project"
-        name = f"{stem}-{hashlib.sha256(absolute.encode('utf-8', 'surrogatepass')).hexdigest()[:12]}"
+        name = f"{stem}-{hashlib.sha256(absolute.encode('utf-8', 'surrogatepass')).hexdigest()[:12]}-{owner}"
     return recovery_directory() / f"{name}.recovery.json"
 
 
-def write_recovery(diagram: Diagram, project_path=None) -> Path:
-    """Autosave the diagram (atomically, no backup) to its :func:`recovery_path`; return that path."""
-    target = recovery_path(project_path)
+def write_recovery(diagram: Diagram, project_path, owner: str) -> Path:
+    """Autosave the diagram (atomically, no backup) to this run's :func:`recovery_path`; return it.
+
+    A file there that another run owns is never replaced (E209).
+    """
+    target = recovery_path(project_path, owner)
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise ProjectFileError("E209", f"cannot create the recovery folder: {_os_problem(exc)}",
                                where=str(target.parent)) from exc
+    if target.exists() and _owner_of(target) != owner:
+        raise ProjectFileError("E209", "an autosaved copy of another run is in the way; it is kept",
+                               where=str(target))
     wrapper = {"format": RECOVERY_FORMAT, "version": 1,
                "project_path": None if project_path is None else str(Path(project_path).absolute()),
-               "saved_at": time.time(), "project": project_to_dict(diagram)}
+               "saved_at": time.time(), "owner": owner, "pid": os.getpid(), "project": project_to_dict(diagram)}
     atomic_write(target, json.dumps(wrapper, ensure_ascii=False).encode("utf-8"), backup=False)
     return target
 
@@ -843,20 +1003,32 @@ def _read_recovery(path: Path) -> dict:
     return data
 
 
+def _owner_of(path: Path) -> str | None:
+    """The owner token recorded in an autosaved copy (None when unreadable or not recorded)."""
+    try:
+        owner = _read_recovery(path).get("owner")
+    except ProjectFileError:
+        return None
+    return owner if isinstance(owner, str) else None
+
+
 def find_recoveries() -> list[Recovery]:
     """Autosaved copies waiting to be restored or discarded, newest first (unreadable ones skipped)."""
     directory = recovery_directory()
-    if not directory.is_dir():
+    try:
+        paths = list(directory.glob("*.recovery.json")) if directory.is_dir() else []
+    except OSError:
         return []
     found = []
-    for path in directory.glob("*.recovery.json"):
+    for path in paths:
         try:
             data = _read_recovery(path)
         except ProjectFileError:
             continue
-        name = data["project"].get("name")
+        name, owner = data["project"].get("name"), data.get("owner")
         found.append(Recovery(path, Path(data["project_path"]) if data["project_path"] else None,
-                              float(data["saved_at"]), name if isinstance(name, str) else DEFAULT_NAME))
+                              float(data["saved_at"]), name if isinstance(name, str) else DEFAULT_NAME,
+                              owner if isinstance(owner, str) else None))
     return sorted(found, key=lambda r: r.saved_at, reverse=True)
 
 
@@ -866,16 +1038,23 @@ def load_recovery(path) -> Diagram:
     return project_from_dict(_read_recovery(path)["project"], str(path))
 
 
-def discard_recovery(path) -> None:
-    """Delete an autosaved copy (one inside :func:`recovery_directory`); a missing one is fine."""
+def discard_recovery(path, owner: str | None = None) -> bool:
+    """Delete an autosaved copy in :func:`recovery_directory`; return whether it was removed.
+
+    With ``owner`` only a copy recorded as that run's is removed (another run's, or one that
+    cannot be read, is kept). Without it the user chose to discard this copy. A missing one is fine.
+    """
     path = Path(path)
     if path.parent.resolve() != recovery_directory().resolve() or not path.name.endswith(".recovery.json"):
         raise ProjectFileError("E209", "only autosaved copies in the recovery folder can be discarded",
                                where=str(path))
+    if owner is not None and path.exists() and _owner_of(path) != owner:
+        return False
     try:
         path.unlink()
     except FileNotFoundError:
-        pass
+        return False
     except OSError as exc:
         raise ProjectFileError("E209", f"cannot remove the autosaved copy: {_os_problem(exc)}",
                                where=str(path)) from exc
+    return True

@@ -13,6 +13,7 @@ from app.files import MAX_RECENT, RecentFiles
 from core.io.project_file import (
     find_recoveries,
     load_project,
+    new_recovery_owner,
     project_to_dict,
     recovery_path,
     save_project,
@@ -141,7 +142,7 @@ def test_autosave_writes_recovery_and_clean_save_removes_it(window, dialogs, sav
     assert window.files.autosave() is None  # nothing unsaved
     edit(window)
     copy = window.files.autosave()
-    assert copy == recovery_path(saved) and copy.is_file()
+    assert copy == recovery_path(saved, window.files.owner) and copy.is_file()
     assert window.files.autosave_timer.interval() == 30_000
     assert window.files.save()
     assert not copy.exists()
@@ -150,7 +151,7 @@ def test_autosave_writes_recovery_and_clean_save_removes_it(window, dialogs, sav
 def test_recovery_offered_after_a_crash(qtbot, dialogs, state_dir, saved, make_loop):
     crashed = make_loop("work in progress")
     crashed.update_node("P", den="s^2 + 4")
-    write_recovery(crashed, saved)  # what an autosave left behind before the crash
+    write_recovery(crashed, saved, new_recovery_owner())  # what an autosave left behind before the crash
     from app.window import MainWindow
     dialogs.answers["recover"] = "recover"
     win = MainWindow(dialogs=dialogs)
@@ -166,7 +167,7 @@ def test_recovery_offered_after_a_crash(qtbot, dialogs, state_dir, saved, make_l
 
 
 def test_recovery_later_keeps_and_discard_removes(qtbot, dialogs, state_dir, make_loop):
-    write_recovery(make_loop("never saved"), None)
+    write_recovery(make_loop("never saved"), None, new_recovery_owner())
     from app.window import MainWindow
     win = MainWindow(dialogs=dialogs)
     qtbot.addWidget(win)
@@ -177,6 +178,37 @@ def test_recovery_later_keeps_and_discard_removes(qtbot, dialogs, state_dir, mak
     assert not win.files.offer_recoveries()
     assert find_recoveries() == []
     win.close()
+
+
+def test_later_then_leaving_keeps_the_crashed_runs_copy(qtbot, dialogs, state_dir, saved, make_loop, monkeypatch):
+    # issue 17 item 1: every launch may get the same process id (containers)
+    monkeypatch.setattr(os, "getpid", lambda: 1)
+    crashed = write_recovery(make_loop("crashed work"), saved, new_recovery_owner())
+    before = crashed.read_bytes()
+    from app.window import MainWindow
+    win = MainWindow(dialogs=dialogs)
+    qtbot.addWidget(win)
+    dialogs.answers["recover"] = "later"
+    assert not win.files.offer_recoveries()
+    assert win.files.open(saved)
+    edit(win)
+    assert win.files.autosave() != crashed  # our own copy, never the crashed run's
+    assert crashed.read_bytes() == before
+    assert win.files.save()
+    dialogs.answers["unsaved"] = "discard"
+    assert win.files.new_project()
+    win.close()
+    assert crashed.read_bytes() == before
+    assert [r.path for r in find_recoveries()] == [crashed]
+
+
+def test_save_as_a_name_too_long_shows_the_failure(window, dialogs, tmp_path):
+    # issue 17 item 3: the error is a dialog, not an OSError out of the slot (255 bytes: ext4 limit, from memory)
+    dialogs.answers["save_path"] = [str(tmp_path / ("n" * 300 + ".loop.json")), None]
+    dialogs.answers["save_failed"] = "save_as"
+    assert not window.files.save_as()
+    kind, (err,) = dialogs.asked[1]
+    assert kind == "save_failed" and err.code == "E209" and "bytes long" in err.message
 
 
 def test_recent_files_newest_first_capped_and_pruned(tmp_path):
