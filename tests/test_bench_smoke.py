@@ -52,6 +52,7 @@ def test_whole_report_agrees_with_the_sympy_baseline_at_degree_6():
     assert not stable(lo - width * 1e-6) and not stable(hi + width * 1e-6)
 
 
+@pytest.mark.slow  # plumbing only (about 20 s): run by make test-slow
 def test_baseline_runs_capped_in_a_child_process():
     times = timing.run_in_child(baseline.timed_baseline, (4, 1, 60.0), timeout_s=120)
     assert len(times) == 1 and times[0] is not None

@@ -166,10 +166,12 @@ def _tokenize(text: str, where: str | None) -> list[_Token]:
         elif ch.isascii() and (ch.isdigit() or (ch == "." and i + 1 < n and text[i + 1].isascii()
                                                  and text[i + 1].isdigit())):
             m = _NUMBER.match(text, i)
+            assert m is not None  # a digit or '.digit' always starts a number
             tokens.append(_Token("num", m.group(0), column, _number_value(m, where, column)))
             i = m.end()
         elif ch.isascii() and (ch.isalpha() or ch == "_"):
             m = _NAME.match(text, i)
+            assert m is not None  # a letter or '_' always starts a name
             _check_name(m.group(0), where, column)
             tokens.append(_Token("name", m.group(0), column))
             i = m.end()

@@ -80,7 +80,7 @@ def mpoly_from_dict(parameters: Sequence[str], terms: Mapping[tuple[int, ...], o
     return ctx.from_dict({exps: to_fmpq(c) for exps, c in terms.items()})
 
 
-def _join_terms(terms: list[tuple[fmpq | str, str]]) -> str:
+def _join_terms(terms: Sequence[tuple[str, str]]) -> str:
     """Join (sign-carrying coefficient text, monomial text) pairs as a readable sum."""
     out = ""
     for coeff, mono in terms:
@@ -198,7 +198,7 @@ class ParametricPolynomial:
         """
         names = poly.context().names()
         values = values or {}
-        fixed = {n: to_fmpq(values[n]) for n in names[1:] if n != parameter and n in values}
+        fixed: dict[str | int, fmpq] = {n: to_fmpq(values[n]) for n in names[1:] if n != parameter and n in values}
         if fixed:
             poly = poly.subs(fixed)
         by_power: dict[int, dict[int, fmpq]] = {}

@@ -191,10 +191,14 @@ class AnalysisResult:
                 raise self.step_errors[input_id]
             if input_id in self.steps:
                 return self.steps[input_id]
+        if self.time_domain is None:
+            raise KeyError(input_id)
         return step_response(self.time_domain.transfers[input_id], value)
 
     def _nominal_value(self) -> float | None:
-        return self.tuning_range.nominal if self.tuning_range is not None and self.report.parameter is not None else None
+        if self.tuning_range is None or self.report is None or self.report.parameter is None:
+            return None
+        return self.tuning_range.nominal
 
 
 def _evaluate_table(table: np.ndarray, value: float | None) -> np.ndarray:
@@ -293,7 +297,7 @@ def _nominal_steps(result: AnalysisResult) -> None:
 
 def float_sensitivity(result: AnalysisResult, tuning: TuningRange | None) -> str | None:
     """A warning when the poles drawn at the nominal value (numpy) disagree with the exact counts."""
-    nominal = result.report.nominal
+    nominal = result.report.nominal if result.report is not None else None
     if nominal is None:
         return None
     drawn = result.poles_at(tuning.nominal if tuning is not None else None)

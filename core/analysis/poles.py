@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any, cast
 
 import numpy as np
 from flint import fmpq_poly
@@ -55,7 +56,7 @@ def certified_roots(coeffs: Sequence) -> list[Pole]:
     if poly.degree() < 1:
         return []
     poles: list[Pole] = []
-    for root, mult in poly.complex_roots():
+    for root, mult in cast("list[tuple[Any, int]]", poly.complex_roots()):  # stub: (ball, mult) pairs
         re, im = float(root.real.mid()), float(root.imag.mid())
         poles.append(Pole(re, 0.0 if root.imag == 0 else im, int(mult)))
     poles.sort(key=lambda p: (-p.re, -p.im))
@@ -72,7 +73,7 @@ def dominant_pole(poles: Sequence[Pole]) -> Pole | None:
     return max(poles, key=lambda p: (p.re, p.im), default=None)
 
 
-def pole_paths(poly: ParametricPolynomial, values: Sequence[float]) -> np.ndarray:
+def pole_paths(poly: ParametricPolynomial, values: Sequence[float] | np.ndarray) -> np.ndarray:
     """Roots at each parameter value: array (len(values), degree) complex, NaN where absent.
 
     Vectorised: batched companion-matrix eigenvalues at every ``ANCHOR_STRIDE``-th value, and
@@ -219,9 +220,9 @@ def _match_paths(roots: np.ndarray) -> np.ndarray:
     dist = np.abs(prev[:, :, None] - cur[:, None, :])  # (m - 1, n, n)
     step = np.argmin(dist, axis=2)  # step[i, a]: the root of row i + 1 nearest root a of row i
     one_to_one = (np.sort(step, axis=1) == np.arange(n)).all(axis=1)
-    for i in np.flatnonzero(usable & ~one_to_one):
-        step[i] = _greedy_match(dist[i])
-    order = np.arange(n)
+    for row in np.flatnonzero(usable & ~one_to_one):
+        step[row] = _greedy_match(dist[row])
+    order: np.ndarray = np.arange(n)
     for i in range(1, m):
         order = step[i - 1][order] if usable[i - 1] else np.arange(n)
         out[i] = roots[i, order]

@@ -12,14 +12,16 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from flint import arb, ctx, fmpq, fmpq_poly
+from flint import arb, ctx, fmpq, fmpq_mpoly, fmpq_poly
 
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, primitive_scale, to_fmpq
 from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
 from core.analysis.routh import RouthArray, is_hurwitz, routh_array, routh_counts
 from core.analysis.stable_range import (
+    Margins,
     StableRange,
     decay_range,
     margins,
@@ -29,6 +31,9 @@ from core.analysis.stable_range import (
 )
 from core.errors import AnalysisError
 from core.model.diagram import Diagram
+
+if TYPE_CHECKING:
+    from core.graph.reduction import Reduction
 
 CAUTION = ("A linear model is not a safety case. Before power is applied, check actuator saturation, "
            "time delays, sampling, sensor noise and hardware limits; defer to the applicable machinery "
@@ -112,14 +117,14 @@ class Report:
     stable_range: StableRange | None
     nominal: Nominal | None
     decay: Decay | None
-    margins: object | None = None
+    margins: Margins | None = None
     hidden_modes: list[HiddenMode] = field(default_factory=list)
     transfer_function: dict | None = None
     zeros: list[Pole] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     source: str = ""
-    closed_num: object | None = None  # the transfer function numerator, exact (fmpq_mpoly, factors cancelled)
-    reduction: object | None = field(default=None, repr=False, compare=False)  # input to output, for reuse
+    closed_num: fmpq_mpoly | None = None  # the transfer function numerator, exact (fmpq_mpoly, factors cancelled)
+    reduction: Reduction | None = field(default=None, repr=False, compare=False)  # input to output, for reuse
 
     @property
     def dominant(self) -> Pole | None:
@@ -347,12 +352,13 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
     report.source = source or project.name
     report.reduction = red
     report.warnings = list(red.warnings) + report.warnings
-    if red.closed_num is not None:
-        scale, full_scale = primitive_scale(red.closed_den_reduced), primitive_scale(red.closed_den)
+    num, den = red.closed_num_reduced, red.closed_den_reduced
+    if red.closed_num is not None and red.closed_den is not None and num is not None and den is not None:
+        scale, full_scale = primitive_scale(den), primitive_scale(red.closed_den)
         report.transfer_function = {
-            "num": mpoly_text(red.closed_num_reduced * scale), "den": mpoly_text(red.closed_den_reduced * scale),
+            "num": mpoly_text(num * scale), "den": mpoly_text(den * scale),
             "num_full": mpoly_text(red.closed_num * full_scale), "den_full": mpoly_text(red.closed_den * full_scale)}
-        report.closed_num = red.closed_num_reduced * scale
+        report.closed_num = num * scale
         all_values = {k: v for k, v in values.items() if k in used}
         if not red.closed_num.is_zero():
             if parameter is None or parameter in all_values:
@@ -373,9 +379,9 @@ def _check_block_denominators(project: Diagram, values: Mapping[str, fmpq]) -> N
 
     for block, (_, den) in block_polynomials(project).items():
         names = den.context().names()[1:]
-        at = {n: values[n] for n in names if n in values}
+        at: dict[str | int, fmpq] = {n: values[n] for n in names if n in values}
         if not den.is_zero() and at and den.subs(at).is_zero():
-            used = {n: v for n, v in at.items() if den.degrees()[names.index(n) + 1] > 0}
+            used = {str(n): v for n, v in at.items() if den.degrees()[names.index(str(n)) + 1] > 0}
             raise AnalysisError("E408", f"block {block}: its denominator {mpoly_text(den)} is zero at "
                                 f"{values_text(used)}, so the block does not exist there", where=f"node {block}")
 

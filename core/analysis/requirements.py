@@ -138,9 +138,12 @@ def _gain_margin_verdict(req: Requirements, report, value: float | None) -> Verd
     label = "gain margin (rise factor) ≥"
     unit = "dB" if db else "×"
 
+    required = req.min_gain_margin
+    assert required is not None  # judged only when the requirement is set
+
     def judged(actual, passed, note=""):
-        margin = None if actual is None else actual - req.min_gain_margin
-        return Verdict("gain margin", req.min_gain_margin, actual, passed, margin, True, label, unit, note)
+        margin = None if actual is None else actual - required
+        return Verdict("gain margin", required, actual, passed, margin, True, label, unit, note)
 
     if report.parameter is None or report.stable_range is None or value is None:
         return judged(None, None, "choose a tuning parameter: the margin is how far it may rise")
@@ -275,7 +278,7 @@ def gain_margin_intervals(rng, gm: float, name: str) -> list[Interval]:
     """
     gm_q = to_fmpq(gm)
     zero = Bound(0.0, "0")
-    out = []
+    out: list[tuple[Bound | None, Bound | None]] = []
     for lo, hi in rng.intervals:
         start = zero if lo is None or lo.value < 0 else Bound(lo.value, lo.text(name))
         if hi is None:
@@ -382,8 +385,9 @@ def joint_range(requirements: Requirements, report, transfer: ParametricTransfer
     notes: list[str] = []
     if report.decay is not None and report.decay.range is not None:
         parts["decay"] = _exact_intervals(report.decay.range, name)
-    if requirements.min_gain_margin is not None:
-        parts["gain margin"] = gain_margin_intervals(report.stable_range, requirements.gain_margin_factor, name)
+    factor = requirements.gain_margin_factor
+    if factor is not None:
+        parts["gain margin"] = gain_margin_intervals(report.stable_range, factor, name)
         if requirements.gain_margin_unit == "db":
             notes.append("gain margin in dB: the factor 10^(dB/20) is rounded to a float")
     joint = parts["stable"]
@@ -398,13 +402,15 @@ def joint_range(requirements: Requirements, report, transfer: ParametricTransfer
         else:
             numeric.append(("overshoot", overshoot_predicate(transfer, requirements.max_overshoot),
                             OVERSHOOT_SAMPLES))
-    if numeric and span is None:
-        notes.append("numeric criteria need the tuning parameter's min and max")
+    if span is None:
+        if numeric:
+            notes.append("numeric criteria need the tuning parameter's min and max")
         numeric = []
-    for key, predicate, samples in numeric:  # each searched where stable, so its own set is shown
+    for key, predicate, samples in numeric:
+        assert span is not None  # each searched where stable, so its own set is shown
         parts[key] = numeric_set(predicate, span, samples, parts["stable"])
         joint = intersect(joint, parts[key])
-    if numeric:
+    if numeric and span is not None:
         notes.append(f"numeric ({', '.join(k for k, _, _ in numeric)}): searched over "
                      f"{span[0]:g} .. {span[1]:g} on a grid refined by bisection")
     exact = not numeric

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Any, cast
 
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz, fmpz_poly
 
@@ -376,12 +377,17 @@ def _mirror(p: fmpq_poly) -> fmpq_poly:
     return fmpq_poly([p[i] if i % 2 == 0 else -p[i] for i in range(p.degree() + 1)])
 
 
+def _root_pairs(f: fmpz_poly | fmpq_poly) -> list[tuple[Any, int]]:
+    """(root ball, multiplicity) pairs from flint (its type stub says a plain list of balls)."""
+    return cast("list[tuple[Any, int]]", f.complex_roots())
+
+
 def real_roots(f: fmpz_poly, prec: int = 64) -> list:
     """Certified real roots (arb balls, increasing) of a squarefree integer polynomial."""
     from flint import ctx
     while True:
         with ctx.workprec(prec):
-            roots = [c.real for c, _ in f.complex_roots() if c.imag.is_zero()]
+            roots = [c.real for c, _ in _root_pairs(f) if c.imag.is_zero()]
         roots.sort(key=lambda r: float(r.mid()))
         if all(not roots[i].overlaps(roots[i + 1]) for i in range(len(roots) - 1)):
             return roots
@@ -488,7 +494,7 @@ def routh_counts(coeffs: list[fmpq]) -> RootCounts:
         notes.append("several ε substitutions: counts of the non-symmetric part confirmed by certified "
                      "root isolation")
     else:
-        rhp_rest = len(rest_array.sign_changes())
+        rhp_rest = len(rest_array.sign_changes() or [])
     rhp = rhp_rest + off_axis_g // 2
     jw = zeros + jw_g
     array = routh_array(ParametricPolynomial.from_coefficients(coeffs))
@@ -508,7 +514,7 @@ def _rhp_by_isolation(p: fmpq_poly) -> int:
         prec = 64
         while True:
             with ctx.workprec(prec):
-                roots = [c for c, _ in f.complex_roots()]
+                roots = [c for c, _ in _root_pairs(f)]
             if all(not c.real.contains(0) for c in roots):
                 break
             prec *= 2

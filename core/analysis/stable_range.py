@@ -212,7 +212,8 @@ def hurwitz_delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
     if n < 2:
         return fmpq_poly([1])
     mctx = fmpq_mpoly_ctx.get(("u", "k"), "lex")
-    even, odd = {}, {}
+    even: dict[tuple[int, ...], fmpq] = {}
+    odd: dict[tuple[int, ...], fmpq] = {}
     for i, c in enumerate(coeffs):
         power = n - i
         target = even if power % 2 == 0 else odd
@@ -314,7 +315,8 @@ def _simplest_between(x: fmpq | None, y: fmpq | None) -> fmpq:
         return fmpq(0)
     if y is not None and y <= 0:
         return -_simplest_between(-y, None if x is None else -x)
-    n = x.floor()
+    assert x is not None  # here 0 <= x < y or y is None
+    n = fmpq(x.floor())
     if y is None or n + 1 < y:
         return fmpq(n + 1)
     if x == n:

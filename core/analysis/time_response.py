@@ -139,13 +139,15 @@ def transfer_from_diagram(diagram, input_id: str | None = None, output_id: str |
     parameter = diagram.tuning_parameter
     polys = []
     for poly in (red.closed_num_reduced, red.closed_den_reduced, red.closed_den):
+        assert poly is not None  # a reduction to an output always carries its closed-loop parts
         try:
             polys.append(ParametricPolynomial.from_mpoly(poly, parameter, fixed))
         except KeyError as exc:
             name = exc.args[0]
             raise AnalysisError("E404", f"parameter {name} has no value; give one or tune it",
                                 where=f"parameter {name}") from None
-    return ParametricTransfer(*polys, parameter=parameter, input_id=input_id,
+    num, den, characteristic = polys
+    return ParametricTransfer(num, den, characteristic, parameter=parameter, input_id=input_id,
                               reference=input_id == settings.input)
 
 
@@ -198,7 +200,7 @@ def step_response(transfer: ParametricTransfer, value: float | None = None, hori
     final = None
     if stable:
         gain = transfer.static_gain(value)
-        final = float(gain)
+        final = None if gain is None else float(gain)
     elif visible_stable:
         notes.append("a hidden mode is not stable: the output seems to settle but the loop does not")
     if capped and stable:

@@ -88,12 +88,13 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
     """
     check_endpoints(diagram, input_id, output_id)
     graph = build_signal_graph(diagram)
-    with_transfer = input_id is not None and output_id is not None
+    endpoints = (input_id, output_id) if input_id is not None and output_id is not None else None
+    with_transfer = endpoints is not None
     loops = simple_cycles(graph)
     warnings = _port_warnings(diagram, graph) + _improper_warnings(diagram, graph)
     if len(loops) >= MAX_LOOPS:
         warnings.append(f"more than {MAX_LOOPS} loops: only the first {MAX_LOOPS} are listed")
-    observed = output_id if with_transfer and graph.kinds[output_id] != "input" else None
+    observed = output_id if endpoints is not None and graph.kinds[endpoints[1]] != "input" else None
     pivots, sign, x_out = _eliminate(graph, input_id if with_transfer else None, observed, loops)
     # Delta = sign * prod(pivots) in lowest terms: its denominator divides prod(D_i) exactly
     one = graph.ctx.constant(1)
@@ -101,10 +102,12 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
     characteristic = delta[0] * (product([d for _, d in graph.blocks.values()], one) / delta[1]) * sign
     warnings += _ill_posed_warnings(diagram, graph, characteristic, loops)
     red = Reduction(diagram_parameters(diagram), characteristic, loops=loops, warnings=warnings)
-    if with_transfer:
+    if endpoints is not None:
+        input_id, output_id = endpoints
         if observed is None:  # an Input node observed: it is the input itself or independent of it
             num = characteristic if output_id == input_id else graph.ctx.constant(0)
         else:
+            assert x_out is not None  # eliminated with an observed output
             num = x_out[0] * (characteristic / x_out[1])
         _set_transfer_function(red, graph, num)
         red.connected = output_id == input_id or output_id in reachable(input_id, graph.successors())

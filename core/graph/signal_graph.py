@@ -25,7 +25,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from functools import lru_cache
 
-from flint import fmpq, fmpq_mpoly
+from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
 
 from core.algebra.polynomial import mpoly_context
 from core.errors import AnalysisError
@@ -82,7 +82,7 @@ class SignalGraph:
     kinds: dict[str, str]
     edges: dict[tuple[str, str], fmpq]
     blocks: dict[str, tuple[fmpq_mpoly, fmpq_mpoly]]
-    ctx: object
+    ctx: fmpq_mpoly_ctx
     unconnected: list[tuple[str, int]] = field(default_factory=list)
 
     def successors(self) -> dict[str, list[str]]:

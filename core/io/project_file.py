@@ -180,7 +180,8 @@ def _migrate_node_2_to_3(node: dict, where: str) -> dict:
     renamed = {"num": "numerator", "den": "denominator"}
     out = {renamed.get(k, k): v for k, v in node.items() if k != "signs"}
     if "signs" in node:
-        name = node.get("id") if isinstance(node.get("id"), str) else "?"
+        node_id = node.get("id")
+        name = node_id if isinstance(node_id, str) else "?"
         out["inputs"] = _inputs_from_signs(node["signs"], f"{where}, node {name[:64]}")
     return out
 
@@ -589,7 +590,7 @@ def project_to_dict(diagram: Diagram) -> dict:
     """The current-version JSON form of a diagram (only fields that carry something are written)."""
     nodes = []
     for n in diagram.nodes.values():
-        item = {"id": n.id, "kind": n.kind}
+        item: dict[str, object] = {"id": n.id, "kind": n.kind}
         if n.kind == "block":
             item.update(role=n.role, numerator=n.num, denominator=n.den)
         elif n.kind == "sum":
@@ -602,10 +603,10 @@ def project_to_dict(diagram: Diagram) -> dict:
         nodes.append(item)
     wires = []
     for w in diagram.wires:
-        item = {"from": w.source, "to": w.target, "port": w.port}
+        wire: dict[str, object] = {"from": w.source, "to": w.target, "port": w.port}
         if w.bends:
-            item["bends"] = [[_plain_number(x), _plain_number(y)] for x, y in w.bends]
-        wires.append(item)
+            wire["bends"] = [[_plain_number(x), _plain_number(y)] for x, y in w.bends]
+        wires.append(wire)
     out = {"format": FORMAT, "version": CURRENT_VERSION, "name": diagram.name}
     if diagram.notes:
         out["notes"] = diagram.notes
@@ -762,7 +763,7 @@ def remove_stale_temps(directory: Path, now: float | None = None) -> list[Path]:
     """Delete hidden temp files of our own pattern older than :data:`STALE_TEMP_SECONDS` (left by
     a save that was killed); return what was removed. Problems only mean nothing is removed."""
     now = time.time() if now is None else now
-    removed = []
+    removed: list[Path] = []
     try:
         entries = list(os.scandir(directory))
     except OSError:

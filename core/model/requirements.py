@@ -57,7 +57,7 @@ class Requirements:
 
     def to_dict(self) -> dict:
         """The project file's ``requirements`` object (unset entries left out)."""
-        out = {k: v for k, v in (("min_damping", self.min_damping), ("max_overshoot", self.max_overshoot),
+        out: dict[str, float | str] = {k: v for k, v in (("min_damping", self.min_damping), ("max_overshoot", self.max_overshoot),
                                  ("min_gain_margin", self.min_gain_margin)) if v is not None}
         if self.min_gain_margin is not None:
             out["gain_margin_unit"] = self.gain_margin_unit
