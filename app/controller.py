@@ -15,10 +15,13 @@ through one undoable command. The controller itself never edits the model.
 """
 from __future__ import annotations
 
+import itertools
 import math
 import threading
 import time
+import weakref
 
+import shiboken6
 from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject, QTimer, Signal
 
 from core.analysis.pipeline import AnalysisResult, analyse_snapshot
@@ -26,18 +29,42 @@ from core.io.project_file import project_to_dict
 from core.model.diagram import Diagram
 
 DEBOUNCE_MS = 35  # edits arrive on Enter or commit, not per keystroke: a short wait still merges bursts
-def _work(relay: _Relay, project: dict, generation: int) -> None:
+
+
+def _work(token: int, project: dict, generation: int) -> None:
     result = analyse_snapshot(project, generation)
-    try:
-        relay.finished.emit(result)
-    except RuntimeError:  # the controller was deleted while this analysis ran
-        pass
+    _relay().finished.emit(token, result)
 
 
 class _Relay(QObject):
-    """Lives on the GUI thread; the worker emits through it so delivery is queued to the GUI."""
+    """One per process, never deleted, living on the GUI thread. Workers emit through it (queued to
+    the GUI thread) and it hands the result to the controller that asked, if that one still exists.
+    A controller (and anything it owns) may be deleted while its worker runs; the worker never
+    touches it, so no emit can reach a deleted object."""
 
-    finished = Signal(object)
+    finished = Signal(int, object)
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.controllers: weakref.WeakValueDictionary[int, AnalysisController] = weakref.WeakValueDictionary()
+        self.finished.connect(self._deliver)
+
+    def _deliver(self, token: int, result: AnalysisResult) -> None:
+        controller = self.controllers.get(token)
+        if controller is not None and shiboken6.isValid(controller):
+            controller._on_finished(result)
+
+
+_RELAY: _Relay | None = None
+_TOKENS = itertools.count(1)
+
+
+def _relay() -> _Relay:
+    """The process-wide relay; first made by a controller's constructor, so on the GUI thread."""
+    global _RELAY
+    if _RELAY is None:
+        _RELAY = _Relay()
+    return _RELAY
 
 
 class AnalysisController(QObject):
@@ -64,8 +91,8 @@ class AnalysisController(QObject):
         self._disposed = False
         self._held = False
         self._worker: threading.Thread | None = None
-        self._relay = _Relay(self)
-        self._relay.finished.connect(self._on_finished)
+        self._token = next(_TOKENS)
+        _relay().controllers[self._token] = self
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
         self._timer.setInterval(debounce_ms)
@@ -131,7 +158,7 @@ class AnalysisController(QObject):
             self._running = False
             self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
             return
-        self._worker = threading.Thread(target=_work, args=(self._relay, project, generation),
+        self._worker = threading.Thread(target=_work, args=(self._token, project, generation),
                                         name="loopwright-analysis", daemon=True)
         self._worker.start()
 
@@ -201,10 +228,7 @@ class AnalysisController(QObject):
                 self._signals.changed.disconnect(self.schedule)
             except (RuntimeError, TypeError):  # already gone or never connected
                 pass
-            try:
-                self._relay.finished.disconnect(self._on_finished)
-            except (RuntimeError, TypeError):
-                pass
+            _relay().controllers.pop(self._token, None)
             self._generation += 1  # anything still in flight is stale
             self._set_busy(False)
         worker = self._worker
