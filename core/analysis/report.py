@@ -308,7 +308,8 @@ def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, 
 def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, object] | None = None,
                      decay: float = 0.0, decay_mode: str = "sigma") -> Report:
     """Analyse a typed characteristic polynomial; ``at`` maps parameter names to values."""
-    expr = parse_polynomial(text, where="polynomial")
+    declared = set(at or ()) | ({parameter} if parameter else set())  # names with a role count as declared
+    expr = parse_polynomial(text, where="polynomial", declared=declared)
     names = sorted(expression_parameters(text))
     values = _exact_values(at)
     unknown = sorted(set(values) - set(names) - ({parameter} if parameter else set()))
@@ -324,8 +325,9 @@ def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, o
 def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None) -> Report:
     """Analyse a project (a Diagram or a path to a project file).
 
-    Raises E406 when no wire path leads from the input to the output, E408 when a block's
-    denominator vanishes identically at the nominal values.
+    Raises E111 for a block text with s run into an undeclared name, E406 when no wire path leads
+    from the input to the output, E408 when a block's denominator vanishes identically at the
+    nominal values.
     """
     from core.graph.reduction import reduce_diagram
     from core.io.project_file import load_project
@@ -335,6 +337,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         source = str(project)
         project = load_project(project)
     settings = project.analysis
+    project.check_block_names()
     red = reduce_diagram(project, settings.input, settings.output)
     if not red.connected:
         raise AnalysisError("E406", f"no wire path leads from the input {settings.input} to the output "
