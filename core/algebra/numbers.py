@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import re
 from fractions import Fraction
+from typing import NoReturn
 
 from core.errors import ExpressionError
 
@@ -28,7 +29,7 @@ _MAX_EXPONENT_DIGITS = 6
 _MAX_DIGITS = 400
 
 
-def _refuse(code: str, message: str, where: str | None):
+def _refuse(code: str, message: str, where: str | None) -> NoReturn:
     raise ExpressionError(code, message, where=where)
 
 
