@@ -3,8 +3,10 @@
 Numerator and denominator are parsed as you type (core.algebra.expression.block_transfer); an error is
 shown under its field with the column and message, and nothing invalid reaches the model: a
 field is committed on Enter or focus-out only when both fields parse, through one undoable
-command. A block edit that names a new parameter adds it (nominal 1, min 0, max 10) in the same
-undo step, and makes it the tuning parameter when the project has none yet.
+command (:func:`app.document.editing.block_text_command`: a new name becomes a parameter, names
+no block uses any more go, in the same undo step). A name typed for the first time is flagged
+under its field ("new parameter 'Tn', column 5"); a name with s run into it (``Tis``) is an error
+with a suggestion, and a button declares it when it is meant as a name.
 """
 from __future__ import annotations
 
@@ -27,23 +29,17 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.document.commands import (
-    EditNodeCommand,
-    Macro,
-    SetAnalysisCommand,
-    SetParameterCommand,
-    SetSweepCommand,
-    push,
-)
+from app.document.commands import EditNodeCommand, SetAnalysisCommand, push
+from app.document.editing import block_text_command
 from app.theme import figure_font
-from core.algebra.expression import block_transfer, expression_parameters
+from core.algebra.expression import block_transfer, glued_reading, read_block, typed_names
 from core.errors import LoopwrightError
-from core.model.diagram import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram, Parameter
+from core.model.diagram import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram
 
 KIND_TITLES = {"input": "Input", "output": "Output", "sum": "Summing junction", "branch": "Branch point",
                "block": "Block"}
-NEW_PARAMETER = {"nominal": 1.0, "minimum": 0.0, "maximum": 10.0}
 ERROR_STYLE = "color: #c62828; font-size: 8.5pt;"
+NOTE_STYLE = "color: palette(placeholder-text); font-size: 8.5pt;"
 
 
 def error_line(err: LoopwrightError) -> str:
@@ -53,8 +49,11 @@ def error_line(err: LoopwrightError) -> str:
     return f"{err.code} · {place}{err.message}"
 
 
-def check_transfer(num: str, den: str) -> dict[str, LoopwrightError]:
-    """Errors of a block's two fields, keyed ``num``/``den`` (empty when both parse together)."""
+def check_transfer(num: str, den: str, declared: set[str] | None = None) -> dict[str, LoopwrightError]:
+    """Errors of a block's two fields, keyed ``num``/``den`` (empty when both parse together).
+
+    Given the project's ``declared`` parameters, a name with s run into it is an error too (E111).
+    """
     errors: dict[str, LoopwrightError] = {}
     for key, pair in (("num", (num, "1")), ("den", ("1", den))):
         try:
@@ -63,10 +62,25 @@ def check_transfer(num: str, den: str) -> dict[str, LoopwrightError]:
             errors[key] = err
     if not errors:
         try:
-            block_transfer(num, den)
+            read_block(num, den, declared) if declared is not None else block_transfer(num, den)
         except LoopwrightError as err:
             errors["den" if "denominator" in (err.where or "") else "num"] = err
     return errors
+
+
+def new_name_notes(num: str, den: str, declared: set[str]) -> dict[str, str]:
+    """``{"num"/"den": "new parameter 'Tn' (column 5)"}`` for names typed for the first time."""
+    notes: dict[str, list[str]] = {}
+    for new in read_block(num, den, declared).new_names:
+        notes.setdefault("num" if new.part == "numerator" else "den", []).append(
+            f"new parameter '{new.name}' (column {new.column})")
+    return {key: "; ".join(texts) for key, texts in notes.items()}
+
+
+def glued_names(num: str, den: str, declared: set[str]) -> list[str]:
+    """Names with s run into them that are not declared (each would be E111)."""
+    return [t.name for text in (num, den) for t in typed_names(text)
+            if glued_reading(t.name) is not None and t.name not in declared]
 
 
 def factored_text(num: str, den: str) -> str:
@@ -133,9 +147,11 @@ class _FieldWithError(QWidget):
         layout.addWidget(self.edit)
         layout.addWidget(self.error)
 
-    def set_error(self, err: LoopwrightError | None) -> None:
-        self.error.setText(error_line(err) if err else "")
-        self.error.setVisible(err is not None)
+    def set_error(self, err: LoopwrightError | None, note: str = "") -> None:
+        """Show the parse error in red, else ``note`` (new parameter names) in grey."""
+        self.error.setStyleSheet(ERROR_STYLE if err else NOTE_STYLE)
+        self.error.setText(error_line(err) if err else note)
+        self.error.setVisible(err is not None or bool(note))
         self.edit.setStyleSheet("QLineEdit { border: 1px solid #c62828; }" if err else "")
 
     def set_text(self, text: str) -> None:
@@ -188,6 +204,9 @@ class Inspector(QWidget):
         row.addWidget(self.remove_port)
         row.addStretch(1)
         self.io_button = QPushButton()
+        self.declare = QPushButton()
+        self.declare.setToolTip("Declare the name as a parameter and keep the text as typed")
+        self.declare.hide()
         self.refusal = QLabel()
         self.refusal.setStyleSheet(ERROR_STYLE)
         self.refusal.setWordWrap(True)
@@ -199,6 +218,7 @@ class Inspector(QWidget):
         self.form.addRow("Role", self.role)
         self.form.addRow("Numerator", self.num)
         self.form.addRow("Denominator", self.den)
+        self.form.addRow("", self.declare)
         self.form.addRow("Factored", self.factored)
         self.form.addRow("", self.flip)
         self.form.addRow("Input signs", self.signs_row)
@@ -220,6 +240,7 @@ class Inspector(QWidget):
         self.add_port.clicked.connect(lambda: self._change_ports(+1))
         self.remove_port.clicked.connect(lambda: self._change_ports(-1))
         self.io_button.clicked.connect(self._use_for_analysis)
+        self.declare.clicked.connect(self._declare_glued)
         self.show_node(None)
 
     # -- binding ----------------------------------------------------------------------------------
@@ -285,6 +306,7 @@ class Inspector(QWidget):
             self.den.set_text(node.den)
             self.num.set_error(None)
             self.den.set_error(None)
+            self.declare.hide()
             self._show_factored(node.num, node.den)
             self.flip.blockSignals(True)
             self.flip.setChecked(node.flipped)
@@ -331,12 +353,23 @@ class Inspector(QWidget):
 
     # -- typing -----------------------------------------------------------------------------------
     def _check_typed(self) -> dict[str, LoopwrightError]:
-        errors = check_transfer(self.num.edit.text(), self.den.edit.text())
-        self.num.set_error(errors.get("num"))
-        self.den.set_error(errors.get("den"))
+        num, den = self.num.edit.text(), self.den.edit.text()
+        declared = set(self.diagram.parameters) if self.diagram is not None else set()
+        errors = check_transfer(num, den, declared)
+        notes = new_name_notes(num, den, declared) if not errors else {}
+        self.num.set_error(errors.get("num"), notes.get("num", ""))
+        self.den.set_error(errors.get("den"), notes.get("den", ""))
+        glued = glued_names(num, den, declared) if any(e.code == "E111" for e in errors.values()) else []
+        self.declare.setText(f"Use '{glued[0]}' as a parameter name" if glued else "")
+        self.declare.setVisible(bool(glued))
         if not errors:
-            self._show_factored(self.num.edit.text(), self.den.edit.text())
+            self._show_factored(num, den)
         return errors
+
+    def _declare_glued(self) -> None:
+        """The person means the flagged name (``Ts``) as a name: declare it and commit the text."""
+        num, den = self.num.edit.text().strip(), self.den.edit.text().strip()
+        self.commit_transfer(confirmed=set(glued_names(num, den, set(self.diagram.parameters))))
 
     def _commit_pending(self) -> None:
         node = self.diagram.nodes[self.node_id]
@@ -364,8 +397,11 @@ class Inspector(QWidget):
         self.refusal.hide()
         return True
 
-    def commit_transfer(self) -> bool:
-        """Put the typed numerator and denominator into the model if they parse; True if committed."""
+    def commit_transfer(self, confirmed: set[str] | None = None) -> bool:
+        """Put the typed numerator and denominator into the model if they parse; True if committed.
+
+        ``confirmed`` names (with s run into them) are declared as parameters in the same step.
+        """
         node = self._node()
         if node is None or node.kind != "block":
             return False
@@ -373,17 +409,18 @@ class Inspector(QWidget):
         if (num, den) == (node.num, node.den):
             self.num.set_error(None)
             self.den.set_error(None)
+            self.declare.hide()
             return False
-        if self._check_typed():
+        if not confirmed and self._check_typed():
             return False
-        d = self.diagram
-        new = sorted((expression_parameters(num) | expression_parameters(den)) - set(d.parameters))
-        commands = [EditNodeCommand(d, node.id, num=num, den=den)]
-        commands += [SetParameterCommand(d, Parameter(name, **NEW_PARAMETER)) for name in new]
-        if new and d.tuning_parameter is None:
-            commands.append(SetSweepCommand(d, new[0]))
-        command = commands[0] if len(commands) == 1 else Macro(f"edit {node.title}", commands)
-        return self._push(command)
+        try:
+            command = block_text_command(self.diagram, node.id, num, den, confirmed or ())
+        except LoopwrightError as err:
+            self.refusal.setText(str(err))
+            self.refusal.show()
+            return False
+        self.declare.hide()
+        return command is not None and self._push(command)
 
     def _commit_name(self) -> None:
         node = self._node()

@@ -7,7 +7,6 @@ tuning parameter. Below: the decay requirement (mode and value) and the analysis
 """
 from __future__ import annotations
 
-import math
 from functools import lru_cache
 
 from PySide6.QtCore import Qt, QTimer, Signal
@@ -31,6 +30,7 @@ from PySide6.QtWidgets import (
 from app.document.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
 from app.theme import figure_font
 from core.algebra.expression import expression_parameters
+from core.algebra.numbers import read_value
 from core.errors import LoopwrightError
 from core.model.diagram import Diagram, Parameter
 
@@ -62,12 +62,10 @@ def block_names(num: str, den: str) -> frozenset[str]:
     return frozenset(expression_parameters(num) | expression_parameters(den))
 
 
-def read_number(text: str) -> float:
-    """A typed finite number (``,`` accepted as the decimal mark); ValueError otherwise."""
-    value = float(text.strip().replace(",", "."))
-    if not math.isfinite(value):
-        raise ValueError(text)
-    return value
+def read_number(text: str, where: str | None = None) -> float:
+    """A typed number (``,`` accepted as a decimal comma); ExpressionError E112/E105 for text that
+    is not one or is ambiguous, such as ``1,000`` (:func:`core.algebra.numbers.read_value`)."""
+    return read_value(text, where)
 
 
 class ParametersPanel(QWidget):
@@ -267,9 +265,9 @@ class ParametersPanel(QWidget):
         field = FIELDS[item.column()]
         old = self.diagram.parameters.get(name) or Parameter(name)
         try:
-            value = read_number(item.text())
-        except ValueError:
-            self._complain(f"{name}: '{item.text()}' is not a number")
+            value = read_number(item.text(), where=f"parameter {name}, {field}")
+        except LoopwrightError as err:
+            self._complain(str(err))
             self._refill_later()
             return
         new = Parameter(name, old.nominal, old.minimum, old.maximum)
@@ -297,9 +295,9 @@ class ParametersPanel(QWidget):
         a = self.diagram.analysis
         mode = self.decay_mode.currentData()
         try:
-            value = read_number(self.decay_value.text() or "0")
-        except ValueError:
-            self._complain(f"decay requirement: '{self.decay_value.text()}' is not a number")
+            value = read_number(self.decay_value.text() or "0", where="decay requirement")
+        except LoopwrightError as err:
+            self._complain(str(err))
             return
         changes = {k: v for k, v in (("decay_mode", mode), ("decay_value", value)) if getattr(a, k) != v}
         if changes:

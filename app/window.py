@@ -331,6 +331,8 @@ class MainWindow(QMainWindow):
         for panel in self.analysis_panels:
             attach(panel, self.controller)
         self.controller.resultReady.connect(self._show_verdict)
+        self.controller.resultReady.connect(
+            lambda result: self.scene.mark_left_out(result.report.left_out if result.ok else []))
         self.controller.busyChanged.connect(self.busy.setVisible)
         self.verdict.setText("")
         if dirty:

@@ -26,6 +26,8 @@ CATALOGUE: dict[str, str] = {
     "E108": "name not allowed",
     "E109": "expression nested too deeply",
     "E110": "division by zero",
+    "E111": "the Laplace variable s run into a name that is not a declared parameter",
+    "E112": "number ambiguous or malformed",
     # project files
     "E201": "file is not valid JSON",
     "E202": "not a Loopwright project file",

@@ -28,6 +28,9 @@ DOT_SPACING = 2 * GRID
 PORT_SNAP = 14.0  # how close (scene px) a dropped wire end must be to an input port
 
 
+LEFT_OUT_OPACITY = 0.35  # nodes the analysis left out are drawn faded
+
+
 class DiagramScene(QGraphicsScene):
     """Items for ``diagram``'s nodes and wires, kept in step with ``signals``.
 
@@ -175,6 +178,19 @@ class DiagramScene(QGraphicsScene):
         return problems
 
     # -- queries ------------------------------------------------------------------------------
+    def mark_left_out(self, node_ids) -> None:
+        """Draw the nodes the analysis left out (on no wire path from the input to the output),
+        and the wires touching them, faded, with a tooltip saying why; every other item plainly."""
+        left_out = set(node_ids)
+        note = "Left out of the analysis: on no wire path from the input to the output"
+        for node_id, item in self.node_items.items():
+            item.setOpacity(LEFT_OUT_OPACITY if node_id in left_out else 1.0)
+            item.setToolTip(note if node_id in left_out else "")
+        for wire in self.diagram.wires:
+            item = self.wire_items.get(wire.key)
+            if item is not None:
+                item.setOpacity(LEFT_OUT_OPACITY if {wire.source, wire.target} & left_out else 1.0)
+
     def selected_node_ids(self) -> list[str]:
         """Selected nodes, in model order."""
         return [i for i, item in self.node_items.items() if item.isSelected()]

@@ -16,16 +16,24 @@ unary sign, so ``-s^2`` is ``-(s^2)`` and ``2^3^2`` is ``2^9``)::
 * Numbers are exact: ``0.1`` is 1/10 and ``2.5e-3`` is 1/400.
 * A name is an ASCII letter followed by letters, digits or ``_`` (``K``, ``Kp``, ``T_1``, ``wn``).
   ``s`` is the Laplace variable; every other name is a parameter. Letters run together form one
-  name (``Ks`` is the parameter ``Ks``, not ``K*s``); a number followed by a name or ``(``
-  multiplies (``2s``, ``3(s+1)``), and so do a name or ``)`` followed by a name or ``(``
-  (``K s``, ``s(s+1)``, ``(s+1)(s+2)``). A number after a name or ``)`` (``s 2``) is an error.
+  name; a number followed by a name or ``(`` multiplies (``2s``, ``3(s+1)``), and so do a name or
+  ``)`` followed by a name or ``(`` (``K s``, ``s(s+1)``, ``(s+1)(s+2)``). A number after a name
+  or ``)`` (``s 2``) is an error.
+* A name with ``s`` run into it (``Tis``, ``sK``, ``ss``, ``s2``; see :func:`glued_reading`) is
+  E111, "did you mean Ti*s?", wherever the text is checked against declared parameters
+  (:func:`read_block`, and :func:`parse_polynomial` given ``declared``), unless a parameter of
+  that name is declared.
+* A number run into a name starting with ``e`` (``1e3e3``, ``2e``) is E112, not a product.
+* Pasted characters: superscript digits and signs are powers (``s²`` is ``s^2``, ``s¹⁰`` is
+  ``s^10``); the minus sign U+2212 is ``-``; the middle dot U+00B7, the dot operator U+22C5 and
+  the multiplication sign U+00D7 are ``*``; no-break and thin spaces are spaces.
 * Implicit multiplication right after a division is refused as ambiguous (``1/2s`` could mean
   ``1/(2s)`` or ``s/2``): write ``1/(2 s)`` or ``s/2``.
 * Reserved names (E108): ``i``, ``j``, ``I``, ``J`` (the imaginary unit has no place in a real
   polynomial), ``S`` (the Laplace variable is lower-case ``s``), ``e``, ``E`` and ``pi`` (type the
   value), function names such as ``exp`` or ``sin`` (no dead time or functions: polynomials only),
   Python keywords, names starting with ``_`` and names longer than 64 characters.
-* Non-ASCII characters are refused (E101), naming the character.
+* Other non-ASCII characters are refused (E101), naming the character.
 
 Bounds, checked before any large number or expansion is built: text up to 10,000 characters
 (E103); exponents whole numbers 0..200 (E104); every number and coefficient within 1e300 in
@@ -48,6 +56,7 @@ import keyword
 import math
 import re
 import unicodedata
+from collections.abc import Collection
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -66,12 +75,19 @@ __all__ = [
     "MAX_TERMS",
     "MAX_TERM_BOUND",
     "MAX_TEXT",
+    "BlockReading",
+    "NewName",
+    "TypedName",
     "block_transfer",
+    "check_glued_names",
     "expression_parameters",
+    "glued_reading",
     "parse_expression",
     "parse_fraction",
     "parse_polynomial",
+    "read_block",
     "to_mpoly",
+    "typed_names",
 ]
 
 LAPLACE = sympy.Symbol(S)
@@ -102,7 +118,11 @@ RESERVED = {
 _NUMBER = re.compile(r"([0-9]+)(?:\.([0-9]*))?(?:[eE]([+-]?)([0-9]+))?|\.([0-9]+)(?:[eE]([+-]?)([0-9]+))?")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _OPERATORS = {"+", "-", "*", "/", "^", "(", ")", ","}
-_SPACE = " \t\r\n"
+_SPACE = " \t\r\n\u00a0\u2009\u202f"  # no-break, thin and narrow no-break spaces come with pasted text
+# characters pasted from documents, read as their plain counterparts
+_PASTED = {"\u2212": "-", "\u00b7": "*", "\u22c5": "*", "\u00d7": "*"}
+_SUPERSCRIPTS = {"\u2070": "0", "\u00b9": "1", "\u00b2": "2", "\u00b3": "3", "\u2074": "4", "\u2075": "5",
+                 "\u2076": "6", "\u2077": "7", "\u2078": "8", "\u2079": "9", "\u207a": "+", "\u207b": "-"}
 
 
 @dataclass(frozen=True)
@@ -160,13 +180,16 @@ def _tokenize(text: str, where: str | None) -> list[_Token]:
     tokens: list[_Token] = []
     i, n = 0, len(text)
     while i < n:
-        ch, column = text[i], i + 1
+        ch, column = _PASTED.get(text[i], text[i]), i + 1
         if ch in _SPACE:
             i += 1
+        elif ch in _SUPERSCRIPTS:
+            i = _superscript_power(text, i, tokens, where)
         elif ch.isascii() and (ch.isdigit() or (ch == "." and i + 1 < n and text[i + 1].isascii()
                                                  and text[i + 1].isdigit())):
             m = _NUMBER.match(text, i)
             assert m is not None  # a digit or '.digit' always starts a number
+            _check_number_end(text, m, where, column)
             tokens.append(_Token("num", m.group(0), column, _number_value(m, where, column)))
             i = m.end()
         elif ch.isascii() and (ch.isalpha() or ch == "_"):
@@ -188,6 +211,38 @@ def _tokenize(text: str, where: str | None) -> list[_Token]:
             _fail("E101", f"unexpected character {_describe_char(ch)}", where, column)
     tokens.append(_Token("end", "", n + 1))
     return tokens
+
+
+def _superscript_power(text: str, start: int, tokens: list[_Token], where: str | None) -> int:
+    """Read superscript signs then digits (``²``, ``¹⁰``, ``⁻¹``) as ``^`` and its exponent."""
+    tokens.append(_Token("^", text[start], start + 1))
+    end = start
+    while end < len(text) and _SUPERSCRIPTS.get(text[end]) in ("+", "-"):
+        tokens.append(_Token(_SUPERSCRIPTS[text[end]], text[end], end + 1))
+        end += 1
+    first = end
+    while end < len(text) and _SUPERSCRIPTS.get(text[end], "+") not in ("+", "-"):
+        end += 1
+    if end > first:
+        digits = "".join(_SUPERSCRIPTS[c] for c in text[first:end])
+        if len(digits.lstrip("0")) > 6:
+            _fail("E104", f"an exponent must be a whole number from 0 to {MAX_EXPONENT}", where, first + 1)
+        tokens.append(_Token("num", text[first:end], first + 1, sympy.Integer(int(digits))))
+    return end
+
+
+def _check_number_end(text: str, match: re.Match, where: str | None, column: int) -> None:
+    """E112 for a number run into a name that starts with e (``1e3e3``, ``2e``): it reads as a
+    malformed exponent, not as a product."""
+    end = match.end()
+    if end < len(text) and text[end] in "eE":
+        rest = _NAME.match(text, end)
+        shown = text[match.start():rest.end() if rest else end + 1][:30]
+        has_exponent = match.group(4) is not None or match.group(7) is not None
+        problem = "it has two exponents (write 1e6, not 1e3e3)" if has_exponent else \
+            "its exponent has no digits (write 2e3)"
+        _fail("E112", f"'{shown}' is not a number: {problem}; for a product put * before the name",
+              where, column)
 
 
 def _check_name(name: str, where: str | None, column: int) -> None:
@@ -500,6 +555,110 @@ def expression_parameters(text: str) -> set[str]:
     return {t.text for t in tokens if t.kind == "name" and t.text != S}
 
 
+def glued_reading(name: str) -> str | None:
+    """How a name with the Laplace variable run into it was probably meant, or None.
+
+    An ``s`` at the start followed by a letter, an ``s`` at the end after a letter or digit, and
+    ``s`` followed only by digits (an exponent typed without ``^``) count; ``_`` separates
+    deliberately, so ``T_s`` and ``s_1`` are names.
+
+    >>> [glued_reading(n) for n in ("Tis", "sK", "ss", "Kss", "s2", "T1s", "T_s", "Ksp", "s")]
+    ['Ti*s', 's*K', 's*s', 'K*s*s', 's^2', 'T1*s', None, None, None]
+    """
+    if re.fullmatch(r"s[0-9]+", name):
+        return f"s^{int(name[1:])}"
+    lead = trail = 0
+    while len(name) - lead - trail > 1 and name[lead] == S and name[lead + 1].isalpha():
+        lead += 1
+    while len(name) - lead - trail > 1 and name[len(name) - 1 - trail] == S \
+            and name[len(name) - 2 - trail].isalnum():
+        trail += 1
+    if not lead and not trail:
+        return None
+    return "*".join([S] * lead + [name[lead:len(name) - trail]] + [S] * trail)
+
+
+@dataclass(frozen=True)
+class TypedName:
+    """A parameter name as typed: the 1-based column where it first appears."""
+
+    name: str
+    column: int
+
+
+@lru_cache(maxsize=4096)
+def typed_names(text: str) -> tuple[TypedName, ...]:
+    """Each parameter name in ``text`` once, at its first column, in the order typed.
+
+    Raises ExpressionError when the text cannot be tokenized.
+
+    >>> typed_names("Kp (Ti s + 1) + Kp")
+    (TypedName(name='Kp', column=1), TypedName(name='Ti', column=5))
+    """
+    seen: dict[str, int] = {}
+    for tok in _tokenize(text, None):
+        if tok.kind == "name" and tok.text != S:
+            seen.setdefault(tok.text, tok.column)
+    return tuple(TypedName(name, column) for name, column in seen.items())
+
+
+def check_glued_names(text: str, declared: Collection[str], where: str | None = None) -> None:
+    """E111 for the first name in ``text`` with s run into it (see :func:`glued_reading`) that is
+    not one of the ``declared`` parameters: ``Tis`` is taken for ``Ti*s`` unless a parameter
+    ``Tis`` exists.
+
+    >>> check_glued_names("Kp (Tis + 1)", {"Kp"}, where="node C, numerator")
+    Traceback (most recent call last):
+    ...
+    core.errors.ExpressionError: E111 at node C, numerator, column 5: 'Tis' runs s into a name: did you mean Ti*s? (a parameter called Tis must be declared first)
+    >>> check_glued_names("Kp (Tis + 1)", {"Kp", "Tis"})
+    """
+    for typed in typed_names(text):
+        reading = glued_reading(typed.name)
+        if reading is not None and typed.name not in declared:
+            _fail("E111", f"'{typed.name}' runs s into a name: did you mean {reading}? "
+                  f"(a parameter called {typed.name} must be declared first)", where, typed.column)
+
+
+@dataclass(frozen=True)
+class NewName:
+    """A parameter name a block's text introduces: where it first appears."""
+
+    name: str
+    part: str  # "numerator" or "denominator"
+    column: int
+
+
+@dataclass(frozen=True)
+class BlockReading:
+    """A block's two typed fields read against the project's declared parameters."""
+
+    numerator: sympy.Expr
+    denominator: sympy.Expr
+    names: frozenset[str]
+    new_names: tuple[NewName, ...]  # not declared yet, numerator's first, in the order typed
+
+
+def read_block(num_text: str, den_text: str, declared: Collection[str] = (), where: str | None = None) -> BlockReading:
+    """:func:`block_transfer` plus the parameter rules for typed blocks: E111 for a name with s run
+    into it that is not declared (:func:`check_glued_names`), and the names typed for the first
+    time, with their places, so they can be flagged where they were typed.
+
+    >>> r = read_block("Kp (Ti s + 1)", "Ti s", declared={"Kp"})
+    >>> r.numerator, r.new_names
+    (Kp*Ti*s + Kp, (NewName(name='Ti', part='numerator', column=5),))
+    """
+    num, den = block_transfer(num_text, den_text, where)
+    new: dict[str, NewName] = {}
+    for part, text in (("numerator", num_text), ("denominator", den_text)):
+        check_glued_names(text, declared, _within(where, part))
+        for typed in typed_names(text):
+            if typed.name not in declared and typed.name not in new:
+                new[typed.name] = NewName(typed.name, part, typed.column)
+    names = frozenset(n.name for text in (num_text, den_text) for n in typed_names(text))
+    return BlockReading(num, den, names, tuple(new.values()))
+
+
 def _within(where: str | None, part: str) -> str:
     return f"{where}, {part}" if where else part
 
@@ -582,12 +741,13 @@ def block_transfer(num_text: str, den_text: str, where: str | None = None) -> tu
     return _to_sympy(num), _to_sympy(den)
 
 
-def parse_polynomial(text: str, where: str | None = None) -> sympy.Expr:
+def parse_polynomial(text: str, where: str | None = None, declared: Collection[str] | None = None) -> sympy.Expr:
     """Text that must be a polynomial in s (a typed characteristic polynomial), expanded.
 
     A numeric denominator is divided out (``s/2 + 1`` stays ``s/2 + 1``); a denominator made of
     parameters is multiplied through (``s^2 + s/T + 1`` gives ``T s^2 + s + T``, the same roots
-    wherever T is non-zero); s in a denominator is E107.
+    wherever T is non-zero); s in a denominator is E107. Given ``declared``, a name with s run
+    into it that is not among them is E111 (:func:`check_glued_names`).
 
     >>> parse_polynomial("s^2 + s/T + 1")
     T*s**2 + T + s
@@ -597,6 +757,8 @@ def parse_polynomial(text: str, where: str | None = None) -> sympy.Expr:
     core.errors.ExpressionError: E107: not a polynomial in s: s appears in a denominator
     """
     expr = parse_expression(text, where)
+    if declared is not None:
+        check_glued_names(text, declared, where)
     num, den = _fraction(expr, _context_for(expr), where)
     if den.degrees()[0] > 0:
         _fail("E107", "not a polynomial in s: s appears in a denominator", where)

@@ -124,6 +124,7 @@ class Report:
     warnings: list[str] = field(default_factory=list)
     source: str = ""
     closed_num: fmpq_mpoly | None = None  # the transfer function numerator, exact (fmpq_mpoly, factors cancelled)
+    left_out: list[str] = field(default_factory=list)  # node ids on no wire path from the input to the output
     reduction: Reduction | None = field(default=None, repr=False, compare=False)  # input to output, for reuse
 
     @property
@@ -152,6 +153,7 @@ class Report:
             "zeros": [[z.re, z.im] for z in expand_multiplicity(self.zeros)],
             "dominant_pole": dom.to_dict() if dom else None,
             "warnings": self.warnings,
+            "left_out": self.left_out,
             "caution": CAUTION,
         }
 
@@ -308,7 +310,8 @@ def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, 
 def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, object] | None = None,
                      decay: float = 0.0, decay_mode: str = "sigma") -> Report:
     """Analyse a typed characteristic polynomial; ``at`` maps parameter names to values."""
-    expr = parse_polynomial(text, where="polynomial")
+    declared = set(at or ()) | ({parameter} if parameter else set())  # names with a role count as declared
+    expr = parse_polynomial(text, where="polynomial", declared=declared)
     names = sorted(expression_parameters(text))
     values = _exact_values(at)
     unknown = sorted(set(values) - set(names) - ({parameter} if parameter else set()))
@@ -324,8 +327,9 @@ def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, o
 def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None) -> Report:
     """Analyse a project (a Diagram or a path to a project file).
 
-    Raises E406 when no wire path leads from the input to the output, E408 when a block's
-    denominator vanishes identically at the nominal values.
+    Raises E111 for a block text with s run into an undeclared name, E406 when no wire path leads
+    from the input to the output, E408 when a block's denominator vanishes identically at the
+    nominal values.
     """
     from core.graph.reduction import reduce_diagram
     from core.io.project_file import load_project
@@ -335,6 +339,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         source = str(project)
         project = load_project(project)
     settings = project.analysis
+    project.check_block_names()
     red = reduce_diagram(project, settings.input, settings.output)
     if not red.connected:
         raise AnalysisError("E406", f"no wire path leads from the input {settings.input} to the output "
@@ -345,12 +350,14 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
     if parameter is not None and parameter not in used:
         raise AnalysisError("E405", f"the tuning parameter '{parameter}' appears in no block",
                             where=f"parameter {parameter}")
-    _check_block_denominators(project, values)
+    kept = [n for n in project.nodes if n not in set(red.left_out)]
+    _check_block_denominators(project, values, kept)
     report = analyse_polynomial(red.characteristic, parameter,
                                 {k: v for k, v in values.items() if k in used},
                                 decay or (settings.decay_mode, settings.decay_value))
     report.source = source or project.name
     report.reduction = red
+    report.left_out = list(red.left_out)
     report.warnings = list(red.warnings) + report.warnings
     num, den = red.closed_num_reduced, red.closed_den_reduced
     if red.closed_num is not None and red.closed_den is not None and num is not None and den is not None:
@@ -362,7 +369,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         all_values = {k: v for k, v in values.items() if k in used}
         if not red.closed_num.is_zero():
             if parameter is None or parameter in all_values:
-                report.hidden_modes, report.zeros = _nominal_cancellation(project, red, all_values)
+                report.hidden_modes, report.zeros = _nominal_cancellation(project, red, all_values, kept)
             if parameter is not None:
                 report.warnings += _cancellation_values(red, parameter, all_values, report.stable_range)
         for mode in report.hidden_modes:
@@ -373,11 +380,11 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
     return report
 
 
-def _check_block_denominators(project: Diagram, values: Mapping[str, fmpq]) -> None:
-    """E408 for a block whose denominator is identically zero at the nominal values."""
+def _check_block_denominators(project: Diagram, values: Mapping[str, fmpq], kept: list[str]) -> None:
+    """E408 for an analysed block whose denominator is identically zero at the nominal values."""
     from core.graph.signal_graph import block_polynomials
 
-    for block, (_, den) in block_polynomials(project).items():
+    for block, (_, den) in block_polynomials(project, kept).items():
         names = den.context().names()[1:]
         at: dict[str | int, fmpq] = {n: values[n] for n in names if n in values}
         if not den.is_zero() and at and den.subs(at).is_zero():
@@ -391,7 +398,8 @@ def _univariate(poly, values: Mapping[str, fmpq]) -> fmpq_poly:
     return fmpq_poly(list(reversed(ParametricPolynomial.from_mpoly(poly, None, values).at())))
 
 
-def _nominal_cancellation(project: Diagram, red, values: Mapping[str, fmpq]) -> tuple[list[HiddenMode], list[Pole]]:
+def _nominal_cancellation(project: Diagram, red, values: Mapping[str, fmpq],
+                          kept: list[str]) -> tuple[list[HiddenMode], list[Pole]]:
     """Hidden modes and transfer-function zeros at the nominal values: the common factor of the
     transfer function's numerator and the characteristic polynomial taken after substituting every
     value, so a cancellation that happens only at these values is found too."""
@@ -403,7 +411,7 @@ def _nominal_cancellation(project: Diagram, red, values: Mapping[str, fmpq]) -> 
     common = num.gcd(den)
     if common.degree() < 1:
         return [], _poles_of(num)
-    blocks = [b for b, (_, d) in block_polynomials(project).items()
+    blocks = [b for b, (_, d) in block_polynomials(project, kept).items()
               if not d.is_zero() and _univariate(d, values).gcd(common).degree() > 0]
     return [HiddenMode(p, blocks) for p in _poles_of(common)], _poles_of(num // common)
 

@@ -51,6 +51,7 @@ from core.graph.mason import mason_gain
 from core.graph.signal_graph import (
     MAX_LOOPS,
     SignalGraph,
+    analysed_part,
     block_polynomials,
     build_signal_graph,
     check_endpoints,
@@ -79,6 +80,7 @@ class Reduction:
     loops: list[list[str]] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     connected: bool = True  # some wire path leads from the input to the output
+    left_out: list[str] = field(default_factory=list)  # node ids on no wire path from the input to the output
 
 
 def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None) -> Reduction:
@@ -87,11 +89,13 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
     Raises AnalysisError E401 for an unknown input or output, E402 when Delta is identically zero.
     """
     check_endpoints(diagram, input_id, output_id)
-    graph = build_signal_graph(diagram)
     endpoints = (input_id, output_id) if input_id is not None and output_id is not None else None
+    kept, left_out = analysed_part(diagram, *endpoints) if endpoints is not None else (list(diagram.nodes), [])
+    graph = build_signal_graph(diagram, kept)
     with_transfer = endpoints is not None
     loops = simple_cycles(graph)
-    warnings = _port_warnings(diagram, graph) + _improper_warnings(diagram, graph)
+    warnings = _left_out_warnings(diagram, left_out, endpoints) + _port_warnings(diagram, graph) \
+        + _improper_warnings(diagram, graph)
     if len(loops) >= MAX_LOOPS:
         warnings.append(f"more than {MAX_LOOPS} loops: only the first {MAX_LOOPS} are listed")
     observed = output_id if endpoints is not None and graph.kinds[endpoints[1]] != "input" else None
@@ -101,7 +105,8 @@ def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None
     delta = fraction_product(pivots, (one, one))
     characteristic = delta[0] * (product([d for _, d in graph.blocks.values()], one) / delta[1]) * sign
     warnings += _ill_posed_warnings(diagram, graph, characteristic, loops)
-    red = Reduction(diagram_parameters(diagram), characteristic, loops=loops, warnings=warnings)
+    red = Reduction(diagram_parameters(diagram, kept), characteristic, loops=loops, warnings=warnings,
+                    left_out=left_out)
     if endpoints is not None:
         input_id, output_id = endpoints
         if observed is None:  # an Input node observed: it is the input itself or independent of it
@@ -169,6 +174,13 @@ def _set_transfer_function(red: Reduction, graph: SignalGraph, num: fmpq_mpoly) 
     if hidden.degrees()[0] > 0:
         red.hidden_blocks = [b for b in graph.order if b in graph.blocks
                              and graph.blocks[b][1].gcd(hidden).degrees()[0] > 0]
+
+
+def _left_out_warnings(diagram: Diagram, left_out: list[str], endpoints: tuple[str, str] | None) -> list[str]:
+    if not left_out or endpoints is None:
+        return []
+    return [f"left out of the analysis (on no wire path from the input {endpoints[0]} to the output "
+            f"{endpoints[1]}): {', '.join(left_out)}"]
 
 
 def _port_warnings(diagram: Diagram, graph: SignalGraph) -> list[str]:

@@ -22,6 +22,7 @@ Block texts are parsed once per (text, parameters) pair and cached.
 """
 from __future__ import annotations
 
+from collections.abc import Collection
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -34,11 +35,11 @@ from core.model.diagram import Diagram
 MAX_LOOPS = 2000  # enumeration cap for simple loops (their number can grow exponentially)
 
 
-def diagram_parameters(diagram: Diagram) -> list[str]:
-    """Every parameter name typed in a block, sorted."""
+def diagram_parameters(diagram: Diagram, keep: Collection[str] | None = None) -> list[str]:
+    """Every parameter name typed in a block (of the ``keep`` nodes, when given), sorted."""
     names: set[str] = set()
     for node in diagram.nodes.values():
-        if node.kind == "block":
+        if node.kind == "block" and (keep is None or node.id in keep):
             names |= _text_parameters(node.num) | _text_parameters(node.den)
     return sorted(names)
 
@@ -67,11 +68,27 @@ def _parse_block(num: str, den: str, names: tuple[str, ...], where: str) -> tupl
     return to_mpoly(n, ctx), to_mpoly(d, ctx)
 
 
-def block_polynomials(diagram: Diagram) -> dict[str, tuple[fmpq_mpoly, fmpq_mpoly]]:
-    """``{block id: (N, D)}`` in ``mpoly_context(diagram_parameters(diagram))``, nothing cancelled."""
-    names = tuple(diagram_parameters(diagram))
+def block_polynomials(diagram: Diagram, keep: Collection[str] | None = None) -> dict[str, tuple[fmpq_mpoly, fmpq_mpoly]]:
+    """``{block id: (N, D)}`` in ``mpoly_context(diagram_parameters(diagram, keep))``, nothing
+    cancelled; only the ``keep`` nodes' blocks when given."""
+    names = tuple(diagram_parameters(diagram, keep))
     return {nid: _parse_block(node.num, node.den, names, f"node {nid}")
-            for nid, node in diagram.nodes.items() if node.kind == "block"}
+            for nid, node in diagram.nodes.items() if node.kind == "block" and (keep is None or nid in keep)}
+
+
+def analysed_part(diagram: Diagram, input_id: str, output_id: str) -> tuple[list[str], list[str]]:
+    """(kept, left out): the nodes on some wire path from the input to the output (loops through
+    them included), and every other node, both in diagram order. Nothing is left out when no
+    wire path joins the two (that case is refused elsewhere, E406)."""
+    succ: dict[str, list[str]] = {n: [] for n in diagram.nodes}
+    pred: dict[str, list[str]] = {n: [] for n in diagram.nodes}
+    for w in diagram.wires:
+        succ[w.source].append(w.target)
+        pred[w.target].append(w.source)
+    on_path = reachable(input_id, succ) & reachable(output_id, pred)
+    if output_id not in on_path:
+        return list(diagram.nodes), []
+    return ([n for n in diagram.nodes if n in on_path], [n for n in diagram.nodes if n not in on_path])
 
 
 @dataclass
@@ -108,22 +125,26 @@ class SignalGraph:
         return self.ctx.constant(scale), self.ctx.constant(1)
 
 
-def build_signal_graph(diagram: Diagram) -> SignalGraph:
-    """Read the diagram's wires as gains (see the module docstring)."""
-    blocks = block_polynomials(diagram)
-    ctx = mpoly_context(diagram_parameters(diagram))
+def build_signal_graph(diagram: Diagram, keep: Collection[str] | None = None) -> SignalGraph:
+    """Read the diagram's wires as gains (see the module docstring); only the ``keep`` nodes and
+    the wires between them when given."""
+    kept = list(diagram.nodes) if keep is None else [n for n in diagram.nodes if n in set(keep)]
+    members = set(kept)
+    blocks = block_polynomials(diagram, members)
+    ctx = mpoly_context(diagram_parameters(diagram, members))
     edges: dict[tuple[str, str], fmpq] = {}
     fed: set[tuple[str, int]] = set()
     for w in diagram.wires:
+        if w.source not in members or w.target not in members:
+            continue
         target = diagram.nodes[w.target]
         sign = -1 if target.kind == "sum" and target.signs[w.port] == "-" else 1
         edges[(w.source, w.target)] = edges.get((w.source, w.target), fmpq(0)) + sign
         fed.add((w.target, w.port))
     edges = {k: v for k, v in edges.items() if v != 0 and not (k[1] in blocks and blocks[k[1]][0].is_zero())}
-    unconnected = [(nid, p) for nid, node in diagram.nodes.items()
-                   for p in range(node.input_count) if (nid, p) not in fed]
-    return SignalGraph(list(diagram.nodes), {k: n.kind for k, n in diagram.nodes.items()},
-                       edges, blocks, ctx, unconnected)
+    unconnected = [(nid, p) for nid in kept
+                   for p in range(diagram.nodes[nid].input_count) if (nid, p) not in fed]
+    return SignalGraph(kept, {k: diagram.nodes[k].kind for k in kept}, edges, blocks, ctx, unconnected)
 
 
 def reachable(start: str, adjacency: dict[str, list[str]]) -> set[str]:

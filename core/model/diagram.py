@@ -401,6 +401,15 @@ class Diagram:
         return old
 
     # -- derived ------------------------------------------------------------------------------
+    def check_block_names(self) -> None:
+        """E111 for the first block text with s run into a name that is not a declared parameter
+        (``Tis`` where no parameter Tis exists: probably ``Ti*s``)."""
+        from core.algebra.expression import check_glued_names
+        for node in self.nodes.values():
+            if node.kind == "block":
+                for part, text in (("numerator", node.num), ("denominator", node.den)):
+                    check_glued_names(text, self.parameters, where=f"node {node.id}, {part}")
+
     def parameter_names_in_blocks(self) -> set[str]:
         """Every parameter name typed in any block's numerator or denominator."""
         from core.algebra.expression import expression_parameters

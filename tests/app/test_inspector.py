@@ -157,3 +157,27 @@ def test_name_and_role(qtbot, setup):
     inspector.role.activated.emit(inspector.role.currentIndex())
     assert d.node("P").role == "actuator"
     assert stack.count() == 2
+
+
+def test_a_new_name_is_flagged_where_it_is_typed(qtbot, setup):
+    _d, stack, inspector = setup
+    inspector.show_node("P")
+    type_into(qtbot, inspector.num.edit, "Kp (Tn s + 1)")
+    text = inspector.num.error.text()
+    # columns counted by hand in "Kp (Tn s + 1)"
+    assert inspector.num.error.isVisible() and "new parameter 'Kp' (column 1)" in text
+    assert "new parameter 'Tn' (column 5)" in text
+    assert stack.count() == 0
+
+
+def test_a_name_with_s_run_into_it_is_refused_and_can_be_declared(qtbot, setup):
+    d, stack, inspector = setup
+    inspector.show_node("P")
+    type_into(qtbot, inspector.den.edit, "Ts + 1")
+    assert inspector.den.error.text().startswith("E111") and "did you mean T*s?" in inspector.den.error.text()
+    qtbot.keyClick(inspector.den.edit, Qt.Key.Key_Return)
+    assert d.nodes["P"].den == "s+1" and "Ts" not in d.parameters
+    assert inspector.declare.isVisibleTo(inspector) and "Ts" in inspector.declare.text()
+    inspector.declare.click()
+    assert d.nodes["P"].den == "Ts + 1" and "Ts" in d.parameters
+    assert stack.count() == 1
