@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import re
 
-import sympy
+from flint import fmpq
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QUndoStack
 from PySide6.QtWidgets import (
@@ -32,7 +32,8 @@ from PySide6.QtWidgets import (
 from app.document.commands import EditNodeCommand, SetAnalysisCommand, push
 from app.document.editing import block_text_command
 from app.theme import figure_font
-from core.algebra.expression import block_transfer, glued_reading, read_block, typed_names
+from core.algebra.expression import S, block_transfer, glued_reading, read_block, to_mpoly, typed_names
+from core.algebra.polynomial import mpoly_context, mpoly_text, to_fmpq
 from core.errors import LoopwrightError
 from core.model.diagram import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram
 
@@ -83,8 +84,12 @@ def glued_names(num: str, den: str, declared: set[str]) -> list[str]:
             if glued_reading(t.name) is not None and t.name not in declared]
 
 
+FACTOR_CHARS = 120  # a longer irreducible factor is named by its degree (the full text is in the fields)
+
+
 def factored_text(num: str, den: str) -> str:
-    """The block's N/D as gain · factors / factors, factored by sympy over the rationals (display only).
+    """The block's N/D as gain · factors / factors, factored exactly over the rationals by
+    python-flint (display only; fast even for ``(s+K)^199``).
 
     >>> factored_text("K", "s^3 + 3s^2 + 2s")
     'K / (s·(s + 1)·(s + 2))'
@@ -92,41 +97,50 @@ def factored_text(num: str, den: str) -> str:
     '0.8 / ((8·s + 1)·(60·s + 1))'
     """
     n, d = block_transfer(num, den)
-    gain_n, top = _factor_texts(n)
-    gain_d, bottom = _factor_texts(d)
+    ctx = mpoly_context(sorted(str(x) for x in (n.free_symbols | d.free_symbols) if str(x) != S))
+    gain_n, top = _factor_texts(to_mpoly(n, ctx))
+    gain_d, bottom = _factor_texts(to_mpoly(d, ctx))
     gain = gain_n / gain_d
     if gain != 1 or not top:
         top = [_gain_text(gain), *top]
     top_text = "·".join(top).replace("-1·", "-", 1) if top[0] == "-1" else "·".join(top)
     if not bottom:
-        return top_text.removeprefix("(").removesuffix(")") if len(top) == 1 else top_text
+        bare = len(top) == 1 and top_text.startswith("(") and top_text.endswith(")")
+        return top_text[1:-1] if bare else top_text
     bottom_text = "·".join(bottom)
     return f"{top_text} / ({bottom_text})" if len(bottom) > 1 else f"{top_text} / {bottom_text}"
 
 
-def _factor_texts(expr: sympy.Expr) -> tuple[sympy.Rational, list[str]]:
-    """The rational content and the texts of the irreducible factors (with parentheses and powers)."""
-    constant, factors = sympy.factor_list(expr)
+def _factor_texts(poly) -> tuple[fmpq, list[str]]:
+    """The rational content and the texts of the irreducible factors (with parentheses and
+    powers): factors free of s first, then by degree in s."""
+    constant, factors = poly.factor()
     texts = []
-    for factor, power in factors:
-        text = _show(factor)
-        if factor.is_Add:
+    for factor, power in sorted(factors, key=_factor_order):
+        text = mpoly_text(factor).replace("*", "·")
+        if len(text) > FACTOR_CHARS:
+            text = f"[degree {factor.degrees()[0]} in s, {len(factor)} terms]"
+        elif len(factor) > 1:
             text = f"({text})"
         texts.append(f"{text}^{power}" if power > 1 else text)
-    return constant, texts
+    return fmpq(constant), texts
 
 
-def _gain_text(gain: sympy.Rational) -> str:
-    """``0.8`` for gains with a short exact decimal, else ``(1/3)``."""
-    value = float(gain)
-    short = f"{value:.6g}"
-    if gain.q != 1 and sympy.Rational(short) == gain and "e" not in short:
+def _factor_order(pair) -> tuple:
+    factor = pair[0]
+    return factor.degrees()[0], factor.total_degree(), len(str(factor)), str(factor)
+
+
+def _gain_text(gain: fmpq) -> str:
+    """``0.8`` for gains with a short exact decimal, else ``(1/3)``; ``(≈1e-300)`` for a long one."""
+    try:
+        short = f"{int(gain.p) / int(gain.q):.6g}"
+    except OverflowError:
+        short = "e"
+    if gain.q != 1 and "e" not in short and to_fmpq(short) == gain:
         return short
-    return _show(gain) if gain.q == 1 else f"({_show(gain)})"
-
-
-def _show(expr: sympy.Expr) -> str:
-    return sympy.sstr(expr).replace("**", "^").replace("*", "·")
+    exact = str(gain) if gain.q == 1 else f"({gain})"
+    return exact if len(exact) <= 24 or short == "e" else f"(≈{short})"
 
 
 class _FieldWithError(QWidget):

@@ -100,3 +100,13 @@ def test_factor_cancelled_inside_one_typed_field_is_still_a_mode():
     r = check_project(d)
     assert any(abs(h.pole.re - 1) < 1e-12 and h.unstable for h in r.hidden_modes)
     assert not r.nominal.stable
+
+
+def test_first_column_signs_beyond_the_float_range_defer_to_the_exact_test():
+    # 10^400 overflows a double (IEEE 754 range ends near 1.8e308): no float sign may be claimed
+    from flint import fmpq_poly
+
+    from core.analysis.pipeline import FirstColumnSigns
+    from core.analysis.routh import RationalFunction
+    assert FirstColumnSigns([RationalFunction(fmpq_poly([10**400, 1]))]).at(1.0) is None
+    assert FirstColumnSigns([RationalFunction(fmpq_poly([-10**400, 1]))]).at(1.0) is None

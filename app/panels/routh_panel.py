@@ -37,6 +37,8 @@ from core.analysis.routh import RationalFunction, RouthArray
 from core.present.report_text import routh_table
 
 ENTRY_CHARS = 24  # symbolic entries wider than this wrap within their cell (full text in the tooltip)
+CELL_CHARS = 6 * ENTRY_CHARS  # a longer entry is cut at a term with "…" (its tooltip holds more)
+TIP_CHARS = 2000  # tooltips stop here; Copy as text gives every entry whole
 SUPERSCRIPTS = str.maketrans("0123456789", "⁰¹²³⁴⁵⁶⁷⁸⁹")
 EPS = "ε"
 REST_MS = 150  # the slider resting this long: entries evaluated exactly (tooltips with exact rationals)
@@ -64,6 +66,29 @@ def cell_text(text: str, uses_eps: bool) -> str:
     '−3K² + 1/2·K'
     """
     return re.sub(r"\^(\d+)", lambda m: m.group(1).translate(SUPERSCRIPTS), entry_display(text, uses_eps))
+
+
+def cell_texts(text: str, uses_eps: bool) -> tuple[str, str]:
+    """(shown, tooltip) for one entry: the shown text cut after a whole term at :data:`CELL_CHARS`
+    characters, the tooltip (empty for a short entry) at :data:`TIP_CHARS`, so a huge entry never
+    costs the window time.
+
+    >>> cell_texts("K + 1", False)
+    ('K + 1', '')
+    >>> shown, tip = cell_texts(" + ".join(f"{i}*K^{i}" for i in range(1, 60)), False)
+    >>> shown.endswith(" …"), len(shown) <= CELL_CHARS + 2, tip.startswith("1K¹ + 2K²")
+    (True, True, True)
+    """
+    shown = cell_text(_cut(text, CELL_CHARS), uses_eps)
+    tip = cell_text(_cut(text, TIP_CHARS), uses_eps) if len(shown) > ENTRY_CHARS else ""
+    return shown, tip
+
+
+def _cut(text: str, limit: int) -> str:
+    if len(text) <= limit:
+        return text
+    space = text.rfind(" ", 0, limit)
+    return text[:space if space > 0 else limit] + " …"
 
 
 def _powers(text: str) -> str:
@@ -343,10 +368,10 @@ class RouthPanel(QWidget):
         display = arr.rows_text()
         for i, row in enumerate(display):
             for j in range(width):
-                text = cell_text(row[j], arr.uses_eps) if j < len(row) else ""
+                text, tip = cell_texts(row[j], arr.uses_eps) if j < len(row) else ("", "")
                 item = QTableWidgetItem(text)
                 item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
-                item.setToolTip(text if len(text) > ENTRY_CHARS else "")
+                item.setToolTip(tip)
                 if j == 0:
                     item.setBackground(tint)
                 elif i in special_rows:
@@ -363,10 +388,10 @@ class RouthPanel(QWidget):
         changed = False
         for i, row in enumerate(arr.rows_text()):
             for j in range(self._width()):
-                text = cell_text(row[j], arr.uses_eps) if j < len(row) else ""
+                text, tip = cell_texts(row[j], arr.uses_eps) if j < len(row) else ("", "")
                 item = self.table.item(i + 1, self._entry_column(j))
                 changed |= item.text() != text
-                _set_text(item, text, text if len(text) > ENTRY_CHARS else "")
+                _set_text(item, text, tip)
         self._fill_values_and_size(resize=changed)
 
     def _fill_values_and_size(self, resize: bool = True) -> None:

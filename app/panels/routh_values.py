@@ -23,6 +23,8 @@ and 5, from memory); twice that is used. For y = N / D with errors e_N, e_D (e_D
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from app.panels.common import number
@@ -32,12 +34,20 @@ UNIT_ROUNDOFF = 2.0 ** -53
 
 
 def _table(polys, width: int) -> np.ndarray:
-    """Float coefficients, column i holding the coefficient of v^i."""
+    """Float coefficients, column i holding the coefficient of v^i; one beyond the float range is
+    infinite, so every entry using it is left to the exact evaluation."""
     table = np.zeros((len(polys), width))
     for row, p in enumerate(polys):
         for i in range(p.degree() + 1):
-            table[row, i] = float(p[i])
+            table[row, i] = _float(p[i])
     return table
+
+
+def _float(q) -> float:
+    try:
+        return float(q)
+    except OverflowError:
+        return math.inf if q > 0 else -math.inf
 
 
 class FloatEntries:

@@ -13,6 +13,7 @@ the reference input's step response at the nominal value.
 """
 from __future__ import annotations
 
+import math
 import time
 import traceback
 from dataclasses import dataclass, field
@@ -67,7 +68,7 @@ class FirstColumnSigns:
         self.table = np.zeros((len(polys), width))
         for row, q in enumerate(polys):
             for i in range(q.degree() + 1):
-                self.table[row, width - 1 - i] = float(q[i])
+                self.table[row, width - 1 - i] = _float(q[i])
         self.slack = 2.0 * (2 * width + 2) * UNIT_ROUNDOFF
 
     @staticmethod
@@ -84,12 +85,22 @@ class FirstColumnSigns:
         powers = float(value) ** np.arange(self.table.shape[1] - 1, -1, -1, dtype=float)
         if not np.all(np.isfinite(powers)):
             return None
-        values = self.table @ powers
-        bounds = self.slack * (np.abs(self.table) @ np.abs(powers))
+        with np.errstate(all="ignore"):  # an entry beyond the float range gives inf or nan: no sign
+            values = self.table @ powers
+            bounds = self.slack * (np.abs(self.table) @ np.abs(powers))
         if not np.all(np.abs(values) > bounds) or not np.all(np.isfinite(values)):
             return None
         signs = np.sign(values)
         return [int(a) for a in signs[: self.count] * signs[self.count:]]
+
+
+def _float(q) -> float:
+    """A rational as a float; infinite beyond the float range (then :meth:`FirstColumnSigns.at`
+    says nothing and the exact test decides)."""
+    try:
+        return float(q)
+    except OverflowError:
+        return math.inf if q > 0 else -math.inf
 
 
 @dataclass(frozen=True)
@@ -227,7 +238,7 @@ def coefficient_table(poly: ParametricPolynomial) -> np.ndarray:
     table = np.zeros((len(coeffs), width))
     for row, c in enumerate(coeffs):
         for i in range(c.degree() + 1):
-            table[row, width - 1 - i] = float(c[i])
+            table[row, width - 1 - i] = _float(c[i])
     return table
 
 

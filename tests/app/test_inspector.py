@@ -181,3 +181,19 @@ def test_a_name_with_s_run_into_it_is_refused_and_can_be_declared(qtbot, setup):
     inspector.declare.click()
     assert d.nodes["P"].den == "Ts + 1" and "Ts" in d.parameters
     assert stack.count() == 1
+
+
+def test_factored_view_of_a_high_power_is_exact_and_quick_to_build():
+    # reference: sympy.factor_list of (s + K)^12 (1/(s+1)) is one factor s + K to the 12th
+    s, K = sympy.symbols("s K")
+    assert sympy.factor_list(sympy.expand((s + K) ** 12))[1] == [(s + K, 12)]
+    assert factored_text("(s + K)^12", "s + 1") == "(s + K)^12 / (s + 1)"
+    # a degree-199 power is factored by flint, not expanded and refactored term by term
+    assert factored_text("(s + K)^199", "1") == "(s + K)^199"
+
+
+def test_factored_view_names_a_long_irreducible_factor_by_its_degree():
+    # reference: sympy finds (s + K)^20 + s irreducible over the rationals (one factor, power 1)
+    s, K = sympy.symbols("s K")
+    assert len(sympy.factor_list(sympy.expand((s + K) ** 20 + s))[1]) == 1
+    assert factored_text("(s + K)^20 + s", "1") == "[degree 20 in s, 22 terms]"

@@ -176,3 +176,12 @@ def test_range_verdict_from_first_column_signs_counts_the_right_half_plane_roots
         assert quick == panel.verdict_html(), v
         del controller.result.__dict__["_first_column"]
     controller.dispose()
+
+
+def test_entries_beyond_the_float_range_are_left_to_the_exact_evaluation():
+    # 10^400 has no float (IEEE 754 doubles end near 1.8e308): the table must say "ask the exact
+    # value" for that entry instead of raising, and keep the ordinary entry
+    rows = [[RationalFunction(fmpq_poly([10**400, 1])), RationalFunction(fmpq_poly([2, -1]))]]
+    values = FloatEntries(rows).at(1.0)
+    assert values[0][0] is None
+    assert values[0][1] is not None and values[0][1][1] == 1  # reference: 2 - 1 = 1 > 0
