@@ -1,9 +1,11 @@
 """The one analysis controller: debounced, off the GUI thread, newest result wins.
 
-Every model change restarts a short single-shot timer; when it fires, the diagram is copied (as
-its project dictionary, on the GUI thread) and analysed on a worker thread with
-:func:`core.analysis.report.check_project`. Each request carries a generation number; a result whose
-generation is no longer the newest is dropped. Errors never escape: a
+Every model change restarts a short single-shot timer and marks the shown result out of date at
+once (``staleChanged``); when the timer fires, the diagram is copied (as its project dictionary, on
+the GUI thread) and analysed on a worker thread with :func:`core.analysis.pipeline.analyse_snapshot`.
+Each request carries a generation number; an analysis of an older generation still running is
+cancelled, and a result whose generation is no longer the newest is dropped. :meth:`cancel` stops
+the running analysis at the user's request. Errors never escape: a
 :class:`~core.errors.LoopwrightError` arrives as ``AnalysisResult.error``, anything else as
 ``AnalysisResult.internal_error``.
 
@@ -15,6 +17,7 @@ through one undoable command. The controller itself never edits the model.
 """
 from __future__ import annotations
 
+import ctypes
 import itertools
 import math
 import threading
@@ -31,9 +34,45 @@ from core.model.diagram import Diagram
 DEBOUNCE_MS = 35  # edits arrive on Enter or commit, not per keystroke: a short wait still merges bursts
 
 
-def _work(token: int, project: dict, generation: int) -> None:
-    result = analyse_snapshot(project, generation)
-    _relay().finished.emit(token, result)
+class AnalysisCancelled(BaseException):
+    """Raised inside a worker whose analysis is no longer wanted. A BaseException, so the
+    engine's ``except Exception`` guards let it through."""
+
+
+class _Job:
+    """One analysis on its worker thread. :meth:`cancel` raises :class:`AnalysisCancelled` in the
+    thread at its next Python instruction (a long call inside a compiled library finishes first);
+    after the analysis returned, a cancel does nothing."""
+
+    def __init__(self, token: int, project: dict, generation: int):
+        self.token, self.project, self.generation = token, project, generation
+        self._lock = threading.Lock()
+        self._running = True
+        self.thread = threading.Thread(target=self._work, name="loopwright-analysis", daemon=True)
+
+    def start(self) -> None:
+        self.thread.start()
+
+    def cancel(self) -> None:
+        with self._lock:
+            if self._running and self.thread.ident is not None:
+                self._running = False
+                ctypes.pythonapi.PyThreadState_SetAsyncExc(ctypes.c_ulong(self.thread.ident),
+                                                           ctypes.py_object(AnalysisCancelled))
+
+    def alive(self) -> bool:
+        return self.thread.is_alive()
+
+    def _work(self) -> None:
+        try:
+            result = analyse_snapshot(self.project, self.generation)
+            with self._lock:
+                if not self._running:
+                    return  # cancelled just as it finished
+                self._running = False
+            _relay().finished.emit(self.token, result)
+        except AnalysisCancelled:
+            pass
 
 
 class _Relay(QObject):
@@ -75,6 +114,7 @@ class AnalysisController(QObject):
 
     resultReady = Signal(object)
     busyChanged = Signal(bool)
+    staleChanged = Signal(bool)
     currentValueChanged = Signal(float)
     nominalCommitted = Signal(str, float)
 
@@ -83,14 +123,14 @@ class AnalysisController(QObject):
         super().__init__(parent)
         self._diagram = diagram
         self._generation = 0
-        self._running = False
+        self._job: _Job | None = None
+        self._shown_generation = 0
         self._busy = False
         self._result: AnalysisResult | None = None
         self._current: float | None = None
         self._dragging = False
         self._disposed = False
         self._held = False
-        self._worker: threading.Thread | None = None
         self._token = next(_TOKENS)
         _relay().controllers[self._token] = self
         self._timer = QTimer(self)
@@ -118,6 +158,11 @@ class AnalysisController(QObject):
         return self._busy
 
     @property
+    def stale(self) -> bool:
+        """Whether the model changed since the shown result was computed (True before the first)."""
+        return self._shown_generation != self._generation
+
+    @property
     def current_value(self) -> float | None:
         """The tuning parameter's current (slider) value; None without a tuning parameter."""
         return self._current
@@ -130,6 +175,7 @@ class AnalysisController(QObject):
         self._generation += 1
         self._timer.start()
         self._set_busy(True)
+        self.staleChanged.emit(True)
 
     def analyse_now(self) -> None:
         """Skip the debounce wait (the result still arrives through ``resultReady``)."""
@@ -138,6 +184,7 @@ class AnalysisController(QObject):
         self._generation += 1
         self._timer.stop()
         self._set_busy(True)
+        self.staleChanged.emit(True)
         self._start()
 
     def hold(self, held: bool) -> None:
@@ -147,32 +194,44 @@ class AnalysisController(QObject):
         if not held and self._busy and not self._timer.isActive():
             self._start()
 
+    def cancel(self) -> None:
+        """Stop the running analysis (the user's Stop): the panels keep the last result, marked out
+        of date, until the next change is analysed."""
+        self._timer.stop()
+        if self._job is not None:
+            self._job.cancel()
+            self._job = None
+        self._set_busy(False)
+
     def _start(self) -> None:
-        if self._running or self._disposed or self._held:
-            return  # _on_finished starts again when the newest generation was not analysed
-        self._running = True
+        """Analyse the newest generation now; an analysis of an older one is cancelled first, so a
+        slow analysis never holds up the one the user is waiting for."""
+        if self._disposed or self._held:
+            return
         generation = self._generation
+        if self._job is not None:
+            if self._job.generation == generation and self._job.alive():
+                return
+            self._job.cancel()
+            self._job = None
         try:
             project = project_to_dict(self._diagram)
         except Exception as exc:
-            self._running = False
             self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
             return
-        self._worker = threading.Thread(target=_work, args=(self._token, project, generation),
-                                        name="loopwright-analysis", daemon=True)
-        self._worker.start()
+        self._job = _Job(self._token, project, generation)
+        self._job.start()
 
     def _on_finished(self, result: AnalysisResult) -> None:
-        self._running = False
-        if self._disposed:
-            return
-        if result.generation != self._generation:
-            if not self._timer.isActive():
-                self._start()  # stale: the newest change has not been analysed yet
-            return
+        if self._job is not None and self._job.generation == result.generation:
+            self._job = None
+        if self._disposed or result.generation != self._generation:
+            return  # stale: the newest generation is on the timer or already running
         self._result = result
+        self._shown_generation = result.generation
         self._adopt_tuning(result)
         self.resultReady.emit(result)
+        self.staleChanged.emit(False)
         if not self._timer.isActive():
             self._set_busy(False)
 
@@ -215,12 +274,13 @@ class AnalysisController(QObject):
     # -- end of life ------------------------------------------------------------------------------
     def dispose(self, wait_ms: int = 0) -> bool:
         """Stop for good: no more analyses, timers stopped, signals disconnected, a running analysis
-        abandoned (its result is dropped). Waits up to ``wait_ms`` for the worker thread; returns
+        cancelled (its result is dropped). Waits up to ``wait_ms`` for the worker thread; returns
         True when no worker is left running. Safe to call twice.
 
-        The worker is a daemon thread that only reads its own copy of the project, so abandoning it
-        is safe: it cannot touch this controller's diagram and dies with the process.
+        The worker only reads its own copy of the project, so abandoning it is safe: it cannot
+        touch this controller's diagram, and a cancel it cannot take at once ends it later.
         """
+        job = self._job
         if not self._disposed:
             self._disposed = True
             self._timer.stop()
@@ -230,11 +290,12 @@ class AnalysisController(QObject):
                 pass
             _relay().controllers.pop(self._token, None)
             self._generation += 1  # anything still in flight is stale
+            if job is not None:
+                job.cancel()
             self._set_busy(False)
-        worker = self._worker
-        if worker is not None and worker.is_alive() and wait_ms > 0:
-            worker.join(wait_ms / 1000.0)
-        return worker is None or not worker.is_alive()
+        if job is not None and job.alive() and wait_ms > 0:
+            job.thread.join(wait_ms / 1000.0)
+        return job is None or not job.alive()
 
     @property
     def disposed(self) -> bool:

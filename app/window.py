@@ -21,6 +21,7 @@ from PySide6.QtWidgets import (
     QProgressBar,
     QStyle,
     QTabWidget,
+    QToolButton,
     QWidget,
 )
 
@@ -91,7 +92,10 @@ class MainWindow(QMainWindow):
                                 self.step_panel, self.requirements_panel]
         for panel in self.analysis_panels:
             panel.setAutoFillBackground(True)  # opaque: a panel repainted never repaints its dock and the window
+        self.stale_docks = {"polynomial": self.polynomial_panel, "routh": self.routh_panel, "range": self.range_panel,
+                            "poles": self.pole_map, "step": self.step_panel, "requirements": self.requirements_panel}
         self._build_status_bar()
+        self.stop_button.clicked.connect(lambda: self.controller.cancel())
         self.set_document(Diagram())
         self.palette_panel = Palette(self.editor, self)
         self.setCentralWidget(self.view)
@@ -297,9 +301,15 @@ class MainWindow(QMainWindow):
         self.busy.setTextVisible(False)
         self.busy.setToolTip("Analysing…")
         self.busy.hide()
+        self.stop_button = QToolButton()
+        self.stop_button.setText("Stop")
+        self.stop_button.setToolTip("Stop this analysis: the panels keep the last result, marked out of date")
+        self.stop_button.hide()
         self.verdict = QLabel()
         self.verdict.setObjectName("verdict")
+        self._verdict_shown = ""
         status.addPermanentWidget(self.busy)
+        status.addPermanentWidget(self.stop_button)
         status.addPermanentWidget(self.verdict)
 
     # -- the document -----------------------------------------------------------------------------
@@ -334,7 +344,11 @@ class MainWindow(QMainWindow):
         self.controller.resultReady.connect(
             lambda result: self.scene.mark_left_out(result.report.left_out if result.ok else []))
         self.controller.busyChanged.connect(self.busy.setVisible)
+        self.controller.busyChanged.connect(self.stop_button.setVisible)
+        self.controller.busyChanged.connect(lambda _: self._mark_stale())
+        self.controller.staleChanged.connect(lambda _: self._mark_stale())
         self.verdict.setText("")
+        self._verdict_shown = ""
         if dirty:
             self.undo_stack.resetClean()
         self._update_title()
@@ -347,14 +361,28 @@ class MainWindow(QMainWindow):
             self.signals.deleteLater()  # after the panels let go of it in set_document
         if self.controller is not None:
             for signal in (self.controller.resultReady, self.controller.currentValueChanged,
-                           self.controller.busyChanged, self.pole_map.valueDragged, self.pole_map.valueCommitted):
+                           self.controller.busyChanged, self.controller.staleChanged, self.pole_map.valueDragged, self.pole_map.valueCommitted):
                 signal.disconnect()
             self.controller.dispose()
             self.controller.deleteLater()
 
     def _show_verdict(self, result) -> None:
-        self.verdict.setText(self._verdict_text(result))
+        self._verdict_shown = self._verdict_text(result)
+        self.verdict.setText(self._verdict_shown)
         self.verdict.setStyleSheet(self._verdict_style(result))
+
+    def _mark_stale(self) -> None:
+        """The moment the model changes, the headline and the analysis docks say that what they
+        show is out of date; the next result clears the marks."""
+        stale = self.controller.stale and self.controller.result is not None
+        for key, panel in self.stale_docks.items():
+            if key in self.docks:
+                self.docks[key].setWindowTitle(panel.TITLE + (" · out of date" if stale else ""))
+        if not stale:
+            return
+        doing = "Analysing the change" if self.controller.busy else "Stopped: out of date"
+        self.verdict.setText(f"{doing} (last: {self._verdict_shown})" if self._verdict_shown else doing)
+        self.verdict.setStyleSheet(f"color: {colour('muted').name()}; padding: 0 6px;")
 
     @staticmethod
     def _verdict_text(result) -> str:

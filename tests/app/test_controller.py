@@ -185,3 +185,51 @@ def test_dispose_abandons_a_running_analysis_and_ignores_later_changes(qtbot, mo
 
 
 DEBOUNCE_WAIT_MS = 3 * controller_module.DEBOUNCE_MS
+
+
+def spin_forever_on_first_call(monkeypatch):
+    """Make the first analysis never end (a pure-Python loop, so a cancel can reach it); later
+    analyses are real. Returns the list of worker threads that ran an analysis."""
+    real = controller_module.analyse_snapshot
+    threads = []
+
+    def first_spins(project, generation):
+        threads.append(threading.current_thread())
+        while len(threads) == 1:
+            sum(range(100))
+        return real(project, generation)
+    monkeypatch.setattr(controller_module, "analyse_snapshot", first_spins)
+    return threads
+
+
+def test_a_never_ending_analysis_is_cancelled_by_the_next_change(qtbot, monkeypatch):
+    threads = spin_forever_on_first_call(monkeypatch)
+    d = unity_loop()
+    ctl, _, results = make(qtbot, d)
+    ctl.analyse_now()
+    qtbot.waitUntil(lambda: len(threads) == 1)
+    d.set_parameter(Parameter("K", 7.0, 0.0, 10.0))
+    assert ctl.stale  # marked out of date at once, before anything was analysed
+    qtbot.waitUntil(lambda: bool(results), timeout=10000)
+    assert [r.tuning_range.nominal for r in results] == [7.0] and not ctl.stale
+    threads[0].join(5)
+    assert not threads[0].is_alive()  # the spinning analysis was stopped, not left burning a core
+
+
+def test_stop_keeps_the_last_result_marked_out_of_date(qtbot, monkeypatch):
+    d = unity_loop()
+    ctl, _, results = make(qtbot, d)
+    assert ctl.wait_for_idle(10000) and len(results) == 1 and not ctl.stale
+    threads = spin_forever_on_first_call(monkeypatch)
+    stale_marks = []
+    ctl.staleChanged.connect(stale_marks.append)
+    d.set_parameter(Parameter("K", 3.0, 0.0, 10.0))
+    assert stale_marks == [True] and ctl.stale
+    qtbot.waitUntil(lambda: len(threads) == 1)
+    ctl.cancel()
+    assert not ctl.busy and ctl.stale and ctl.result is results[0]
+    threads[0].join(5)
+    assert not threads[0].is_alive()
+    d.set_parameter(Parameter("K", 4.0, 0.0, 10.0))  # the next change is analysed as usual
+    qtbot.waitUntil(lambda: len(results) == 2, timeout=10000)
+    assert results[1].tuning_range.nominal == 4.0 and not ctl.stale and stale_marks[-1] is False

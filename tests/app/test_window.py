@@ -154,3 +154,19 @@ def test_window_rebuilds_on_new_document(window, example_path):
     window.files.new_project()
     assert window.scene is not old_scene and window.view.scene() is window.scene
     assert window.palette_panel.editor is window.editor and window.editor.scene is window.scene
+
+
+def test_an_edit_marks_the_headline_and_the_panels_out_of_date_at_once(window, example_path, analysed):
+    assert window.files.open(example_path, ask=False)
+    analysed(window)
+    verdict = window.verdict.text()
+    assert verdict.startswith("Stable") and "out of date" not in window.docks["range"].windowTitle()
+    name = window.controller.result.tuning_range.name
+    param = window.diagram.parameters[name]
+    window.diagram.set_parameter(type(param)(name, param.nominal * 1.5, param.minimum, param.maximum))
+    # no event processed yet: the marks come with the change itself
+    assert window.verdict.text() == f"Analysing the change (last: {verdict})"
+    assert all(window.docks[key].windowTitle().endswith("· out of date") for key in window.stale_docks)
+    analysed(window)
+    assert not window.verdict.text().startswith("Analysing")
+    assert not any("out of date" in window.docks[key].windowTitle() for key in window.stale_docks)
