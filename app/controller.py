@@ -22,7 +22,9 @@ import itertools
 import math
 import threading
 import time
+import traceback
 import weakref
+from collections.abc import Callable
 
 import shiboken6
 from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject, QTimer, Signal
@@ -44,8 +46,8 @@ class _Job:
     thread at its next Python instruction (a long call inside a compiled library finishes first);
     after the analysis returned, a cancel does nothing."""
 
-    def __init__(self, token: int, project: dict, generation: int):
-        self.token, self.project, self.generation = token, project, generation
+    def __init__(self, token: int, project: dict, generation: int, prepare: Callable[[AnalysisResult], None] | None):
+        self.token, self.project, self.generation, self.prepare = token, project, generation, prepare
         self._lock = threading.Lock()
         self._running = True
         self.thread = threading.Thread(target=self._work, name="loopwright-analysis", daemon=True)
@@ -66,6 +68,11 @@ class _Job:
     def _work(self) -> None:
         try:
             result = analyse_snapshot(self.project, self.generation)
+            if self.prepare is not None:
+                try:
+                    self.prepare(result)
+                except Exception:  # only the ready-made texts are lost: the panels make them
+                    traceback.print_exc()
             with self._lock:
                 if not self._running:
                     return  # cancelled just as it finished
@@ -109,7 +116,8 @@ def _relay() -> _Relay:
 class AnalysisController(QObject):
     """Runs the analysis of one diagram whenever it changes; see the module docstring.
 
-    ``signals`` is the diagram's ModelSignals (anything with a ``changed`` signal).
+    ``signals`` is the diagram's ModelSignals (anything with a ``changed`` signal). ``prepare``
+    runs on the worker thread with each result before it is delivered (the panels' slow text work).
     """
 
     resultReady = Signal(object)
@@ -119,8 +127,9 @@ class AnalysisController(QObject):
     nominalCommitted = Signal(str, float)
 
     def __init__(self, diagram: Diagram, signals, parent: QObject | None = None,
-                 debounce_ms: int = DEBOUNCE_MS):
+                 debounce_ms: int = DEBOUNCE_MS, prepare: Callable[[AnalysisResult], None] | None = None):
         super().__init__(parent)
+        self._prepare = prepare
         self._diagram = diagram
         self._generation = 0
         self._job: _Job | None = None
@@ -219,7 +228,7 @@ class AnalysisController(QObject):
         except Exception as exc:
             self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
             return
-        self._job = _Job(self._token, project, generation)
+        self._job = _Job(self._token, project, generation, self._prepare)
         self._job.start()
 
     def _on_finished(self, result: AnalysisResult) -> None:

@@ -37,7 +37,7 @@ from app.export import ExportActions
 from app.files import Dialogs, ProjectFiles
 from app.inspector import Inspector
 from app.palette import Palette
-from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach
+from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach, prepare_for_panels
 from app.panels.common import colour
 from app.panels.requirements_panel import RequirementsPanel
 from app.panels.step_panel import StepPanel
@@ -336,7 +336,7 @@ class MainWindow(QMainWindow):
         self.parameters.set_document(diagram, self.signals, self.undo_stack)
         self.requirements_panel.set_document(diagram, self.signals, self.undo_stack)
         self.signals.settingsChanged.connect(self._on_settings_changed)
-        self.controller = AnalysisController(diagram, self.signals, self)
+        self.controller = AnalysisController(diagram, self.signals, self, prepare=prepare_for_panels)
         commit_nominals(self.controller, diagram, self.undo_stack)
         for panel in self.analysis_panels:
             attach(panel, self.controller)

@@ -102,11 +102,15 @@ def test_factor_cancelled_inside_one_typed_field_is_still_a_mode():
     assert not r.nominal.stable
 
 
-def test_first_column_signs_beyond_the_float_range_defer_to_the_exact_test():
-    # 10^400 overflows a double (IEEE 754 range ends near 1.8e308): no float sign may be claimed
-    from flint import fmpq_poly
+def test_first_column_signs_are_certified_beyond_the_float_range():
+    # 10^400 overflows a double (IEEE 754 range ends near 1.8e308); ball arithmetic still gives the
+    # sign, checked against exact rational evaluation (fmpq); an exact zero gives no sign at all
+    from flint import fmpq, fmpq_poly
 
     from core.analysis.pipeline import FirstColumnSigns
     from core.analysis.routh import RationalFunction
-    assert FirstColumnSigns([RationalFunction(fmpq_poly([10**400, 1]))]).at(1.0) is None
-    assert FirstColumnSigns([RationalFunction(fmpq_poly([-10**400, 1]))]).at(1.0) is None
+    for coeffs in ([10**400, 1], [-10**400, 1], [1, -10**400], [fmpq(1, 3), -1]):
+        p = fmpq_poly(coeffs)
+        exact = p(fmpq(1, 2))
+        assert FirstColumnSigns([RationalFunction(p)]).at(0.5) == [1 if exact > 0 else -1]
+    assert FirstColumnSigns([RationalFunction(fmpq_poly([-1, 2]))]).at(0.5) is None  # 2*(1/2) - 1 = 0

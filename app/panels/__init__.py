@@ -8,9 +8,19 @@ from PySide6.QtCore import QEvent, QObject
 from app.panels.pole_map import PoleMap
 from app.panels.polynomial_panel import PolynomialPanel
 from app.panels.range_panel import RangePanel
-from app.panels.routh_panel import RouthPanel
+from app.panels.routh_panel import RouthPanel, ready_cells
 
-__all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach"]
+__all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach", "prepare_for_panels"]
+
+
+def prepare_for_panels(result) -> None:
+    """Run on the analysis worker thread with each new result: the slow, widget-free part of what
+    the panels show (the Routh cell texts, the verdict at the nominal value), so that showing a
+    result on the GUI thread only writes texts."""
+    if result.report is None:
+        return
+    ready_cells(result)
+    result.verdict_at(result.tuning_range.nominal if result.tuning_range is not None else None)
 
 
 class FollowWhenShown(QObject):

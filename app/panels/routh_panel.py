@@ -84,6 +84,36 @@ def cell_texts(text: str, uses_eps: bool) -> tuple[str, str]:
     return shown, tip
 
 
+CELLS_KEY = "routh_cells"
+
+
+def routh_cells(arr: RouthArray) -> list[list[tuple[str, str]]]:
+    """:func:`cell_texts` of every entry of ``arr``, row by row."""
+    return [[cell_texts(text, arr.uses_eps) for text in row] for row in arr.rows_text()]
+
+
+VALUES_KEY = "routh_values"
+
+
+def exact_values(arr: RouthArray, value: float | None) -> list[list[EntryValue]]:
+    """Every entry of ``arr`` at the tuning value ``value``, exactly (:func:`evaluate_entry`)."""
+    exact = to_fmpq(value) if value is not None else None
+    return [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
+
+
+def ready_cells(result) -> None:
+    """Make the array's cell texts, and its values at the nominal value, on the worker thread
+    (exact and text work, no widget touched): writing them into the table is then all the GUI
+    thread does when the result arrives."""
+    if result.report is None:
+        return
+    arr = result.report.routh
+    result.display[CELLS_KEY] = routh_cells(arr)
+    if arr.parameter is not None and result.tuning_range is not None:
+        nominal = result.tuning_range.nominal
+        result.display[VALUES_KEY] = (nominal, exact_values(arr, nominal))
+
+
 def _cut(text: str, limit: int) -> str:
     if len(text) <= limit:
         return text
@@ -365,10 +395,9 @@ class RouthPanel(QWidget):
                 self._group_header(self._value_column(1), width - 1, "")
         tint, special = QBrush(colour("tint")), QBrush(colour("special"))
         special_rows = {s.row for s in arr.special}
-        display = arr.rows_text()
-        for i, row in enumerate(display):
+        for i, row in enumerate(self._cells()):
             for j in range(width):
-                text, tip = cell_texts(row[j], arr.uses_eps) if j < len(row) else ("", "")
+                text, tip = row[j] if j < len(row) else ("", "")
                 item = QTableWidgetItem(text)
                 item.setTextAlignment(Qt.AlignmentFlag.AlignCenter)
                 item.setToolTip(tip)
@@ -379,6 +408,11 @@ class RouthPanel(QWidget):
                 table.setItem(i + 1, self._entry_column(j), item)
         self._fill_values_and_size()
 
+    def _cells(self) -> list[list[tuple[str, str]]]:
+        """(shown, tooltip) of every entry: ready-made on the worker thread (:func:`ready_cells`)."""
+        cells = self._result.display.get(CELLS_KEY)
+        return cells if cells is not None else routh_cells(self._array)
+
     def _refresh(self, arr: RouthArray) -> None:
         """Change the entry texts of a table made for an array of the same shape."""
         if _same_entries(self._shown_rows, arr.rows):
@@ -386,9 +420,9 @@ class RouthPanel(QWidget):
             return
         self._shown_rows = arr.rows
         changed = False
-        for i, row in enumerate(arr.rows_text()):
+        for i, row in enumerate(self._cells()):
             for j in range(self._width()):
-                text, tip = cell_texts(row[j], arr.uses_eps) if j < len(row) else ("", "")
+                text, tip = row[j] if j < len(row) else ("", "")
                 item = self.table.item(i + 1, self._entry_column(j))
                 changed |= item.text() != text
                 _set_text(item, text, tip)
@@ -519,9 +553,10 @@ class RouthPanel(QWidget):
         return self._floats[1]
 
     def _exact_values(self, value: float | None) -> list[list[EntryValue]]:
-        arr = self._array
-        exact = to_fmpq(value) if value is not None else None
-        return [[evaluate_entry(e, arr, exact) for e in row] for row in arr.rows]
+        ready = self._result.display.get(VALUES_KEY)
+        if ready is not None and ready[0] == value:
+            return ready[1]
+        return exact_values(self._array, value)
 
     def _live_values(self, value: float) -> list[list[EntryValue]]:
         """Entries from the float tables; the few they cannot vouch for evaluated exactly."""

@@ -21,6 +21,7 @@ from functools import cached_property
 from itertools import pairwise
 
 import numpy as np
+from flint import arb, arb_poly
 
 from core.algebra.polynomial import ParametricPolynomial, to_fmpq
 from core.analysis.poles import path_sensitivity, pole_paths
@@ -33,7 +34,6 @@ from core.io.project_file import project_from_dict
 from core.model.diagram import Diagram
 
 PATH_SAMPLES = 400  # tuning values at which the pole paths are drawn
-UNIT_ROUNDOFF = 2.0 ** -53
 
 
 @dataclass(frozen=True)
@@ -50,10 +50,11 @@ class VerdictAt:
 
 
 class FirstColumnSigns:
-    """Certified float signs of a plain Routh array's first column (entries num/den in the tuning
-    parameter) at a value: Horner's rule with the bound (2n + 2) u sum |a_i| |v|^i, doubled (Higham,
-    *Accuracy and Stability of Numerical Algorithms*, ch. 5, from memory). A sign is returned only when
-    the value clears its bound; :meth:`at` gives None when any entry is too close to zero to say.
+    """Certified signs of a plain Routh array's first column (entries num/den in the tuning
+    parameter) at a value: each polynomial evaluated in ball arithmetic (python-flint arb; the
+    float value is exact as a ball, coefficients are rounded with their error in the radius), so
+    a sign is returned only when its ball excludes zero, at any magnitude. :meth:`at` gives None
+    when any entry is too close to zero to say (then the exact test decides).
 
     >>> from flint import fmpq_poly
     >>> from core.analysis.routh import RationalFunction
@@ -62,18 +63,12 @@ class FirstColumnSigns:
     """
 
     def __init__(self, entries):
-        polys = [e.num for e in entries] + [e.den for e in entries]
         self.count = len(entries)
-        width = max(max((q.degree() for q in polys), default=0), 0) + 1
-        self.table = np.zeros((len(polys), width))
-        for row, q in enumerate(polys):
-            for i in range(q.degree() + 1):
-                self.table[row, width - 1 - i] = _float(q[i])
-        self.slack = 2.0 * (2 * width + 2) * UNIT_ROUNDOFF
+        self.polys = [arb_poly(e.num) for e in entries] + [arb_poly(e.den) for e in entries]
 
     @staticmethod
     def of(routh: RouthArray) -> FirstColumnSigns | None:
-        """The tables when the array is the plain symbolic one (no special rows, no epsilon), so its
+        """The balls when the array is the plain symbolic one (no special rows, no epsilon), so its
         first-column signs at a value count the right-half-plane roots there; else None."""
         plain = routh.parameter is not None and not routh.uses_eps and not routh.special
         column = routh.first_column if plain else []
@@ -82,21 +77,23 @@ class FirstColumnSigns:
         return FirstColumnSigns(column)
 
     def at(self, value: float) -> list[int] | None:
-        powers = float(value) ** np.arange(self.table.shape[1] - 1, -1, -1, dtype=float)
-        if not np.all(np.isfinite(powers)):
+        if not math.isfinite(value):
             return None
-        with np.errstate(all="ignore"):  # an entry beyond the float range gives inf or nan: no sign
-            values = self.table @ powers
-            bounds = self.slack * (np.abs(self.table) @ np.abs(powers))
-        if not np.all(np.abs(values) > bounds) or not np.all(np.isfinite(values)):
-            return None
-        signs = np.sign(values)
-        return [int(a) for a in signs[: self.count] * signs[self.count:]]
+        v = arb(float(value))
+        signs = []
+        for poly in self.polys:
+            y = poly(v)
+            if y > 0:
+                signs.append(1)
+            elif y < 0:
+                signs.append(-1)
+            else:
+                return None
+        return [a * b for a, b in zip(signs[: self.count], signs[self.count:])]
 
 
 def _float(q) -> float:
-    """A rational as a float; infinite beyond the float range (then :meth:`FirstColumnSigns.at`
-    says nothing and the exact test decides)."""
+    """A rational as a float; infinite beyond the float range (drawn poles then stop there)."""
     try:
         return float(q)
     except OverflowError:
@@ -139,6 +136,8 @@ class AnalysisResult:
     time_domain: TimeDomain | None = None  # step transfer functions, requirements, joint range
     steps: dict[str, StepResponse] = field(default_factory=dict)
     step_errors: dict[str, LoopwrightError] = field(default_factory=dict)
+    display: dict[str, object] = field(default_factory=dict)  # texts a caller readies on its worker thread
+    _verdicts: dict[float | None, VerdictAt | None] = field(default_factory=dict, repr=False)
 
     @property
     def ok(self) -> bool:
@@ -172,7 +171,16 @@ class AnalysisResult:
 
     def verdict_at(self, value: float | None) -> VerdictAt | None:
         """Stability (and the decay requirement) at a value of the tuning parameter; at the nominal
-        values without a tuning parameter; None without a Report or a nominal verdict."""
+        values without a tuning parameter; None without a Report or a nominal verdict. Remembered
+        per value, so a caller can decide the nominal one on its worker thread."""
+        key = None if value is None else float(value)
+        if key not in self._verdicts:
+            if len(self._verdicts) > 4096:  # a long slider drag
+                self._verdicts.clear()
+            self._verdicts[key] = self._verdict_at(value)
+        return self._verdicts[key]
+
+    def _verdict_at(self, value: float | None) -> VerdictAt | None:
         report = self.report
         if report is None:
             return None
