@@ -345,16 +345,16 @@ def poles_html(inputs: ReportInputs) -> str:
 
 
 def _reference_step(inputs: ReportInputs):
-    """The unit-step response from the reference input at the nominal value, or None."""
-    from core.analysis.time_response import step_response
+    """The unit-step response from the reference input at the nominal value (the one the analysis
+    already simulated), or None."""
     from core.errors import LoopwrightError
-    td = getattr(inputs.result, "time_domain", None)
-    reference = td.transfers.get(td.reference) if td is not None and td.reference else None
-    if reference is None:
+    result = inputs.result
+    td = getattr(result, "time_domain", None)
+    if td is None or not td.reference or td.reference not in td.transfers:
         return None
     try:
-        return step_response(reference, inputs.nominal_value if inputs.result.report.parameter else None)
-    except LoopwrightError:
+        return result.step_at(td.reference, inputs.nominal_value if result.report.parameter else None)
+    except (LoopwrightError, KeyError):
         return None
 
 
