@@ -27,7 +27,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.document.commands import SetAnalysisCommand, SetParameterCommand, SetSweepCommand, push
+from app.document.commands import SetAnalysisCommand, SetParameterCommand, SetTuningParameterCommand, push
 from app.theme import figure_font
 from core.algebra.expression import expression_parameters
 from core.algebra.numbers import read_value
@@ -287,7 +287,7 @@ class ParametersPanel(QWidget):
             return
         name = self.table.item(row, 0).data(Qt.ItemDataRole.UserRole)
         if name != self.diagram.tuning_parameter:
-            self._push(SetSweepCommand(self.diagram, name))
+            self._push(SetTuningParameterCommand(self.diagram, name))
 
     def _commit_decay(self) -> None:
         if self._filling or self.diagram is None:

@@ -21,6 +21,7 @@ from __future__ import annotations
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
 from core.model.diagram import Diagram, Node, Parameter
+from core.model.requirements import Requirements
 
 NUDGE_MERGE_ID = 7301  # consecutive keyboard nudges of the same nodes merge into one step
 
@@ -244,7 +245,7 @@ class RemoveParameterCommand(ModelCommand):
             d.set_tuning_parameter(self.tuning_parameter)
 
 
-class SetSweepCommand(ModelCommand):
+class SetTuningParameterCommand(ModelCommand):
     """Choose the tuning parameter (None for none)."""
 
     def __init__(self, diagram: Diagram, name: str | None):
@@ -287,3 +288,18 @@ class RenameCommand(ModelCommand):
 
     def revert(self) -> None:
         self.diagram.rename(self.old)
+
+
+class SetRequirementsCommand(ModelCommand):
+    """Replace the diagram's requirements (one undo step)."""
+
+    def __init__(self, diagram: Diagram, requirements: Requirements):
+        super().__init__("requirements")
+        self.diagram, self.requirements = diagram, requirements
+        self.old: Requirements | None = None
+
+    def apply(self) -> None:
+        self.old = self.diagram.set_requirements(self.requirements)
+
+    def revert(self) -> None:
+        self.diagram.set_requirements(self.old)

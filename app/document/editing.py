@@ -37,7 +37,7 @@ from app.document.commands import (
     ModelCommand,
     RemoveParameterCommand,
     SetParameterCommand,
-    SetSweepCommand,
+    SetTuningParameterCommand,
 )
 from core.algebra.expression import read_block, typed_names
 from core.model.diagram import Diagram, Parameter
@@ -83,5 +83,5 @@ def block_text_command(diagram: Diagram, node_id: str, num: str, den: str,
         commands.append(SetParameterCommand(diagram, values))
     tuning = diagram.tuning_parameter
     if added and (tuning is None or tuning in dropped):
-        commands.append(SetSweepCommand(diagram, added[0]))
+        commands.append(SetTuningParameterCommand(diagram, added[0]))
     return commands[0] if len(commands) == 1 else Macro(f"edit {node.title}", commands)

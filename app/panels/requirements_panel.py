@@ -14,7 +14,7 @@ import math
 from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import QComboBox, QGridLayout, QLabel, QLineEdit, QVBoxLayout, QWidget
 
-from app.document.commands import ModelCommand, SetAnalysisCommand, push
+from app.document.commands import SetAnalysisCommand, SetRequirementsCommand, push
 from app.panels.common import MINUS, MessageLabel, Readout, colour, number, number_css
 from app.theme import figure_font, label_font
 from core.analysis.requirements import Verdict, evaluate, intervals_text
@@ -29,21 +29,6 @@ EXACT_PARTS = ("stable", "decay", "gain margin")
 GAIN_MARGIN_TIP = ("Gain margin: the factor by which the tuning parameter may rise before the loop "
                    "loses stability (the stable range's rise factor). When the tuning parameter is "
                    "not a gain, this is a parameter margin in the same sense.")
-
-
-class SetRequirementsCommand(ModelCommand):
-    """Replace the diagram's requirements (one undo step)."""
-
-    def __init__(self, diagram: Diagram, requirements: Requirements):
-        super().__init__("requirements")
-        self.diagram, self.requirements = diagram, requirements
-        self.old: Requirements | None = None
-
-    def apply(self) -> None:
-        self.old = self.diagram.set_requirements(self.requirements)
-
-    def revert(self) -> None:
-        self.diagram.set_requirements(self.old)
 
 
 def read_optional(text: str) -> float | None:

@@ -20,7 +20,7 @@ from app.document.commands import (
     SetAnalysisCommand,
     SetBendsCommand,
     SetParameterCommand,
-    SetSweepCommand,
+    SetTuningParameterCommand,
     push,
 )
 from core.errors import LoopwrightError
@@ -50,7 +50,7 @@ def commands_for(d: Diagram):
         SetParameterCommand(d, Parameter("K", 3.0, 1.0, 9.0)),
         SetParameterCommand(d, Parameter("a", 1.0, 0.0, 2.0)),
         RemoveParameterCommand(d, "K"),
-        SetSweepCommand(d, "T"),
+        SetTuningParameterCommand(d, "T"),
         SetAnalysisCommand(d, output="b", decay_mode="settling", decay_value=4.0),
         RenameCommand(d, "renamed"),
     ]
