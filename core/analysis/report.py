@@ -19,7 +19,7 @@ from flint import arb, ctx, fmpq, fmpq_mpoly, fmpq_poly
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, primitive_scale, to_fmpq
 from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
-from core.analysis.routh import RouthArray, is_hurwitz, routh_array, routh_counts
+from core.analysis.routh import DISPLAY_BITS, RouthArray, is_hurwitz, routh_array, routh_counts
 from core.analysis.stable_range import (
     Margins,
     StableRange,
@@ -254,8 +254,10 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
         at = f" at {values_text(fixed)}" if fixed and not poly_mpoly.is_zero() else ""
         raise AnalysisError("E403", f"the characteristic polynomial is identically zero{at}", where="polynomial")
     warnings: list[str] = []
-    routh = routh_array(analysed)
     rng = stable_range(analysed) if parameter else None
+    routh = routh_array(analysed, limit_bits=DISPLAY_BITS)
+    if routh.omitted:
+        warnings.append(f"Routh array not shown: {routh.omitted}")
     nominal_value = values.get(parameter) if parameter else None
     nominal = None
     if parameter is None or nominal_value is not None:
