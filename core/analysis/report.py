@@ -19,7 +19,7 @@ from flint import arb, ctx, fmpq, fmpq_mpoly, fmpq_poly
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, primitive_scale, to_fmpq
 from core.analysis.poles import Pole, certified_roots, dominant_pole, expand_multiplicity
-from core.analysis.routh import RouthArray, is_hurwitz, routh_array, routh_counts
+from core.analysis.routh import DISPLAY_BITS, RouthArray, is_hurwitz, routh_array, routh_counts
 from core.analysis.stable_range import (
     Margins,
     StableRange,
@@ -58,11 +58,14 @@ class Nominal:
     poles: list[Pole]
     sign_changes: list[int]
     notes: list[str]
+    exact_values: dict[str, str] = field(default_factory=dict)  # the values analysed, as exact text
 
     def to_dict(self) -> dict:
-        """JSON-ready fields (``poles`` as [re, im] pairs, one per root)."""
-        return {"values": self.values, "stable": self.stable, "rhp": self.rhp, "jw": self.jw,
-                "lhp": self.lhp, "poles": [[p.re, p.im] for p in expand_multiplicity(self.poles)],
+        """JSON-ready fields (``poles`` as [re, im] pairs, one per root; ``values`` rounded to
+        floats for reading, ``exact_values`` the exact rationals analysed)."""
+        return {"values": self.values, "exact_values": self.exact_values, "stable": self.stable,
+                "rhp": self.rhp, "jw": self.jw, "lhp": self.lhp,
+                "poles": [[p.re, p.im] for p in expand_multiplicity(self.poles)],
                 "sign_changes": self.sign_changes, "notes": self.notes}
 
 
@@ -251,8 +254,10 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
         at = f" at {values_text(fixed)}" if fixed and not poly_mpoly.is_zero() else ""
         raise AnalysisError("E403", f"the characteristic polynomial is identically zero{at}", where="polynomial")
     warnings: list[str] = []
-    routh = routh_array(analysed)
     rng = stable_range(analysed) if parameter else None
+    routh = routh_array(analysed, limit_bits=DISPLAY_BITS)
+    if routh.omitted:
+        warnings.append(f"Routh array not shown: {routh.omitted}")
     nominal_value = values.get(parameter) if parameter else None
     nominal = None
     if parameter is None or nominal_value is not None:
@@ -292,7 +297,7 @@ def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warn
     stable = counts.rhp == 0 and counts.jw == 0 and len(coeffs) - 1 == poly.degree and len(coeffs) > 0
     return Nominal(values={k: float(v) for k, v in values.items()}, stable=stable, rhp=counts.rhp,
                    jw=counts.jw, lhp=counts.lhp, poles=poles, sign_changes=list(counts.sign_changes),
-                   notes=notes)
+                   notes=notes, exact_values={k: str(v) for k, v in values.items()})
 
 
 def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq],
@@ -304,7 +309,7 @@ def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, 
             "there, so the loop equations do not determine the signals (not stable)")
     warnings.append(note)
     return Nominal(values={k: float(v) for k, v in values.items()}, stable=False, rhp=0, jw=0, lhp=0,
-                   poles=[], sign_changes=[], notes=[note])
+                   poles=[], sign_changes=[], notes=[note], exact_values={k: str(v) for k, v in values.items()})
 
 
 def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, object] | None = None,
@@ -324,8 +329,14 @@ def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, o
     return report
 
 
-def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None) -> Report:
+def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None,
+                  values: Mapping[str, object] | None = None) -> Report:
     """Analyse a project (a Diagram or a path to a project file).
+
+    ``values`` (optional) overrides parameters' nominal values exactly: ints, Fractions, fmpq or
+    decimal/fraction text such as ``"1/3"`` or ``"0.33333333333333333334"`` (never through a float).
+    Raises E405 for a name that is not a parameter of the project, E404 for a value that is not a
+    finite number.
 
     Raises E111 for a block text with s run into an undeclared name, E406 when no wire path leads
     from the input to the output, E408 when a block's denominator vanishes identically at the
@@ -344,16 +355,18 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
     if not red.connected:
         raise AnalysisError("E406", f"no wire path leads from the input {settings.input} to the output "
                             f"{settings.output}: connect them to analyse the loop", where="analysis")
-    values = _exact_values({p.name: p.nominal for p in project.parameters.values()})
+    given = _override_values(project, values)
+    exact = _exact_values({p.name: p.nominal for p in project.parameters.values() if p.name not in given})
+    exact.update(given)
     parameter = project.tuning_parameter
     used = red.characteristic.context().names()[1:]
     if parameter is not None and parameter not in used:
         raise AnalysisError("E405", f"the tuning parameter '{parameter}' appears in no block",
                             where=f"parameter {parameter}")
     kept = [n for n in project.nodes if n not in set(red.left_out)]
-    _check_block_denominators(project, values, kept)
+    _check_block_denominators(project, exact, kept)
     report = analyse_polynomial(red.characteristic, parameter,
-                                {k: v for k, v in values.items() if k in used},
+                                {k: v for k, v in exact.items() if k in used},
                                 decay or (settings.decay_mode, settings.decay_value))
     report.source = source or project.name
     report.reduction = red
@@ -366,7 +379,7 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
             "num": mpoly_text(num * scale), "den": mpoly_text(den * scale),
             "num_full": mpoly_text(red.closed_num * full_scale), "den_full": mpoly_text(red.closed_den * full_scale)}
         report.closed_num = num * scale
-        all_values = {k: v for k, v in values.items() if k in used}
+        all_values = {k: v for k, v in exact.items() if k in used}
         if not red.closed_num.is_zero():
             if parameter is None or parameter in all_values:
                 report.hidden_modes, report.zeros = _nominal_cancellation(project, red, all_values, kept)
@@ -378,6 +391,14 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
             report.warnings.append(f"hidden mode at s = {_complex_text(mode.pole)}{where}: {state}; it cancels "
                                    "out of the input-output transfer function but is still in the loop")
     return report
+
+
+def _override_values(project: Diagram, values: Mapping[str, object] | None) -> dict[str, fmpq]:
+    """Exact values given for some of the project's parameters (E405 for an unknown name)."""
+    unknown = sorted(set(values or ()) - set(project.parameters))
+    if unknown:
+        raise AnalysisError("E405", f"the project has no parameter '{unknown[0]}'", where=f"parameter {unknown[0]}")
+    return _exact_values(values)
 
 
 def _check_block_denominators(project: Diagram, values: Mapping[str, fmpq], kept: list[str]) -> None:

@@ -42,6 +42,44 @@ __all__ = [
 ]
 
 EPS_NAME = "eps"
+DISPLAY_BITS = 8_000_000  # a symbolic array for display holds at most this many bits (about 2.4 million digits)
+MPOLY_COST = 16  # a bit of an entry in Q(k, eps) costs about 16 of the fraction-free rows' (measured, bench/)
+
+
+class ArrayTooLarge(Exception):
+    """A Routh array's entries grew past the size allowed (the message says how far it got)."""
+
+
+def entry_bits(e) -> int:
+    """Size in bits of an array entry: an integer, a polynomial (in k, or in k and eps), or
+    a rational function of them."""
+    if isinstance(e, RationalFunction):
+        return entry_bits(e.num) + entry_bits(e.den)
+    if isinstance(e, (int, fmpz)):
+        return max(int(e).bit_length(), 1)
+    if isinstance(e, fmpz_poly):
+        return (e.degree() + 1) * max(e.height_bits(), 1)
+    if isinstance(e, fmpq_poly):
+        return (e.degree() + 1) * max(e.numer().height_bits(), 1) + int(e.denom()).bit_length()
+    if isinstance(e, fmpq):
+        return int(e.p).bit_length() + int(e.q).bit_length()
+    return sum(int(c.p).bit_length() + int(c.q).bit_length() for c in e.coeffs())  # fmpq_mpoly
+
+
+class _Budget:
+    """Counts the bits of the rows built so far; raises ArrayTooLarge past ``limit`` (None: no limit)."""
+
+    def __init__(self, limit: int | None, degree: int):
+        self.limit, self.degree, self.used = limit, degree, 0
+
+    def add(self, row: list, power: int) -> None:
+        if self.limit is None:
+            return
+        self.used += sum(entry_bits(e) for e in row)
+        if self.used > self.limit:
+            raise ArrayTooLarge(f"the symbolic Routh array of this degree-{self.degree} polynomial passes "
+                                f"{self.limit:,} bits of entries by row s^{power}: not built (the limit "
+                                "keeps the report fast; the verdict and the ranges do not use it)")
 
 
 class RationalFunction:
@@ -156,6 +194,7 @@ class RouthArray:
     special: list[SpecialCase] = field(default_factory=list)
     parameter: str | None = None
     uses_eps: bool = False
+    omitted: str | None = None  # why the array was not built (then rows and powers are empty)
 
     @property
     def first_column(self) -> list[RationalFunction]:
@@ -193,24 +232,33 @@ class RouthArray:
     def to_dict(self) -> dict:
         return {"rows": self.rows_text(), "powers": list(self.powers),
                 "first_column": self.first_column_text(),
-                "special": [s.to_dict() for s in self.special]}
+                "special": [s.to_dict() for s in self.special], "omitted": self.omitted}
 
 
 class _NeedsEps(Exception):
     """Raised by the first pass when a first element is identically zero."""
 
 
-def routh_array(poly: ParametricPolynomial, value=None) -> RouthArray:
+def routh_array(poly: ParametricPolynomial, value=None, limit_bits: int | None = None) -> RouthArray:
     """The Routh array of ``poly``, symbolic in its parameter.
 
     ``value`` (optional) is the parameter value at which a parametric auxiliary polynomial's
-    imaginary-axis roots are reported. Raises ValueError for the zero polynomial.
+    imaginary-axis roots are reported. With ``limit_bits``, an array whose entries grow past that
+    many bits is not built: the result has no rows and ``omitted`` says why. Raises ValueError for
+    the zero polynomial.
     """
     if poly.degree < 0:
         raise ValueError("the zero polynomial has no Routh array")
+    try:
+        return _routh_array(poly, value, limit_bits)
+    except ArrayTooLarge as exc:
+        return RouthArray([], [], [], poly.parameter, omitted=str(exc))
+
+
+def _routh_array(poly: ParametricPolynomial, value, limit_bits: int | None) -> RouthArray:
     constant = all(c.degree() <= 0 for c in poly.coeffs)
     ints, lcd = integer_coefficients(list(poly.coeffs))
-    ff = fraction_free_rows(ints)
+    ff = fraction_free_rows(ints, budget=_Budget(limit_bits, poly.degree))
     if ff is not None:  # no special case: entries of L*p are P[i][j] / P[i-1][0]; divide by L
         inv = fmpq(1) / lcd
         rows = [[RationalFunction(fmpq_poly(e) * inv) for e in r] for r in ff[:2]]
@@ -218,17 +266,20 @@ def routh_array(poly: ParametricPolynomial, value=None) -> RouthArray:
                  for i in range(2, len(ff))]
         return RouthArray(rows, list(range(poly.degree, -1, -1)), [], poly.parameter)
     try:
-        return _build(poly, constant, eps_mode=False, value=value)
+        return _build(poly, constant, eps_mode=False, value=value, budget=_Budget(limit_bits, poly.degree))
     except _NeedsEps:
-        return _build(poly, constant, eps_mode=True, value=value)
+        if limit_bits is not None and not constant:
+            limit_bits //= MPOLY_COST
+        return _build(poly, constant, eps_mode=True, value=value, budget=_Budget(limit_bits, poly.degree))
 
 
-def fraction_free_rows(coeffs: list, scale=None) -> list[list] | None:
+def fraction_free_rows(coeffs: list, budget: _Budget | None = None) -> list[list] | None:
     """Polynomial rows P_i with Routh entries r[i][j] = P[i][j] / P[i-1][0] (i >= 2; rows 0, 1 as
     given), so that P[i][0] is the Hurwitz determinant Delta_i; None when some P[i][0] is zero
     (a special case). Each new row is (P[i-1][0] P[i-2][j+1] - P[i-2][0] P[i-1][j+1]) divided
     exactly by P[i-3][0] (by 1 for rows 2 and 3): Sylvester's identity for the Hurwitz minors.
-    Works on any exact ring elements with exact ``//`` (fmpz_poly, fmpz, fmpq_poly).
+    Works on any exact ring elements with exact ``//`` (fmpz_poly, fmpz, fmpq_poly). A ``budget``
+    raises ArrayTooLarge once the rows grow past its limit.
 
     >>> [r[0] for r in fraction_free_rows([fmpz(c) for c in (1, 3, 2, 5)])]  # Delta_0..Delta_3 (a0 first)
     [1, 3, 1, 5]
@@ -239,6 +290,9 @@ def fraction_free_rows(coeffs: list, scale=None) -> list[list] | None:
     rows = [r + [zero] * ((n - i) // 2 + 1 - len(r)) for i, r in enumerate(rows)]
     if any(r[0] == 0 for r in rows):
         return None
+    for i, r in enumerate(rows):
+        if budget is not None:
+            budget.add(r, n - i)
     for i in range(2, n + 1):
         above, prev = rows[i - 2], rows[i - 1]
         a, b = prev[0], above[0]
@@ -249,6 +303,8 @@ def fraction_free_rows(coeffs: list, scale=None) -> list[list] | None:
             new = [e // d for e in new]
         if new[0] == 0:
             return None
+        if budget is not None:
+            budget.add(new, n - i)
         rows.append(new)
     return rows
 
@@ -261,7 +317,8 @@ def integer_coefficients(coeffs: list[fmpq_poly]) -> tuple[list[fmpz_poly], fmpz
     return [(c * lcd).numer() for c in coeffs], lcd
 
 
-def _build(poly: ParametricPolynomial, constant: bool, eps_mode: bool, value) -> RouthArray:
+def _build(poly: ParametricPolynomial, constant: bool, eps_mode: bool, value,
+           budget: _Budget | None = None) -> RouthArray:
     n = poly.degree
     if eps_mode and not constant:
         name = poly.parameter or "k"
@@ -292,6 +349,8 @@ def _build(poly: ParametricPolynomial, constant: bool, eps_mode: bool, value) ->
             prev = prev + [zero] * (width[i] + 1 - len(prev))
             rows.append([(a * above[j + 1] - b * prev[j + 1]) / a for j in range(width[i])])
         row = rows[i]
+        if budget is not None:
+            budget.add(row, powers[i])
         if all(e.is_zero() for e in row):
             m = powers[i - 1]
             prev = rows[i - 1]
@@ -541,5 +600,50 @@ def is_hurwitz(coeffs: list[fmpq], degree: int | None = None) -> bool:
         return False
     if n <= 2:
         return True
-    rows = fraction_free_rows(ints)
-    return rows is not None and all(r[0] > 0 for r in rows)
+    by_balls = _hurwitz_by_balls(ints)
+    return by_balls if by_balls is not None else _hurwitz_determinants_positive(ints)
+
+
+def _hurwitz_by_balls(ints: list[fmpz]) -> bool | None:
+    """The Hurwitz test in ball arithmetic (arb: each ball holds the exact entry), or None when
+    some first-column ball still holds 0 at the highest precision tried. Exact as a decision: all
+    first-column entries of the plain Routh array proven positive is Hurwitz's condition; one proven
+    negative after proven positive ones means some Delta_i < 0, so not Hurwitz. Rows are arb_poly
+    values, a few flint calls each; the precision starts at twice the coefficients' size and doubles
+    up to the size the exact integers would reach."""
+    from flint import arb, arb_poly, ctx
+
+    bits = max(int(c).bit_length() for c in ints)
+    prec, top = 2 * bits + 64, len(ints) * bits
+    while prec <= top:
+        with ctx.workprec(prec):
+            above, prev = arb_poly([arb(c) for c in ints[0::2]]), arb_poly([arb(c) for c in ints[1::2]])
+            for _ in range(2, len(ints)):
+                new = above.right_shift(1) - prev.right_shift(1) * (above[0] / prev[0])
+                if not new[0] > 0:
+                    if new[0] < 0:
+                        return False
+                    break
+                above, prev = prev, new
+            else:
+                return True
+        prec *= 2
+    return None
+
+
+def _hurwitz_determinants_positive(ints: list[fmpz]) -> bool:
+    """Whether every Delta_i is positive, for integer coefficients that are all positive: the
+    recurrence of :func:`fraction_free_rows` with each row held as one fmpz_poly (entry j the
+    coefficient of x^j), so a row costs a few flint operations; stops at the first Delta_i <= 0."""
+    n = len(ints) - 1
+    above, prev = fmpz_poly(ints[0::2]), fmpz_poly(ints[1::2])
+    firsts = [above[0], prev[0]]
+    for i in range(2, n + 1):
+        new = prev[0] * above.right_shift(1) - above[0] * prev.right_shift(1)
+        if i >= 4:
+            new = new // firsts[i - 3]
+        if new[0] <= 0:
+            return False
+        firsts.append(new[0])
+        above, prev = prev, new
+    return True

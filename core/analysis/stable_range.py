@@ -38,7 +38,6 @@ from flint import arb, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
 from core.algebra.polynomial import ParametricPolynomial, poly_text, to_fmpq
 from core.analysis.poles import certified_roots
 from core.analysis.routh import (
-    fraction_free_rows,
     imaginary_axis_roots,
     integer_coefficients,
     is_hurwitz,
@@ -205,24 +204,60 @@ def _less_rev(v: fmpq, b: Boundary) -> bool:
 def hurwitz_delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
     """±Delta_{n-1}(k) as Res_u(E, O) for p(s) = E(s^2) + s O(s^2), coefficients highest first.
 
+    By evaluation and interpolation: Res_u(E, O) is a polynomial in k of degree at most
+    deg_u(O) max deg_k(E) + deg_u(E) max deg_k(O) (the Sylvester matrix's rows), so its values at
+    that many consecutive integers plus one, each an integer resultant (flint, exact), fix it; the
+    points avoid the zeros of both leading coefficients in u, where the resultant of the values would
+    not be the value of the resultant.
+
     >>> hurwitz_delta([fmpq_poly([1]), fmpq_poly([3]), fmpq_poly([2]), fmpq_poly([0, 1])])  # 6 - K
     (-1)*x + 6
     """
     n = len(coeffs) - 1
     if n < 2:
         return fmpq_poly([1])
-    mctx = fmpq_mpoly_ctx.get(("u", "k"), "lex")
-    even: dict[tuple[int, ...], fmpq] = {}
-    odd: dict[tuple[int, ...], fmpq] = {}
-    for i, c in enumerate(coeffs):
-        power = n - i
-        target = even if power % 2 == 0 else odd
-        for j in range(c.degree() + 1):
-            if c[j] != 0:
-                target[(power // 2, j)] = c[j]
-    res = mctx.from_dict(even).resultant(mctx.from_dict(odd), "u")
-    terms = {exps[1]: c for exps, c in res.to_dict().items()}
-    return fmpq_poly([terms.get(j, 0) for j in range(max(terms, default=-1) + 1)])
+    ints, lcd = integer_coefficients(list(coeffs))
+    even = _trimmed([ints[n - 2 * i] for i in range(n // 2 + 1)])  # E(u), lowest power of u first
+    odd = _trimmed([ints[n - 1 - 2 * i] for i in range((n - 1) // 2 + 1)])
+    if not even or not odd:
+        return fmpq_poly([])
+    bound = (len(odd) - 1) * max(c.degree() for c in even) + (len(even) - 1) * max(c.degree() for c in odd)
+    start = _points_start(even[-1] * odd[-1], bound + 1)
+    values = [fmpz_poly([c(x) for c in even]).resultant(fmpz_poly([c(x) for c in odd]))
+              for x in range(start, start + bound + 1)]
+    return _interpolate_consecutive(values, start) / fmpq(lcd) ** (len(even) + len(odd) - 2)
+
+
+def _trimmed(coeffs: list[fmpz_poly]) -> list[fmpz_poly]:
+    """Coefficients (lowest power first) without identically zero ones at the top."""
+    while coeffs and coeffs[-1].is_zero():
+        coeffs = coeffs[:-1]
+    return coeffs
+
+
+def _points_start(lead: fmpz_poly, count: int) -> int:
+    """The least x >= 0 with ``lead`` nonzero at x, x + 1, ..., x + count - 1."""
+    start, x = 0, 0
+    while x < start + count:
+        if lead(x) == 0:
+            start = x + 1
+        x += 1
+    return start
+
+
+def _interpolate_consecutive(values: list, start: int) -> fmpq_poly:
+    """The polynomial of degree < len(values) taking ``values`` at start, start + 1, ...: Newton's
+    forward differences (integers), then sum_j Delta^j C(x - start, j) by Horner's rule."""
+    diffs = list(values)
+    heads = []
+    while diffs:
+        heads.append(diffs[0])
+        diffs = [b - a for a, b in pairwise(diffs)]
+    x = fmpq_poly([-start, 1])
+    out = fmpq_poly([heads[-1]])
+    for j in range(len(heads) - 2, -1, -1):  # C(t, j + 1) = C(t, j) (t - j) / (j + 1)
+        out = out * (x - j) / (j + 1) + heads[j]
+    return out
 
 
 def resultant_in_s(p: ParametricPolynomial, q: ParametricPolynomial) -> fmpq_poly:
@@ -247,15 +282,6 @@ def resultant_in_s(p: ParametricPolynomial, q: ParametricPolynomial) -> fmpq_pol
 def real_values(p: fmpq_poly) -> list[Boundary]:
     """The distinct real roots of a nonzero polynomial, exact (rational or isolated), increasing."""
     return _boundaries(_irreducible_factors(p))
-
-
-def _delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
-    """Delta_{n-1}: the fraction-free Routh first column when regular, else the resultant."""
-    n = len(coeffs) - 1
-    if n < 2:
-        return fmpq_poly([1])
-    rows = fraction_free_rows(integer_coefficients(coeffs)[0])
-    return fmpq_poly(rows[n - 1][0]) if rows is not None else hurwitz_delta(coeffs)
 
 
 def _irreducible_factors(p: fmpq_poly) -> list[fmpz_poly]:
@@ -352,7 +378,7 @@ def stable_range(poly: ParametricPolynomial, nominal=None) -> StableRange:
         content = content.gcd(c)
     reduced = [c // content for c in poly.coeffs] if content.degree() > 0 else list(poly.coeffs)
     sources = {"singular": content, "origin": reduced[-1], "infinity": reduced[0],
-               "crossing": _delta(reduced)}
+               "crossing": hurwitz_delta(reduced)}
     owner: dict[tuple[int, ...], set[str]] = {}
     factors = []
     for kind, p in sources.items():
