@@ -106,3 +106,13 @@ def test_dense_degree_40_with_a_missing_term_is_never_stable_without_its_epsilon
     assert r.routh.omitted is not None and r.routh.rows == []
     coeffs = [c for c in r.analysed.at(1)]
     assert is_hurwitz(coeffs) is False and coeffs[1] == 0
+
+
+@pytest.mark.parametrize("n", [7, 60])
+def test_power_plus_gain_crosses_at_tan_pi_over_n(n):
+    # at K = sec(pi/n)^n the roots -1 + sec(pi/n) e^(±j pi/n) are ±j tan(pi/n) (hand; mpmath)
+    r = check_polynomial(f"(s+1)^{n} + K", parameter="K").stable_range
+    low, high = r.endpoints
+    assert low.kind == "origin" and high.kind == "crossing"
+    mpmath.mp.dps = 50
+    assert high.omega == pytest.approx(float(mpmath.tan(mpmath.pi / n)), rel=1e-12)

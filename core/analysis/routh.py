@@ -556,7 +556,8 @@ def routh_counts(coeffs: list[fmpq]) -> RootCounts:
         rhp_rest = len(rest_array.sign_changes() or [])
     rhp = rhp_rest + off_axis_g // 2
     jw = zeros + jw_g
-    array = routh_array(ParametricPolynomial.from_coefficients(coeffs))
+    same = zeros == 0 and g.degree() == 0  # then rest is p (g is monic)
+    array = rest_array if same else routh_array(ParametricPolynomial.from_coefficients(coeffs))
     notes += [s.note for s in array.special]
     changes = array.sign_changes() or []
     if len(changes) != rhp:

@@ -434,19 +434,54 @@ CROSSING_BITS = 512  # an irrational crossing value is approached by a rational 
 def _crossing_omega(b: Boundary, poly: ParametricPolynomial, drops: bool) -> tuple[float | None, bool]:
     """(omega, on_axis): smallest omega > 0 with ±jω a root at the boundary value.
 
-    Exact at rational values. At an irrational value b, from the certified roots (exact square-free
-    factorisation, then isolation) of the rational polynomial at a rational r with |r - b| below
-    2^-512: a root of multiplicity m moves by about |r - b|^(1/m), far below double precision, so
-    repeated pairs keep their omega; ``on_axis`` when the nearest pair lies within 1e-6 relative
-    of the axis.
+    Exact at rational values. At an irrational value b, from certified roots at a rational r with
+    |r - b| below 2^-512: p(jω) = 0 means u = -ω^2 is a common root of the even and odd parts E(u),
+    O(u) of p(s) = E(s^2) + s O(s^2), so the negative real roots of the one of lower degree (half
+    the degree of p, much cheaper to isolate) are the candidates, and the pair is the one where the
+    other part is smallest against the size of its terms. A root of multiplicity m moves by about
+    |r - b|^(1/m), far below double precision, so repeated pairs keep their omega; ``on_axis`` when
+    that relative residual is below 1e-6 (a common root's is near 2^-512, any other's near 1).
     """
     if b.rational is not None:
         pairs = [w for w, _ in imaginary_axis_roots(poly.at(b.rational)) if w > 0]
         return (pairs[0], True) if pairs else (None, False)
     near = b.narrowed(fmpq(1, 2 ** CROSSING_BITS))
     coeffs = poly.at((near.lo + near.hi) / 2)
-    upper = [p for p in certified_roots(coeffs[1:] if drops else coeffs)
-             if p.im > 0]
+    if drops:
+        coeffs = coeffs[1:]
+    n = len(coeffs) - 1
+    parts = [[coeffs[n - 2 * i] for i in range(n // 2 + 1)],
+             [coeffs[n - 1 - 2 * i] for i in range((n - 1) // 2 + 1)] if n >= 1 else [fmpq(0)]]
+    parts = [fmpq_poly(part) for part in parts]  # lowest power of u first
+    if min(part.degree() for part in parts) < 1:
+        return _omega_from_all_roots(coeffs)
+    roots_of, other = sorted(parts, key=lambda part: part.degree())
+    best = None
+    for u in certified_roots([roots_of[i] for i in range(roots_of.degree(), -1, -1)]):
+        if u.im == 0 and u.re < 0:
+            residual = _relative_value(other, u.re)
+            if best is None or residual < best[0]:
+                best = (residual, math.sqrt(-u.re))
+    if best is None:
+        return None, False
+    return best[1], best[0] <= 1e-6
+
+
+def _relative_value(f: fmpq_poly, x: float) -> float:
+    """|f(x)| / sum |f_i x^i| (the size of f's terms), in floating point (f scaled first so that
+    its largest coefficient is 1: no overflow)."""
+    top = max(abs(f[i]) for i in range(f.degree() + 1))
+    value = size = 0.0
+    for i in range(f.degree(), -1, -1):
+        c = float(f[i] / top)
+        value = value * x + c
+        size = size * abs(x) + abs(c)
+    return abs(value) / size if size else math.inf
+
+
+def _omega_from_all_roots(coeffs: list[fmpq]) -> tuple[float | None, bool]:
+    """(omega, on_axis) from every certified root (low degrees): the pair nearest the axis."""
+    upper = [p for p in certified_roots(coeffs) if p.im > 0]
     if not upper:
         return None, False
     nearest = min(upper, key=lambda p: (abs(p.re), p.im))
