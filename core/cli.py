@@ -1,7 +1,9 @@
 """Command line: ``python -m core check`` (also installed as ``loopwright-check``).
 
-Exit status: 0 when analysed (whatever the verdict); 1 only with ``--fail-unstable`` when the
-nominal loop is unstable; 2 for bad input, with one line on stderr and no traceback.
+Exit status: 0 when analysed (whatever the verdict); 1 with ``--fail-unstable`` when the nominal
+loop is not stable (or, without a nominal value, stable for no value of the tuning parameter),
+and with ``--fail-requirements`` when a requirement is not met or cannot be judged; 2 for bad
+input, with one line on stderr and no traceback. docs/command-line.md has the details.
 
 >>> main(["check", "--poly", "s^2 + 3s + 2", "--json"])  # doctest: +ELLIPSIS
 {...
@@ -10,13 +12,20 @@ nominal loop is unstable; 2 for bad input, with one line on stderr and no traceb
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from collections.abc import Sequence
+from dataclasses import replace
+from fractions import Fraction
 
-from core.errors import LoopwrightError, UsageError
+from core.errors import ExpressionError, LoopwrightError, ModelError, UsageError
 
 PROGRAM = "loopwright-check"
+# the options that take a value; a value starting with '-' (``--poly -s^2-1``) is kept as the value
+VALUE_OPTIONS = ("--poly", "--param", "--at", "--decay", "--time-to-half", "--settling",
+                 "--min-damping", "--max-overshoot", "--min-gain-margin")
+FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--help")
+DECAY_OPTIONS = {"--decay": ("sigma", "a decay rate", "1/s"), "--time-to-half": ("half_time", "a time to half", "s"),
+                 "--settling": ("settling", "a settling time", "s")}
 
 
 class _Parser(argparse.ArgumentParser):
@@ -35,84 +44,230 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--poly", metavar="TEXT", help="a characteristic polynomial in s, e.g. 's^3+3s^2+2s+K'")
     check.add_argument("--param", metavar="NAME", help="the tuning parameter (with --poly)")
     check.add_argument("--at", metavar="NAME=VALUE", action="append", default=[],
-                       help="a parameter value (repeatable; with a project it overrides the nominal)")
+                       help="a parameter value, exact (2.5, 1/3, 1e-3; repeatable; with a project it "
+                            "overrides the nominal)")
     group = check.add_mutually_exclusive_group()
-    group.add_argument("--decay", type=float, metavar="SIGMA", help="minimum decay rate sigma in 1/s")
-    group.add_argument("--time-to-half", type=float, metavar="T", help="time to half amplitude in s")
-    group.add_argument("--settling", type=float, metavar="TS", help="2%% settling time in s (sigma ~ 4/Ts)")
+    group.add_argument("--decay", metavar="SIGMA", help="decay requirement: minimum decay rate sigma in 1/s")
+    group.add_argument("--time-to-half", metavar="T", help="decay requirement: time to half amplitude in s")
+    group.add_argument("--settling", metavar="TS", help="decay requirement: 2%% settling time in s (sigma ~ 4/Ts)")
+    check.add_argument("--min-damping", metavar="ZETA", help="requirement: minimum damping ratio of every pole, in (0, 1]")
+    check.add_argument("--max-overshoot", metavar="PERCENT", help="requirement: maximum step overshoot in %% (projects)")
+    check.add_argument("--min-gain-margin", metavar="FACTOR",
+                       help="requirement: minimum factor the tuning parameter may rise by (or e.g. 6dB)")
     check.add_argument("--json", action="store_true", help="print the report as JSON")
-    check.add_argument("--fail-unstable", action="store_true", help="exit 1 when the nominal loop is unstable")
+    check.add_argument("--fail-unstable", action="store_true", help="exit 1 when the nominal loop is not stable")
+    check.add_argument("--fail-requirements", action="store_true",
+                       help="exit 1 when a requirement is not met (or cannot be judged)")
     return parser
 
 
-def _parse_at(items: Sequence[str]) -> dict[str, str]:
+def keep_dash_values(argv: Sequence[str]) -> list[str]:
+    """``--poly -s^2-1`` as ``--poly=-s^2-1``: after an option that takes a value, the next word is
+    its value even when it starts with '-' (unless it is itself an option such as ``--json``).
+
+    >>> keep_dash_values(["check", "--poly", "-s^2-1", "--json"])
+    ['check', '--poly=-s^2-1', '--json']
+    """
+    out: list[str] = []
+    words = list(argv)
+    i = 0
+    while i < len(words):
+        word = words[i]
+        if word == "--":
+            return out + words[i:]
+        nxt = words[i + 1] if i + 1 < len(words) else None
+        if (_value_option(word) and nxt is not None and nxt.startswith("-") and not nxt.startswith("--")
+                and nxt not in ("-h",)):
+            out.append(f"{word}={nxt}")
+            i += 2
+            continue
+        out.append(word)
+        i += 1
+    return out
+
+
+def _value_option(word: str) -> bool:
+    """An option taking a value, written whole or as an unambiguous prefix (as argparse allows)."""
+    if not word.startswith("--") or "=" in word:
+        return False
+    matches = [o for o in (*VALUE_OPTIONS, *FLAG_OPTIONS) if o.startswith(word)]
+    return word in VALUE_OPTIONS or (len(matches) == 1 and matches[0] in VALUE_OPTIONS)
+
+
+# -- values read from the command line --------------------------------------------------------------
+def exact_value(text: str, where: str):
+    """A typed value as an exact rational (flint fmpq): a number as a parameter field accepts it
+    (:func:`core.algebra.numbers.read_value`: magnitude checked before any number is built) or a
+    ratio of two, ``p/q``. E105 out of range, E110 a zero denominator, E112 not a number.
+
+    >>> exact_value("1/3", "--at K"), exact_value("2.5e-3", "--at K"), exact_value("\u22120,5", "--at K")
+    (1/3, 1/400, -1/2)
+    """
+    from flint import fmpq
+
+    from core.algebra.numbers import read_value
+
+    parts = text.split("/")
+    if len(parts) > 2:
+        raise ExpressionError("E112", f"'{text[:30]}' is not a number (one '/' at most: 1/3)", where=where)
+    exact = []
+    for part in parts:
+        exact.append(Fraction(0) if read_value(part, where) == 0 else
+                     Fraction(part.strip().replace("\u2212", "-").replace(",", ".")))
+    value = exact[0] / exact[1] if len(exact) == 2 and exact[1] != 0 else exact[0]
+    if len(exact) == 2 and exact[1] == 0:
+        raise ExpressionError("E110", f"'{text[:30]}' divides by zero", where=where)
+    if value != 0 and not Fraction(1, 10 ** 300) <= abs(value) <= 10 ** 300:
+        raise ExpressionError("E105", f"'{text[:30]}' is out of range (magnitude 1e-300 to 1e300)", where=where)
+    return fmpq(value.numerator, value.denominator)
+
+
+def _parse_at(items: Sequence[str]) -> dict[str, object]:
     values = {}
     for item in items:
         name, sep, value = item.partition("=")
         if not sep or not name.strip() or not value.strip():
-            raise UsageError("E501", f"--at wants NAME=VALUE, got '{item}'", where="--at")
-        values[name.strip()] = value.strip()
+            raise UsageError("E501", f"--at wants NAME=VALUE, got '{item[:40]}'", where="--at")
+        values[name.strip()] = exact_value(value, where=f"--at {name.strip()[:40]}")
     return values
 
 
 def _decay(args) -> tuple[str, float] | None:
-    for mode, value in (("sigma", args.decay), ("half_time", args.time_to_half), ("settling", args.settling)):
-        if value is not None:
-            return mode, value
+    """The decay requirement given on the command line: (mode, value), checked; None if none."""
+    from core.algebra.numbers import read_value
+    from core.io.project_file import DECAY_VALUE_LIMITS
+
+    for option, (mode, what, unit) in DECAY_OPTIONS.items():
+        text = getattr(args, option[2:].replace("-", "_"))
+        if text is None:
+            continue
+        value = read_value(text, where=option)
+        low, high = DECAY_VALUE_LIMITS
+        if not low <= value <= high:
+            why = (f"0 sets no requirement (leave {option} out for none)" if value == 0 else
+                   f"'{text.strip()[:30]}' is negative" if value < 0 else f"'{text.strip()[:30]}' is out of range")
+            raise UsageError("E501", f"{why}: give {what} from {_sci(low)} to {_sci(high)} {unit}", where=option)
+        return mode, value
     return None
 
 
+def _sci(x: float) -> str:
+    """``1e12``, not ``1e+12``."""
+    return f"{x:g}".replace("e+", "e")
+
+
+def _requirements(args, base):
+    """The project's requirements (or none) with the ones given on the command line put in, each
+    checked (E501 naming the option)."""
+    from core.algebra.numbers import read_value
+
+    requirements = base
+    for option in ("--min-damping", "--max-overshoot", "--min-gain-margin"):
+        text = getattr(args, option[2:].replace("-", "_"))
+        if text is None:
+            continue
+        text = text.strip()
+        in_db = option == "--min-gain-margin" and text.lower().endswith("db")
+        changes: dict[str, object] = {option[2:].replace("-", "_"): read_value(text[:-2] if in_db else text, where=option)}
+        if option == "--min-gain-margin":
+            changes["gain_margin_unit"] = "db" if in_db else "factor"
+        try:
+            requirements = requirements.with_changes(**changes)
+        except ModelError as exc:
+            raise UsageError("E501", exc.message, where=option) from None
+    return requirements
+
+
+# -- running ----------------------------------------------------------------------------------------
 def run(args) -> int:
     """Analyse as the parsed arguments say; print the report; return the exit status."""
     from core.analysis.report import check_polynomial
-    from core.present.report_text import report_text
+    from core.model.requirements import Requirements
+    from core.present.verdicts import requirements_outcome, search_span
 
     at = _parse_at(args.at)
     decay = _decay(args)
     if (args.poly is None) == (args.project is None):
         raise UsageError("E501", "give either a project file or --poly TEXT", where="command line")
     if args.poly is not None:
+        requirements = _requirements(args, Requirements())
         mode, value = decay or ("sigma", 0.0)
         report = check_polynomial(args.poly, parameter=args.param, at=at, decay=value, decay_mode=mode)
+        outcome = requirements_outcome(report, requirements, span=search_span(report))
     else:
         if args.param:
             raise UsageError("E501", "--param goes with --poly; a project names its tuning parameter",
                              where="--param")
-        report = _check_project_with_values(args.project, at, decay)
-    if args.json:
-        print(json.dumps(report.to_dict(), indent=2))
-    else:
-        print(report_text(report))
-    if args.fail_unstable and report.nominal is not None and not report.nominal.stable:
-        return 1
-    return 0
+        project, report = _check_project_with_values(args.project, at, decay)
+        requirements = _requirements(args, project.requirements)
+        outcome = requirements_outcome(report, requirements, project, span=_span(project, report))
+    _emit(_output(report, outcome, args.json))
+    return 1 if (args.fail_unstable and not _stable_enough(report)) or (
+        args.fail_requirements and not _requirements_pass(outcome)) else 0
 
 
-def _check_project_with_values(path: str, at: dict[str, str], decay):
-    from core.algebra.polynomial import to_fmpq
+def _output(report, outcome, as_json: bool) -> str:
+    from core.present.report_json import json_text
+    from core.present.report_text import report_text
+    from core.present.verdicts import headline
+
+    if not as_json:
+        return report_text(report, outcome)
+    data = report.to_dict()
+    data["headline"] = headline(report, outcome)
+    data["requirements"] = outcome.to_dict() if outcome is not None else None
+    return json_text(data)
+
+
+def _emit(text: str) -> None:
+    """Print, escaping what the terminal's encoding cannot show rather than failing."""
+    try:
+        print(text)
+    except UnicodeEncodeError:
+        encoding = getattr(sys.stdout, "encoding", None) or "ascii"
+        print(text.encode(encoding, "backslashreplace").decode(encoding))
+
+
+def _stable_enough(report) -> bool:
+    """The nominal loop is stable; without a nominal value, some value of the tuning parameter is."""
+    if report.nominal is not None:
+        return report.nominal.stable
+    return report.stable_range is not None and bool(report.stable_range.intervals)
+
+
+def _requirements_pass(outcome) -> bool:
+    """Every requirement met at the nominal value; without one, some value meets them all."""
+    if outcome is None:
+        return True
+    if outcome.verdicts:
+        return outcome.all_met is True
+    return outcome.joint is not None and bool(outcome.joint.intervals)
+
+
+def _span(project, report) -> tuple[float, float] | None:
+    param = project.parameters.get(report.parameter) if report.parameter else None
+    return (param.minimum, param.maximum) if param is not None else None
+
+
+def _check_project_with_values(path: str, at: dict[str, object], decay):
     from core.analysis.report import check_project
     from core.errors import AnalysisError
     from core.io.project_file import load_project
 
     project = load_project(path)
-    for name, text in at.items():
+    for name, value in at.items():
         if name not in project.parameters:
-            raise AnalysisError("E405", f"the project has no parameter '{name}'", where=f"--at {name}")
-        try:
-            value = float(to_fmpq(text))
-        except (ValueError, ZeroDivisionError):
-            raise UsageError("E501", f"'{text}' is not a number", where=f"--at {name}") from None
-        param = project.parameters[name]
-        param.nominal = value
+            raise AnalysisError("E405", f"the project has no parameter '{name[:40]}'", where=f"--at {name[:40]}")
+        project.set_parameter(replace(project.parameters[name], nominal=float(value)))
     report = check_project(project, decay)
     report.source = path
-    return report
+    return project, report
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point; never lets a traceback reach the user."""
     try:
-        args = build_parser().parse_args(argv)
+        args = build_parser().parse_args(keep_dash_values(sys.argv[1:] if argv is None else argv))
         return run(args)
     except LoopwrightError as err:
         print(f"{PROGRAM}: {err}", file=sys.stderr)

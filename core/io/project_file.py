@@ -73,6 +73,8 @@ MAX_VIEW_DEPTH = 4
 MAX_TEXT = 100_000      # notes
 MAX_SHORT_TEXT = 1_000  # name, label
 MAX_COORDINATE = 1e9
+SMALLEST_VALUE = 1e-300  # a parameter or requirement value is 0 or at least this in magnitude
+DECAY_VALUE_LIMITS = (1e-12, 1e12)  # a decay requirement (sigma 1/s, T or Ts in s), when set
 DEFAULT_NAME = "untitled loop"
 SAVE_AS_HINT = "choose another folder with Save As"
 
@@ -318,14 +320,28 @@ class _Fields:
             raise ProjectFileError("E205", f"'{key}' is longer than {limit} characters", where=self.where)
         return v
 
-    def number(self, key, default=0.0, *, required=False, limit=1e300):
+    def number(self, key, default=0.0, *, required=False, limit=1e300, smallest=0.0):
+        """A finite number within +/-``limit``; non-zero ones at least ``smallest`` in magnitude."""
         v = self._get(key, default, required)
         if not _is_number(v) or abs(v) > limit:
             found = "a number out of that range" if _is_number(v) else _type_name(v)
             raise ProjectFileError("E205", f"'{key}' must be a finite number"
                                            f"{'' if limit >= 1e300 else f' within +/-{limit:g}'}, "
                                            f"not {found}", where=self.where)
+        if v != 0 and abs(v) < smallest:
+            raise ProjectFileError("E205", f"'{key}' is {v:.3g}: a value is 0 or at least {smallest:g} in "
+                                           "magnitude", where=self.where)
         return float(v)
+
+    def decay_value(self, key):
+        """The decay requirement: 0 (none) or within :data:`DECAY_VALUE_LIMITS`."""
+        v = self.number(key, 0.0)
+        low, high = DECAY_VALUE_LIMITS
+        if v != 0 and not low <= v <= high:
+            raise ProjectFileError("E205", f"'{key}' is {v:.3g}: the decay requirement is 0 (none) or from "
+                                           f"{low:g} to {high:g} (1/s for a decay rate, s for a time)".replace("e+", "e"),
+                                   where=self.where)
+        return v
 
     def integer(self, key, default=0):
         v = self._get(key, default, False)
@@ -411,8 +427,8 @@ def _parameter_spec(obj, source: str, index: int) -> ParameterSpec:
     if isinstance(obj, dict) and isinstance(obj.get("name"), str):
         place = f"{source}, parameter {obj['name'][:64]}"
     f = _Fields(obj, place, "a parameter", ("name", "nominal", "min", "max"))
-    return ParameterSpec(f.text("name", required=True, limit=64), f.number("nominal", 1.0),
-                         f.number("min", 0.0), f.number("max", 10.0))
+    return ParameterSpec(f.text("name", required=True, limit=64), f.number("nominal", 1.0, smallest=SMALLEST_VALUE),
+                         f.number("min", 0.0, smallest=SMALLEST_VALUE), f.number("max", 10.0, smallest=SMALLEST_VALUE))
 
 
 def _plain_view(value, depth: int = 0) -> bool:
@@ -437,7 +453,8 @@ def _requirements_spec(obj, source: str) -> Requirements:
     """The optional ``requirements`` object (each entry optional; null or absent = not set)."""
     place = f"{source}, requirements"
     fields = _Fields(obj, place, "'requirements'", REQUIREMENT_FIELDS)
-    values = {k: None if obj.get(k) is None else fields.number(k) for k in REQUIREMENT_FIELDS[:3]}
+    values = {k: None if obj.get(k) is None else fields.number(k, smallest=SMALLEST_VALUE)
+              for k in REQUIREMENT_FIELDS[:3]}
     requirements = Requirements(**values, gain_margin_unit=fields.text("gain_margin_unit", "factor", limit=16))
     try:
         requirements.check()
@@ -470,7 +487,7 @@ def parse_spec(data, source: str = "<memory>") -> ProjectSpec:
         nodes=nodes, wires=wires,
         analysis_input=analysis.text("input", None, nullable=True, limit=64),
         analysis_output=analysis.text("output", None, nullable=True, limit=64),
-        decay_mode=analysis.text("decay_mode", "sigma"), decay_value=analysis.number("decay_value", 0.0),
+        decay_mode=analysis.text("decay_mode", "sigma"), decay_value=analysis.decay_value("decay_value"),
         view=view if isinstance(view, dict) and _plain_view(view) else {},
         requirements=_requirements_spec(data.get("requirements", {}), source))
 

@@ -1,12 +1,35 @@
-"""Plain-text rendering of a Report for the terminal (aligned Routh table, range, margins).
+"""Plain-text rendering of a Report for the terminal (headline, aligned Routh table, range,
+margins, requirements).
+
+Entries longer than a screen line (:data:`SCREEN_LINE` characters: a polynomial, a Routh entry, an
+exact endpoint) are abbreviated to their beginning and end with their length; the JSON output keeps
+them whole.
 
 >>> from core.analysis.report import check_polynomial
->>> print(report_text(check_polynomial("s^2 + 3s + 2")).splitlines()[0])
+>>> print("\\n".join(report_text(check_polynomial("s^2 + 3s + 2")).splitlines()[:2]))
+Verdict: STABLE; no requirements set
 Characteristic polynomial: s^2 + 3*s + 2
+>>> abbreviate("1" * 100, 40)
+'1111111111111111 ... 1111111 (100 chars)'
 """
 from __future__ import annotations
 
+import math
+
 from core.analysis.report import CAUTION, Report
+from core.present.verdicts import RequirementsOutcome, headline
+
+SCREEN_LINE = 80
+
+
+def abbreviate(text: str, width: int = SCREEN_LINE) -> str:
+    """``text`` when it fits in ``width`` characters, else its start and end around `` ... ``."""
+    if len(text) <= width:
+        return text
+    tag = f" ({len(text)} chars)"
+    room = max(width - len(tag) - 5, 2)
+    head = (room * 2 + 2) // 3
+    return f"{text[:head]} ... {text[len(text) - (room - head):]}{tag}"
 
 
 def _fmt(x: float | None) -> str:
@@ -18,11 +41,14 @@ def _interval(iv) -> str:
     return f"({'-inf' if lo is None else f'{lo:.12g}'}, {'+inf' if hi is None else f'{hi:.12g}'})"
 
 
-def routh_table(report: Report) -> list[str]:
-    """The Routh array as aligned text rows, ``s^k |`` labels on the left."""
+def routh_table(report: Report, width: int | None = None) -> list[str]:
+    """The Routh array as aligned text rows, ``s^k |`` labels on the left; entries longer than
+    ``width`` abbreviated (None: kept whole)."""
     rd = report.routh.to_dict()
     rows, powers = rd["rows"], rd["powers"]
     ncols = max((len(row) for row in rows), default=0)
+    if width is not None:
+        rows = [[abbreviate(e, width) for e in row] for row in rows]
     widths = [max((len(row[j]) for row in rows if j < len(row)), default=1) for j in range(ncols)]
     label_w = max(len(f"s^{p}") for p in powers) if powers else 3
     lines = []
@@ -52,19 +78,47 @@ def margins_lines(name: str, m: dict | None) -> list[str]:
     return lines
 
 
-def report_text(report: Report) -> str:
-    """A readable report: polynomial, Routh array, nominal verdict, stable range, margins, decay."""
+def _amount(x: float | None, unit: str) -> str:
+    if x is None:
+        return "unknown"
+    if math.isinf(x):
+        return "without limit"
+    return f"{x:.4g}{'' if unit in ('', '×') else ' '}{unit}"
+
+
+def requirements_lines(outcome: RequirementsOutcome, parameter: str | None) -> list[str]:
+    """Each requirement with its value at the nominal value and its verdict; the range meeting all."""
+    at = "" if outcome.value is None else f" (at {parameter} = {outcome.value:g})"
+    out = [f"Requirements{at}:"]
+    for v in outcome.verdicts:
+        state = {True: "met", False: "NOT met", None: "not judged"}[v.passed]
+        how = f" ({'exact' if v.exact else 'floating point'})" if v.passed is not None else f": {v.note}"
+        out.append(f"  {v.label} {_amount(v.required, v.unit)}: {_amount(v.actual, v.unit)}, {state}{how}")
+    joint = outcome.joint
+    if joint is not None:
+        kind = "exact" if joint.exact else "numeric"
+        text = (f"{parameter} in {joint.text(short=True)}" if joint.intervals else f"no value of {parameter}")
+        out.append(f"  stable and meeting all: {text} ({kind})")
+    out += [f"  note: {n}" for n in outcome.notes]
+    return out
+
+
+def report_text(report: Report, outcome: RequirementsOutcome | None = None, width: int = SCREEN_LINE) -> str:
+    """A readable report: headline, polynomial, Routh array, nominal verdict, stable range, margins,
+    decay, requirements (``outcome``, from :func:`core.present.verdicts.requirements_outcome`)."""
     d = report.to_dict()
-    out = [f"Characteristic polynomial: {d['polynomial']}"]
+    out = [f"Verdict: {headline(report, outcome)}"]
+    out.append(f"Characteristic polynomial: {abbreviate(d['polynomial'], width)}")
     if d["analysed_polynomial"] != d["polynomial"]:
-        out.append(f"With other parameters at nominal: {d['analysed_polynomial']}")
+        out.append(f"With other parameters at nominal: {abbreviate(d['analysed_polynomial'], width)}")
     if d["transfer_function"]:
         transfer = d["transfer_function"]
-        out.append(f"Closed-loop transfer function: ({transfer['num']}) / ({transfer['den']})")
+        out.append(f"Closed-loop transfer function: ({abbreviate(transfer['num'], width)}) / "
+                   f"({abbreviate(transfer['den'], width)})")
     out.append(f"Tuning parameter: {d['parameter'] or 'none'}")
     out.append("")
     out.append("Routh array" + (f" (entries in {d['parameter']})" if d["parameter"] else "") + ":")
-    out += routh_table(report)
+    out += routh_table(report, width)
     nominal = d["nominal"]
     out.append("")
     if nominal:
@@ -96,7 +150,7 @@ def report_text(report: Report) -> str:
                    "crossing": f"a complex pair crosses the imaginary axis at +-j{_fmt(e['omega'])} rad/s",
                    "infinity": "the leading coefficient vanishes (a pole goes to infinity)",
                    "singular": "the polynomial vanishes identically"}.get(e["kind"], e["kind"])
-            out.append(f"  {d['parameter']} = {e['exact']} (~{e['value']:.12g}): {how}")
+            out.append(f"  {d['parameter']} = {abbreviate(e['exact'], width)} (~{e['value']:.12g}): {how}")
         out += margins_lines(d["parameter"], d["margins"])
     dec = d["decay"]
     if dec:
@@ -107,10 +161,13 @@ def report_text(report: Report) -> str:
             out.append(f"  met for {d['parameter']} in: {ivs}")
         if dec["nominal_ok"] is not None:
             out.append(f"  at nominal: {'met' if dec['nominal_ok'] else 'NOT met'}")
+    if outcome is not None:
+        out.append("")
+        out += requirements_lines(outcome, report.parameter)
     if d["hidden_mode_details"] or d["warnings"]:
         out.append("")
         for w in d["warnings"]:
-            out.append(f"Warning: {w}")
+            out.append(f"Warning: {abbreviate(w, 4 * width)}")
     out.append("")
     out.append(f"Caution: {CAUTION}")
     return "\n".join(out)
