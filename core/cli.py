@@ -14,7 +14,6 @@ from __future__ import annotations
 import argparse
 import sys
 from collections.abc import Sequence
-from dataclasses import replace
 from fractions import Fraction
 
 from core.errors import ExpressionError, LoopwrightError, ModelError, UsageError
@@ -255,11 +254,10 @@ def _check_project_with_values(path: str, at: dict[str, object], decay):
     from core.io.project_file import load_project
 
     project = load_project(path)
-    for name, value in at.items():
+    for name in at:
         if name not in project.parameters:
             raise AnalysisError("E405", f"the project has no parameter '{name[:40]}'", where=f"--at {name[:40]}")
-        project.set_parameter(replace(project.parameters[name], nominal=float(value)))
-    report = check_project(project, decay)
+    report = check_project(project, decay, values=at)  # exact: --at K=1/3 stays 1/3
     report.source = path
     return project, report
 

@@ -9,6 +9,7 @@ them. The loop's order must not drop (the stable range excludes such values by d
 from __future__ import annotations
 
 from fractions import Fraction
+from itertools import pairwise
 
 import sympy
 from flint import fmpq
@@ -79,7 +80,7 @@ def _points(rng) -> list[fmpq]:
             nb = b.narrowed(fmpq(1, 10 ** 50))
             pts += [nb.lo, nb.hi]
     ordered = sorted(set(pts))
-    pts += [(x + y) / 2 for x, y in zip(ordered, ordered[1:])]
+    pts += [(x + y) / 2 for x, y in pairwise(ordered)]
     return pts
 
 

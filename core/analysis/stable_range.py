@@ -450,9 +450,9 @@ def _crossing_omega(b: Boundary, poly: ParametricPolynomial, drops: bool) -> tup
     if drops:
         coeffs = coeffs[1:]
     n = len(coeffs) - 1
-    parts = [[coeffs[n - 2 * i] for i in range(n // 2 + 1)],
-             [coeffs[n - 1 - 2 * i] for i in range((n - 1) // 2 + 1)] if n >= 1 else [fmpq(0)]]
-    parts = [fmpq_poly(part) for part in parts]  # lowest power of u first
+    halves = [[coeffs[n - 2 * i] for i in range(n // 2 + 1)],
+              [coeffs[n - 1 - 2 * i] for i in range((n - 1) // 2 + 1)] if n >= 1 else [fmpq(0)]]
+    parts = [fmpq_poly(half) for half in halves]  # lowest power of u first
     if min(part.degree() for part in parts) < 1:
         return _omega_from_all_roots(coeffs)
     roots_of, other = sorted(parts, key=lambda part: part.degree())
