@@ -131,12 +131,17 @@ def hostile_projects(draw) -> str:
     return text
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(hostile_projects(), options(with_param=False))
-def test_hostile_project_files_never_reach_an_internal_error(tmp_path_factory, text, opts):
+def check_project_text(tmp_path_factory, text: str, opts: list[str]) -> None:
+    """Write ``text`` as a project file and check it from the command line with ``opts``."""
     path = tmp_path_factory.mktemp("hostile") / "p.loop.json"
     path.write_text(text, encoding="utf-8")
     assert_clean(["check", str(path), *opts])
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(hostile_projects(), options(with_param=False))
+def test_hostile_project_files_never_reach_an_internal_error(tmp_path_factory, text, opts):
+    check_project_text(tmp_path_factory, text, opts)
 
 
 # values the readers accept, at the edges of the accepted range: these reach the analysis
@@ -162,9 +167,7 @@ def test_typed_polynomials_never_reach_an_internal_error_long(poly, opts):
 @settings(max_examples=1000, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(hostile_projects(), options(with_param=False))
 def test_hostile_project_files_never_reach_an_internal_error_long(tmp_path_factory, text, opts):
-    path = tmp_path_factory.mktemp("hostile") / "p.loop.json"
-    path.write_text(text, encoding="utf-8")
-    assert_clean(["check", str(path), *opts])
+    check_project_text(tmp_path_factory, text, opts)
 
 
 @pytest.mark.parametrize("argv", [
