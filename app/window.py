@@ -386,30 +386,24 @@ class MainWindow(QMainWindow):
 
     @staticmethod
     def _verdict_text(result) -> str:
-        report = result.report
-        if report is None:
+        """The headline readied on the worker (stability AND requirements), or what stopped it."""
+        if result.report is None:
             return result.message or ""
-        nominal = report.nominal
-        at = f" at {report.parameter} = {result.tuning_range.nominal:g}" if result.tuning_range is not None else ""
-        if nominal is None:
-            return "Analysed"
-        if nominal.stable:
-            decay = report.decay
-            unmet = decay is not None and decay.nominal_ok is False
-            return f"Stable{at}" + ("; decay requirement not met" if unmet else "")
-        places = []
-        if nominal.rhp:
-            places.append(f"{nominal.rhp} pole{'s' if nominal.rhp > 1 else ''} in the right half plane")
-        if nominal.jw:
-            places.append(f"{nominal.jw} on the imaginary axis")
-        return f"Unstable{at}" + (f": {', '.join(places)}" if places else "")
+        return str(result.display.get("headline", ""))
 
     @staticmethod
     def _verdict_style(result) -> str:
+        """Stable and every requirement met (or none set): the stable colour; stable with a requirement
+        not met or not judged: the warning colour; not stable: the unstable colour."""
         report = result.report
         if report is None or report.nominal is None:
-            return f"color: {colour('warning').name()}; padding: 0 6px;"
-        meaning = "stable" if report.nominal.stable else "unstable"
+            meaning = "warning"
+        elif not report.nominal.stable:
+            meaning = "unstable"
+        else:
+            met = result.display.get("requirements_met")
+            required = not (result.requirements.is_empty and report.decay is None)
+            meaning = "stable" if met is True or not required else "warning"
         return f"color: {colour(meaning).name()}; font-weight: 600; padding: 0 6px;"
 
     def _on_settings_changed(self, what: str) -> None:

@@ -74,7 +74,7 @@ def test_isolated_marginal_value_splits_two_intervals():
     p = poly([1, (K - 1) ** 2 + 1, (K - 1) ** 2 + 1, 1])
     d = stable_range(p).to_dict()
     assert d["exact_intervals"] == [[None, "1"], ["1", None]]
-    assert d["endpoints"] == [{"value": 1.0, "exact": "1", "kind": "crossing", "omega": 1.0}]
+    assert d["endpoints"] == [{"value": 1.0, "exact": "1", "kind": "crossing", "omega": 1.0, "approx": "1"}]
     assert numpy_stable(p, 0.99) and numpy_stable(p, 1.01) and abs(numpy_max_real(p, 1.0)) < 1e-12
 
 

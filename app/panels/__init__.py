@@ -9,18 +9,36 @@ from app.panels.pole_map import PoleMap
 from app.panels.polynomial_panel import PolynomialPanel
 from app.panels.range_panel import RangePanel
 from app.panels.routh_panel import RouthPanel, ready_cells
+from core.errors import LoopwrightError
+from core.present.verdicts import headline, outcome_from_parts
 
 __all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach", "prepare_for_panels"]
 
 
 def prepare_for_panels(result) -> None:
     """Run on the analysis worker thread with each new result: the slow, widget-free part of what
-    the panels show (the Routh cell texts, the verdict at the nominal value), so that showing a
-    result on the GUI thread only writes texts."""
+    the panels show (the Routh cell texts, the verdict at the nominal value, the headline with the
+    requirements' verdicts), so that showing a result on the GUI thread only writes texts."""
     if result.report is None:
         return
     ready_cells(result)
     result.verdict_at(result.tuning_range.nominal if result.tuning_range is not None else None)
+    ready_headline(result)
+
+
+def ready_headline(result) -> None:
+    """``result.display["headline"]``: stability at the nominal values AND the requirements' verdict
+    (the command line's own words); ``result.display["requirements_met"]``: True, False or None."""
+    report, td = result.report, result.time_domain
+    step = None
+    if td is not None and result.requirements.max_overshoot is not None and td.reference in td.transfers:
+        try:
+            step = result.step_at(td.reference, result.tuning_range.nominal if result.tuning_range else None)
+        except LoopwrightError:
+            step = None
+    outcome = outcome_from_parts(report, result.requirements, step, td.joint if td is not None else None)
+    result.display["headline"] = headline(report, outcome)
+    result.display["requirements_met"] = None if outcome is None else outcome.all_met
 
 
 class FollowWhenShown(QObject):

@@ -279,7 +279,8 @@ class RouthPanel(QWidget):
     def show_result(self, result) -> None:
         """Show a new AnalysisResult (its error message when it has no Report)."""
         self._result = result
-        self.message.show_message(result.message)
+        omitted = result.report.routh.omitted if result.report is not None else None
+        self.message.show_message(result.message or (f"Routh array not shown: {omitted}" if omitted else None))
         if result.tuning_range is not None:
             self._value = result.tuning_range.nominal
         self._build()
@@ -326,7 +327,7 @@ class RouthPanel(QWidget):
     @property
     def _array(self) -> RouthArray | None:
         report = self._result.report if self._result is not None else None
-        return report.routh if report is not None else None
+        return report.routh if report is not None and not report.routh.omitted else None
 
     def _width(self) -> int:
         arr = self._array

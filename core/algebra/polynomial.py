@@ -32,6 +32,7 @@ S = "s"  # the Laplace variable's name, reserved in every expression
 __all__ = [
     "ParametricPolynomial",
     "S",
+    "binary_exponent",
     "fmpq",
     "fmpq_poly",
     "mpoly_context",
@@ -39,7 +40,9 @@ __all__ = [
     "mpoly_text",
     "poly_text",
     "primitive_scale",
+    "scaled_floats",
     "strip_leading_zeros",
+    "to_float",
     "to_fmpq",
 ]
 
@@ -66,6 +69,46 @@ def to_fmpq(value) -> fmpq:
     if hasattr(value, "p") and hasattr(value, "q"):  # sympy Rational / Integer
         return fmpq(int(value.p), int(value.q))
     raise TypeError(f"cannot make an exact rational from {value!r}")
+
+
+def to_float(q) -> float:
+    """A rational as the nearest float, saturating: infinite beyond the float range, 0 below it.
+
+    >>> to_float(fmpq(1, 3)), to_float(fmpq(10) ** 400), to_float(-fmpq(10) ** 400)
+    (0.3333333333333333, inf, -inf)
+    """
+    try:
+        return float(q)
+    except OverflowError:
+        return math.inf if q > 0 else -math.inf
+
+
+def binary_exponent(q: fmpq) -> int:
+    """About log2 |q| (within one) for a non-zero rational, without building a float."""
+    return int(q.p).bit_length() - int(q.q).bit_length()
+
+
+def scaled_floats(coeffs: Sequence[fmpq]) -> list[float]:
+    """Floats of exact coefficients all times one power of two that brings the largest near 1.
+
+    The roots do not change, and coefficients far beyond the float range (1e-600) still give
+    them; only terms more than about 1e308 below the largest become 0.
+
+    >>> small, large = scaled_floats([fmpq(10) ** -600, 3 * fmpq(10) ** -600])
+    >>> 0.25 <= large < 4, large / small
+    (True, 3.0)
+    """
+    nonzero = [binary_exponent(c) for c in coeffs if c != 0]
+    if not nonzero:
+        return [0.0 for _ in coeffs]
+    scale = fmpq(2) ** (-max(nonzero) - 1)
+    return [to_float(c * scale) for c in coeffs]
+
+
+def _exact_float(value) -> fmpq:
+    """The exact binary value of a float (no decimal rounding: the root finders' own input)."""
+    num, den = float(value).as_integer_ratio()
+    return fmpq(num, den)
 
 
 def mpoly_context(parameters: Iterable[str]) -> fmpq_mpoly_ctx:
@@ -231,15 +274,11 @@ class ParametricPolynomial:
         return strip_leading_zeros([c(v) for c in self.coeffs])
 
     def at_float(self, value: float | None = None) -> list[float]:
-        """Float coefficients at a value (for roots and plots only)."""
-        v = 0.0 if value is None else float(value)
-        out = []
-        for c in self.coeffs:
-            acc = 0.0
-            for i in range(c.degree(), -1, -1):
-                acc = acc * v + float(c[i])
-            out.append(acc)
-        return out
+        """Float coefficients at a value, for roots only: evaluated exactly, then all scaled by one
+        power of two (see :func:`scaled_floats`), so coefficients beyond the float range still
+        give the right roots."""
+        v = fmpq(0) if value is None else _exact_float(value)
+        return scaled_floats([c(v) for c in self.coeffs])
 
     def shifted(self, sigma) -> ParametricPolynomial:
         """The polynomial in z with s = z - sigma (roots move right by sigma).

@@ -23,7 +23,7 @@ from itertools import pairwise
 import numpy as np
 from flint import arb, arb_poly
 
-from core.algebra.polynomial import ParametricPolynomial, to_fmpq
+from core.algebra.polynomial import ParametricPolynomial, to_float, to_fmpq
 from core.analysis.poles import path_sensitivity, pole_paths
 from core.analysis.report import Report, check_project
 from core.analysis.requirements import TimeDomain, prepare
@@ -32,6 +32,7 @@ from core.analysis.time_response import StepResponse, step_response
 from core.errors import LoopwrightError
 from core.io.project_file import project_from_dict
 from core.model.diagram import Diagram
+from core.model.requirements import Requirements
 
 PATH_SAMPLES = 400  # tuning values at which the pole paths are drawn
 
@@ -92,14 +93,6 @@ class FirstColumnSigns:
         return [a * b for a, b in zip(signs[: self.count], signs[self.count:])]
 
 
-def _float(q) -> float:
-    """A rational as a float; infinite beyond the float range (drawn poles then stop there)."""
-    try:
-        return float(q)
-    except OverflowError:
-        return math.inf if q > 0 else -math.inf
-
-
 @dataclass(frozen=True)
 class TuningRange:
     """The tuning parameter as the diagram had it when analysed."""
@@ -134,6 +127,7 @@ class AnalysisResult:
     coefficient_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
     zero_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
     time_domain: TimeDomain | None = None  # step transfer functions, requirements, joint range
+    requirements: Requirements = field(default_factory=Requirements)  # the diagram's, as analysed
     steps: dict[str, StepResponse] = field(default_factory=dict)
     step_errors: dict[str, LoopwrightError] = field(default_factory=dict)
     display: dict[str, object] = field(default_factory=dict)  # texts a caller readies on its worker thread
@@ -246,7 +240,7 @@ def coefficient_table(poly: ParametricPolynomial) -> np.ndarray:
     table = np.zeros((len(coeffs), width))
     for row, c in enumerate(coeffs):
         for i in range(c.degree() + 1):
-            table[row, width - 1 - i] = _float(c[i])
+            table[row, width - 1 - i] = to_float(c[i])
     return table
 
 
@@ -267,6 +261,7 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
     result = AnalysisResult(generation)
     try:
         diagram = project_from_dict(project, source="<analysis copy>")
+        result.requirements = diagram.requirements
         report = check_project(diagram)
         result.report = report
         result.coefficient_table = coefficient_table(report.analysed)

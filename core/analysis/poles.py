@@ -16,9 +16,9 @@ from dataclasses import dataclass
 from typing import Any, cast
 
 import numpy as np
-from flint import fmpq_poly
+from flint import fmpq, fmpq_poly
 
-from core.algebra.polynomial import ParametricPolynomial, to_fmpq
+from core.algebra.polynomial import ParametricPolynomial, binary_exponent, to_float, to_fmpq
 
 
 @dataclass(frozen=True)
@@ -85,11 +85,12 @@ def pole_paths(poly: ParametricPolynomial, values: Sequence[float] | np.ndarray)
     n = poly.degree
     if n < 1 or vals.size == 0:
         return np.empty((vals.size, max(n, 0)), dtype=complex)
-    coeff = np.stack([_eval_poly_float(c, vals) for c in poly.coeffs], axis=1)  # (m, n+1)
+    scale = _common_scale(poly.coeffs)  # roots do not change; coefficients beyond floats still work
+    coeff = np.stack([_eval_poly_float(c * scale, vals) for c in poly.coeffs], axis=1)  # (m, n+1)
     lead = coeff[:, 0]
     # the order drops where the leading coefficient vanishes against the size of its own terms
     # (not against the other coefficients: a loop's coefficients may span twenty decades)
-    lead_poly = poly.coeffs[0]
+    lead_poly = poly.coeffs[0] * scale
     lead_size = _eval_poly_float(fmpq_poly([abs(lead_poly[i]) for i in range(lead_poly.degree() + 1)]),
                                  np.abs(vals))
     ok = np.abs(lead) > 1e-14 * lead_size
@@ -161,7 +162,13 @@ def _well_separated(z: np.ndarray, rel: float = 1e-6) -> np.ndarray:
 
 def _polish(monic: np.ndarray, z: np.ndarray, coupled: bool, iterations: int = 12, tol: float = 1e-12):
     """Newton (``coupled`` False) or Aberth-Ehrlich (True, keeps a row's roots apart) on every
-    row at once; returns (roots, converged per row)."""
+    row at once; returns (roots, converged per row). A row that overflows (far roots of a high
+    degree) is simply not converged: its caller takes eigenvalues there instead."""
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        return _polish_rows(monic, z, coupled, iterations, tol)
+
+
+def _polish_rows(monic: np.ndarray, z: np.ndarray, coupled: bool, iterations: int, tol: float):
     z = z.copy()
     n = z.shape[1]
     eye = np.eye(n, dtype=bool)
@@ -199,8 +206,14 @@ def _polish(monic: np.ndarray, z: np.ndarray, coupled: bool, iterations: int = 1
 def _eval_poly_float(c: fmpq_poly, vals: np.ndarray) -> np.ndarray:
     acc = np.zeros_like(vals)
     for i in range(c.degree(), -1, -1):
-        acc = acc * vals + float(c[i])
+        acc = acc * vals + to_float(c[i])
     return acc
+
+
+def _common_scale(coeffs: Sequence[fmpq_poly]) -> fmpq:
+    """The power of two that brings the largest coefficient of any of ``coeffs`` near 1."""
+    exponents = [binary_exponent(c[i]) for c in coeffs for i in range(c.degree() + 1) if c[i] != 0]
+    return fmpq(2) ** (-max(exponents, default=0))
 
 
 def _match_paths(roots: np.ndarray) -> np.ndarray:

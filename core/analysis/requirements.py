@@ -33,7 +33,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from core.algebra.polynomial import to_fmpq
+from core.algebra.polynomial import to_float, to_fmpq
 from core.errors import LoopwrightError
 from core.model.requirements import Requirements
 
@@ -286,7 +286,7 @@ def gain_margin_intervals(rng, gm: float, name: str) -> list[Interval]:
             continue
         if hi.rational is not None:
             end_q = hi.rational / gm_q
-            end = Bound(float(end_q), str(end_q))
+            end = Bound(to_float(end_q), str(end_q))
         else:
             end = Bound(hi.value / gm, f"({hi.text(name)}) / {gm_q}")
         if end.value > start.value:

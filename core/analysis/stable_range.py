@@ -35,7 +35,7 @@ from itertools import pairwise
 
 from flint import arb, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
 
-from core.algebra.polynomial import ParametricPolynomial, poly_text, to_fmpq
+from core.algebra.polynomial import ParametricPolynomial, poly_text, to_float, to_fmpq
 from core.analysis.poles import certified_roots
 from core.analysis.routh import (
     imaginary_axis_roots,
@@ -85,7 +85,14 @@ class Boundary:
 
     @property
     def value(self) -> float:
-        return float(self.rational) if self.rational is not None else float(self.ball.mid())
+        """The nearest float; infinite when the value lies beyond the float range (see ``approx``)."""
+        return to_float(self.rational) if self.rational is not None else float(self.ball.mid())
+
+    @property
+    def approx(self) -> str:
+        """Twelve significant digits, also beyond the float range (``-1.25000000000e+601``)."""
+        v = self.value
+        return f"{v:.12g}" if math.isfinite(v) else self.ball.str(12, radius=False)
 
     def sign_minus(self, v: fmpq) -> int:
         """Exact sign of (value - v) for a rational v (never 0 for an irrational value)."""
@@ -132,9 +139,11 @@ class Endpoint:
     exact: str
     kind: str  # "origin" | "crossing" | "infinity" | "singular"
     omega: float | None = None
+    approx: str = ""  # twelve digits, also where ``value`` is infinite (beyond the float range)
 
     def to_dict(self) -> dict:
-        return {"value": self.value, "exact": self.exact, "kind": self.kind, "omega": self.omega}
+        return {"value": self.value, "exact": self.exact, "kind": self.kind, "omega": self.omega,
+                "approx": self.approx or f"{self.value:.12g}"}
 
 
 @dataclass(frozen=True)
@@ -157,6 +166,8 @@ class Margins:
     fall_db: float | None = None
     rise_distance: float | None = None
     fall_distance: float | None = None
+    low_text: str | None = None  # the ends in twelve digits, also beyond the float range
+    high_text: str | None = None
 
     def to_dict(self) -> dict:
         return dict(self.__dict__)
@@ -180,6 +191,8 @@ class StableRange:
         return {
             "intervals": [[None if lo is None else lo.value, None if hi is None else hi.value]
                           for lo, hi in self.intervals],
+            "approx_intervals": [[None if lo is None else lo.approx, None if hi is None else hi.approx]
+                                 for lo, hi in self.intervals],
             "exact_intervals": [[None if lo is None else lo.text(name), None if hi is None else hi.text(name)]
                                 for lo, hi in self.intervals],
             "endpoints": [e.to_dict() for e in self.endpoints],
@@ -417,15 +430,15 @@ def _with_margins(r: StableRange) -> StableRange:
 def _endpoint(b: Boundary, kinds: set[str], poly: ParametricPolynomial, name: str) -> Endpoint:
     exact = b.text(name)
     if "singular" in kinds:
-        return Endpoint(b.value, exact, "singular")
+        return Endpoint(b.value, exact, "singular", approx=b.approx)
     if "origin" in kinds:
-        return Endpoint(b.value, exact, "origin")
+        return Endpoint(b.value, exact, "origin", approx=b.approx)
     drops = "infinity" in kinds
     if "crossing" in kinds:
         omega, on_axis = _crossing_omega(b, poly, drops)
         if on_axis or not drops:
-            return Endpoint(b.value, exact, "crossing", omega)
-    return Endpoint(b.value, exact, "infinity")
+            return Endpoint(b.value, exact, "crossing", omega, b.approx)
+    return Endpoint(b.value, exact, "infinity", approx=b.approx)
 
 
 CROSSING_BITS = 512  # an irrational crossing value is approached by a rational this close
@@ -511,7 +524,8 @@ def margins(r: StableRange, nominal) -> Margins:
     return Margins(nom, True, low, high, rise, fall,
                    None if rise is None else 20 * math.log10(rise),
                    None if fall is None else 20 * math.log10(fall),
-                   None if high is None else high - nom, None if low is None else nom - low)
+                   None if high is None else high - nom, None if low is None else nom - low,
+                   None if lo is None else lo.approx, None if hi is None else hi.approx)
 
 
 def decay_range(poly: ParametricPolynomial, sigma, nominal=None) -> StableRange:

@@ -34,7 +34,7 @@ import numpy as np
 from flint import fmpq
 
 from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
-from core.algebra.polynomial import ParametricPolynomial, mpoly_context, to_fmpq
+from core.algebra.polynomial import ParametricPolynomial, mpoly_context, scaled_floats, to_float, to_fmpq
 from core.analysis.routh import is_hurwitz
 from core.errors import AnalysisError
 
@@ -188,8 +188,7 @@ def step_response(transfer: ParametricTransfer, value: float | None = None, hori
                                     f"denominator degree {len(den_q) - 1}): a step input would need an impulse "
                                     "at t = 0", where="step response")
     stable = is_hurwitz(char_q, transfer.characteristic.degree)
-    num = np.array([float(c) for c in num_q]) if any(c != 0 for c in num_q) else np.zeros(1)
-    den = np.array([float(c) for c in den_q])
+    num, den = _float_pair(num_q, den_q)
     poles = np.roots(den).astype(complex) if den.size > 1 else np.empty(0, dtype=complex)
     visible_stable = bool(np.all(poles.real < 0))
     t_end, capped = (horizon, False) if horizon is not None else response_horizon(poles)
@@ -200,7 +199,7 @@ def step_response(transfer: ParametricTransfer, value: float | None = None, hori
     final = None
     if stable:
         gain = transfer.static_gain(value)
-        final = None if gain is None else float(gain)
+        final = None if gain is None else to_float(gain)
     elif visible_stable:
         notes.append("a hidden mode is not stable: the output seems to settle but the loop does not")
     if capped and stable:
@@ -208,6 +207,15 @@ def step_response(transfer: ParametricTransfer, value: float | None = None, hori
     metrics = step_metrics(t, y, final, transfer.reference, notes)
     note = "; ".join(([UNSTABLE_NOTE] if not stable else []) + list(metrics.notes))
     return StepResponse(t, y, metrics, transfer.input_id, stable, note, value, poles)
+
+
+def _float_pair(num_q: list, den_q: list) -> tuple[np.ndarray, np.ndarray]:
+    """Float numerator and denominator, both times the one power of two that brings their largest
+    coefficient near 1: the same transfer function, within the float range."""
+    scaled = scaled_floats([*den_q, *num_q])
+    den = np.array(scaled[: len(den_q)])
+    num = np.array(scaled[len(den_q):]) if any(c != 0 for c in num_q) else np.zeros(1)
+    return num, den
 
 
 def _simulate(num: np.ndarray, den: np.ndarray, t: np.ndarray) -> np.ndarray:

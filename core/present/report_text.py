@@ -37,8 +37,9 @@ def _fmt(x: float | None) -> str:
 
 
 def _interval(iv) -> str:
-    lo, hi = iv
-    return f"({'-inf' if lo is None else f'{lo:.12g}'}, {'+inf' if hi is None else f'{hi:.12g}'})"
+    """``(lo, hi)`` from floats or from ready texts (None: unbounded)."""
+    lo, hi = (None if x is None else x if isinstance(x, str) else f"{x:.12g}" for x in iv)
+    return f"({'-inf' if lo is None else lo}, {'+inf' if hi is None else hi})"
 
 
 def routh_table(report: Report, width: int | None = None) -> list[str]:
@@ -69,13 +70,19 @@ def margins_lines(name: str, m: dict | None) -> list[str]:
     lines = []
     for side, word, limit in (("rise", "rise", "high"), ("fall", "fall", "low")):
         factor, db, dist = m[f"{side}_factor"], m[f"{side}_db"], m[f"{side}_distance"]
+        end = m.get(f"{limit}_text") or (None if m[limit] is None else f"{m[limit]:.12g}")
         if factor is not None:
-            lines.append(f"  {name} may {word} by a factor {factor:.6g} ({db:.3g} dB) to {m[limit]:.12g}")
+            lines.append(f"  {name} may {word} by a factor {_big(factor)} ({_big(db, 3)} dB) to {end}")
         elif dist is not None:
-            lines.append(f"  {name} may {word} by {dist:.6g} to {m[limit]:.12g}")
+            lines.append(f"  {name} may {word} by {_big(dist)} to {end}")
         else:
             lines.append(f"  {name} may {word} without limit")
     return lines
+
+
+def _big(x: float, digits: int = 6) -> str:
+    """A size in ``digits`` digits; beyond the float range, said so."""
+    return f"{x:.{digits}g}" if math.isfinite(x) else "more than 1e308"
 
 
 def _amount(x: float | None, unit: str) -> str:
@@ -142,7 +149,7 @@ def report_text(report: Report, outcome: RequirementsOutcome | None = None, widt
     if rng is not None:
         out.append("")
         if rng["intervals"]:
-            out.append(f"Stable for {d['parameter']} in: " + " U ".join(_interval(iv) for iv in rng["intervals"]))
+            out.append(f"Stable for {d['parameter']} in: " + " U ".join(_interval(iv) for iv in rng["approx_intervals"]))
         else:
             out.append(f"Stable for no value of {d['parameter']}.")
         for e in rng["endpoints"]:
@@ -150,7 +157,7 @@ def report_text(report: Report, outcome: RequirementsOutcome | None = None, widt
                    "crossing": f"a complex pair crosses the imaginary axis at +-j{_fmt(e['omega'])} rad/s",
                    "infinity": "the leading coefficient vanishes (a pole goes to infinity)",
                    "singular": "the polynomial vanishes identically"}.get(e["kind"], e["kind"])
-            out.append(f"  {d['parameter']} = {abbreviate(e['exact'], width)} (~{e['value']:.12g}): {how}")
+            out.append(f"  {d['parameter']} = {abbreviate(e['exact'], width)} (~{e['approx']}): {how}")
         out += margins_lines(d["parameter"], d["margins"])
     dec = d["decay"]
     if dec:

@@ -20,7 +20,8 @@ from core.analysis.requirements import JointRange, Verdict, evaluate, joint_rang
 from core.errors import LoopwrightError
 from core.model.requirements import Requirements
 
-__all__ = ["RequirementsOutcome", "headline", "requirements_outcome", "search_span", "stability_phrase", "value_text"]
+__all__ = ["RequirementsOutcome", "headline", "outcome_from_parts", "requirements_outcome", "search_span",
+           "stability_phrase", "value_text"]
 
 NO_STEP_FOR_POLYNOMIAL = "a typed polynomial has no step response: overshoot is judged for projects only"
 
@@ -101,6 +102,18 @@ def requirements_outcome(report: Report, requirements: Requirements, diagram=Non
         joint = None
         notes.append(f"range meeting all not found: {exc}")
     return RequirementsOutcome(verdicts, joint, value, notes + (joint.notes if joint is not None else []))
+
+
+def outcome_from_parts(report: Report, requirements: Requirements, step, joint: JointRange | None,
+                       ) -> RequirementsOutcome | None:
+    """The outcome from parts already computed (the window's analysis holds the nominal step response
+    and the joint range): verdicts at the report's nominal value; None when nothing is required."""
+    if requirements.is_empty and report.decay is None:
+        return None
+    value = _judged_value(report)
+    judged = report.parameter is None or value is not None
+    verdicts = evaluate(requirements, report, step, value) if judged else []
+    return RequirementsOutcome(verdicts, joint, value, list(joint.notes) if joint is not None else [])
 
 
 def search_span(report: Report) -> tuple[float, float] | None:
@@ -254,7 +267,7 @@ def _end(boundary, unbounded: str) -> str:
         return unbounded
     if boundary.rational is not None and len(str(boundary.rational)) <= SHORT_EXACT:
         return str(boundary.rational)
-    return f"{boundary.value:.6g}"
+    return f"{boundary.value:.6g}" if math.isfinite(boundary.value) else boundary.approx
 
 
 def requirements_phrase(outcome: RequirementsOutcome | None, parameter: str | None) -> str:

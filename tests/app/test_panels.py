@@ -140,6 +140,18 @@ def test_routh_special_row_is_annotated(qtbot):
     assert "s² *" in labels
 
 
+def test_routh_panel_says_why_a_huge_array_is_not_shown(qtbot):
+    d = unity_loop(den="(s+1)^80")  # (s+1)^80 + K: symbolic entries beyond the display cap
+    ctl = AnalysisController(d, ModelSignals(d))
+    panel = RouthPanel()
+    qtbot.addWidget(panel)
+    attach(panel, ctl)
+    assert ctl.wait_for_idle(60000) and ctl.result.ok, ctl.result.message
+    assert ctl.result.report.routh.omitted
+    assert panel.message.text() == f"Routh array not shown: {ctl.result.report.routh.omitted}"
+    assert not panel.message.isHidden() and panel.table.rowCount() == 0
+
+
 def test_factored_form_agrees_with_sympy():
     # (s + 1)(s^2 + K s + 2), expanded: s^3 + (K+1) s^2 + (K+2) s + 2
     from flint import fmpq_poly

@@ -15,6 +15,7 @@ from PySide6.QtWidgets import QMessageBox
 
 from app import about
 from app.document.commands import RenameCommand, push
+from app.panels.common import colour
 from app.window import shipped_examples
 from core.analysis.report import CAUTION, check_project
 from core.io.project_file import load_project
@@ -160,7 +161,7 @@ def test_an_edit_marks_the_headline_and_the_panels_out_of_date_at_once(window, e
     assert window.files.open(example_path, ask=False)
     analysed(window)
     verdict = window.verdict.text()
-    assert verdict.startswith("Stable") and "out of date" not in window.docks["range"].windowTitle()
+    assert verdict.startswith("STABLE") and "out of date" not in window.docks["range"].windowTitle()
     name = window.controller.result.tuning_range.name
     param = window.diagram.parameters[name]
     window.diagram.set_parameter(type(param)(name, param.nominal * 1.5, param.minimum, param.maximum))
@@ -170,3 +171,26 @@ def test_an_edit_marks_the_headline_and_the_panels_out_of_date_at_once(window, e
     analysed(window)
     assert not window.verdict.text().startswith("Analysing")
     assert not any("out of date" in window.docks[key].windowTitle() for key in window.stale_docks)
+
+
+def test_headline_states_stability_and_requirements_like_the_command_line(window, example_path, analysed):
+    from core.model.requirements import Requirements
+    from core.present.verdicts import headline, requirements_outcome
+
+    assert window.files.open(example_path, ask=False)
+    analysed(window)
+    assert window.verdict.text().startswith("STABLE") and "no requirements set" in window.verdict.text()
+    assert colour("stable").name() in window.verdict.styleSheet()
+    # a damping ratio of 0.99 cannot hold for a loop with a complex pair (the example has one)
+    window.diagram.set_requirements(Requirements(min_damping=0.99, min_gain_margin=1.5))
+    analysed(window)
+    text = window.verdict.text()
+    assert text.startswith("STABLE") and "requirements NOT met: damping" in text
+    assert colour("warning").name() in window.verdict.styleSheet()
+    # the same words as the command line's headline for the same project
+    project = load_project(example_path)
+    project.set_requirements(Requirements(min_damping=0.99, min_gain_margin=1.5))
+    report = window.controller.result.report
+    param = project.parameters[report.parameter]
+    assert text == headline(report, requirements_outcome(report, project.requirements, project,
+                                                         span=(param.minimum, param.maximum)))

@@ -219,7 +219,7 @@ def test_pole_map_says_numerically_sensitive(window, analysed):
     window.set_document(d)
     analysed(window)
     result = window.controller.result
-    assert result.report.nominal.stable and window.verdict.text().startswith("Stable")
+    assert result.report.nominal.stable and window.verdict.text().startswith("STABLE")
     assert result.float_warning and result.float_warning.startswith("numerically sensitive")
     assert window.pole_map.message.isVisibleTo(window.pole_map)
     assert "numerically sensitive" in window.pole_map.message.text()

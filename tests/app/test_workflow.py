@@ -115,7 +115,7 @@ def test_full_workflow(qtbot, window, dialogs, tmp_path, analysed):
     assert report.stable_range.to_dict()["intervals"] == [[0.0, 6.0]]
     assert "6" in window.range_panel.details_html()
     assert np.allclose(sorted_roots(window.pole_map.plotted_poles()), closed_loop_poles(2.0), atol=1e-9)
-    assert window.verdict.text().startswith("Stable")
+    assert window.verdict.text().startswith("STABLE")
     built = project_to_dict(window.diagram)
 
     # undo everything, redo everything
