@@ -55,6 +55,7 @@ CATALOGUE: dict[str, str] = {
     "E407": "transfer function improper: no step response",
     "E408": "a block's denominator is zero at the nominal values",
     "E409": "step response beyond the floating-point range",
+    "E410": "loop order above the analysed limit",
     # command line
     "E501": "command-line arguments invalid",
 }

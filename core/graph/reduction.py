@@ -86,12 +86,14 @@ class Reduction:
 def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None) -> Reduction:
     """Characteristic polynomial, loops and (when both ends are given) the transfer function.
 
-    Raises AnalysisError E401 for an unknown input or output, E402 when Delta is identically zero.
+    Raises AnalysisError E401 for an unknown input or output, E402 when Delta is identically zero,
+    E410 when the blocks' orders add up to more than MAX_LOOP_ORDER (refused before any work).
     """
     check_endpoints(diagram, input_id, output_id)
     endpoints = (input_id, output_id) if input_id is not None and output_id is not None else None
     kept, left_out = analysed_part(diagram, *endpoints) if endpoints is not None else (list(diagram.nodes), [])
     graph = build_signal_graph(diagram, kept)
+    _check_order(graph)
     with_transfer = endpoints is not None
     loops = simple_cycles(graph)
     warnings = _left_out_warnings(diagram, left_out, endpoints) + _port_warnings(diagram, graph) \
@@ -187,6 +189,18 @@ def _left_out_warnings(diagram: Diagram, left_out: list[str], endpoints: tuple[s
 def _port_warnings(diagram: Diagram, graph: SignalGraph) -> list[str]:
     return [Notice(f"node {nid}: input {port + 1} is not connected and contributes zero", "open_port")
             for nid, port in graph.unconnected]
+
+
+MAX_LOOP_ORDER = 200  # the sum of the analysed blocks' orders in s (the characteristic degree's bound)
+
+
+def _check_order(graph: SignalGraph) -> None:
+    """Refuse, before any elimination, a loop whose order could pass MAX_LOOP_ORDER."""
+    order = sum(max(_s_degree(n), _s_degree(d)) for n, d in graph.blocks.values())
+    if order > MAX_LOOP_ORDER:
+        raise AnalysisError("E410", f"the analysed blocks' orders in s add up to {order}; loops of order up "
+                                    f"to {MAX_LOOP_ORDER} are analysed (lower the blocks' orders, or leave "
+                                    "blocks off the input-output path)", where="diagram")
 
 
 def _s_degree(p: fmpq_mpoly) -> int:
