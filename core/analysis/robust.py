@@ -64,7 +64,8 @@ class RobustEndpoint:
     """One end of the robust range and the toleranced values that reach it (the worst case).
 
     ``worst_case`` holds floats; ``worst_case_exact`` the values that are exact rationals (ends of a
-    tolerance, vertices of the box). ``kind`` says what happens there, as for the stable range.
+    tolerance, vertices of the box); an empty ``worst_case`` means every toleranced value reaches
+    the end alike (``every_value``). ``kind`` says what happens there, as for the stable range.
     """
 
     value: float
@@ -76,7 +77,8 @@ class RobustEndpoint:
 
     def to_dict(self) -> dict:
         return {"value": self.value, "exact": self.exact, "approx": self.approx, "kind": self.kind,
-                "worst_case": self.worst_case, "worst_case_exact": self.worst_case_exact}
+                "worst_case": self.worst_case, "worst_case_exact": self.worst_case_exact,
+                "every_value": not self.worst_case}
 
 
 @dataclass
