@@ -37,7 +37,7 @@ from dataclasses import dataclass, field
 
 from flint import arb, arb_poly, ctx, fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly
 
-from core.algebra.polynomial import ParametricPolynomial, to_float
+from core.algebra.polynomial import ParametricPolynomial, to_float, to_fmpq
 from core.analysis.routh import is_hurwitz
 from core.analysis.stable_range import (
     Boundary,
@@ -99,8 +99,8 @@ class RobustRange:
         return self.method != "sampled"
 
     def contains(self, value) -> bool:
-        """Exact membership of a rational value."""
-        v = fmpq(value) if not isinstance(value, fmpq) else value
+        """Exact membership of a rational value (a float is read as its shortest decimal)."""
+        v = to_fmpq(value)
         return any((lo is None or lo.sign_minus(v) < 0) and (hi is None or hi.sign_minus(v) > 0)
                    for lo, hi in self.intervals)
 
@@ -140,8 +140,6 @@ def check_tolerances(tolerances: Mapping[str, tuple], parameter: str | None, nam
     >>> check_tolerances({"T": ("0.08", "0.12")}, "K", {"K", "T"})
     {'T': (2/25, 3/25)}
     """
-    from core.algebra.polynomial import to_fmpq
-
     out = {}
     for name, pair in tolerances.items():
         where = f"tolerance {name}"
@@ -164,9 +162,13 @@ def check_tolerances(tolerances: Mapping[str, tuple], parameter: str | None, nam
 
 # -- the entry point ------------------------------------------------------------------------------
 def robust_range(poly: fmpq_mpoly, parameter: str, tolerances: Mapping[str, tuple[fmpq, fmpq]],
-                 values: Mapping[str, fmpq]) -> RobustRange:
+                 values: Mapping[str, fmpq], method: str | None = None) -> RobustRange:
     """The robust range of ``parameter`` for ``poly`` (in s and parameters) with the toleranced
-    parameters in their intervals and every other one at ``values`` (see the module notes)."""
+    parameters in their intervals and every other one at ``values`` (see the module notes).
+
+    ``method`` (optional) asks for "edge-theorem" or "sampled" where the choice would be another
+    one that also applies (for cross-checks); otherwise the best method that applies is taken.
+    """
     names = poly.context().names()[1:]
     tol = {q: tolerances[q] for q in sorted(tolerances) if q in names}
     notes = [f"{q} does not enter the loop: its tolerance changes nothing" for q in sorted(tolerances) if q not in tol]
@@ -177,25 +179,29 @@ def robust_range(poly: fmpq_mpoly, parameter: str, tolerances: Mapping[str, tupl
         ranges = _one_problem(local, degree, None, {})
         return _result(parameter, tol, "exact", "no toleranced parameter enters the loop: the nominal "
                        "stable range", ranges, notes=notes)
-    if len(tol) == 1:
+    affine = _affine(local)
+    if method == "sampled" or (not affine and len(tol) > 1):
+        why = "asked for" if method == "sampled" else "the toleranced parameters enter through products or powers"
+        return _sampled_result(parameter, local, degree, tol, why, notes)
+    if len(tol) == 1 and method is None:
         q = next(iter(tol))
         return _result(parameter, tol, "exact", "one toleranced parameter: every value in its tolerance "
                        "checked exactly through the boundary polynomials", _one_problem(local, degree, (q, *tol[q]), {}),
                        notes=notes)
-    if _affine(local):
-        weights = _kharitonov_weights(local, len(tol))
-        if weights is not None:
-            return _result(parameter, tol, "kharitonov", "each toleranced parameter enters one coefficient "
-                           "additively: an interval polynomial, stable for every value iff its four "
-                           "Kharitonov polynomials are", _kharitonov(local, degree, tol, weights), notes=notes)
-        edges = len(tol) * 2 ** (len(tol) - 1)
-        if edges <= MAX_EDGES:
-            return _result(parameter, tol, "edge-theorem", f"the toleranced parameters enter the coefficients "
-                           f"affinely: a polytope of polynomials, stable iff each of its {edges} edges is, "
-                           "each decided exactly", _edges(local, degree, tol), notes=notes)
-        why = f"{edges} edges are too many to check one by one"
-    else:
-        why = "the toleranced parameters enter through products or powers"
+    weights = _kharitonov_weights(local, len(tol)) if method is None else None
+    if weights is not None:
+        return _result(parameter, tol, "kharitonov", "each toleranced parameter enters one coefficient "
+                       "additively: an interval polynomial, stable for every value iff its four "
+                       "Kharitonov polynomials are", _kharitonov(local, degree, tol, weights), notes=notes)
+    edges = len(tol) * 2 ** (len(tol) - 1)
+    if edges > MAX_EDGES:
+        return _sampled_result(parameter, local, degree, tol, f"{edges} edges are too many to check one by one", notes)
+    return _result(parameter, tol, "edge-theorem", f"the toleranced parameters enter the coefficients "
+                   f"affinely: a polytope of polynomials, stable iff each of its {edges} edges is, "
+                   "each decided exactly", _edges(local, degree, tol), notes=notes)
+
+
+def _sampled_result(parameter, local, degree, tol, why: str, notes) -> RobustRange:
     ranges, count = _sampled(local, degree, tol)
     return _result(parameter, tol, "sampled", f"{why}: estimated from {count} sampled combinations "
                    "(a grid and random points); the true robust range may be smaller", ranges, count, notes)
