@@ -238,3 +238,33 @@ def test_project_robust_range_from_the_file_and_the_command_line(tmp_path, capsy
     assert robust["endpoints"][-1]["worst_case_exact"] == {"T": "1/10"}
     assert main(["check", str(path)]) == 0
     assert "Robust range" in capsys.readouterr().out
+
+
+# -- the bench workloads (also a check that the worst case really is one) -------------------------
+def _numpy_coeffs(poly, values):
+    """Float coefficients of an exact polynomial at float values (the reference then is numpy.roots)."""
+    names = poly.context().names()
+    degree = poly.degrees()[0]
+    out = np.zeros(degree + 1)
+    for exps, c in poly.to_dict().items():
+        out[degree - int(exps[0])] += float(c) * np.prod([values[n] ** int(e) for n, e in zip(names[1:], exps[1:])])
+    return out
+
+
+@pytest.mark.parametrize("workload", ["one_toleranced", "five_affine"])
+def test_bench_workloads_worst_case_is_the_limit(workload):
+    from bench import robust_row
+
+    poly, tol = getattr(robust_row, workload)()
+    r = robust_range(poly, "K", tol, {})
+    assert r.method == ("exact" if workload == "one_toleranced" else "edge-theorem")
+    (lo, hi), = r.to_dict()["intervals"]
+    degree = poly.degrees()[0]
+    rng = np.random.default_rng(3)
+    corners = [dict(zip(tol, c)) for c in itertools.product(*[(float(a), float(b)) for a, b in tol.values()])]
+    randoms = [{n: rng.uniform(float(a), float(b)) for n, (a, b) in tol.items()} for _ in range(30)]
+    for q in corners + randoms:  # numpy.roots: stable inside the robust range at every sample
+        assert numpy_stable(_numpy_coeffs(poly, {"K": (lo + hi) / 2, **q}), degree)
+    worst = {n: (float(a) + float(b)) / 2 for n, (a, b) in tol.items()} | r.endpoints[-1].worst_case
+    assert numpy_stable(_numpy_coeffs(poly, {"K": hi * (1 - 1e-4), **worst}), degree)
+    assert not numpy_stable(_numpy_coeffs(poly, {"K": hi * (1 + 1e-4), **worst}), degree)
