@@ -268,3 +268,16 @@ def test_bench_workloads_worst_case_is_the_limit(workload):
     worst = {n: (float(a) + float(b)) / 2 for n, (a, b) in tol.items()} | r.endpoints[-1].worst_case
     assert numpy_stable(_numpy_coeffs(poly, {"K": hi * (1 - 1e-4), **worst}), degree)
     assert not numpy_stable(_numpy_coeffs(poly, {"K": hi * (1 + 1e-4), **worst}), degree)
+
+
+@pytest.mark.parametrize("text, tolerance, expected", [
+    # invented, Hurwitz by hand (from memory): K < 1 + (q-1)^2 least at q = 2 on [2, 3]; the turning
+    # value K = 1 (double root q = 1, outside) lies inside the robust range, which stays one interval
+    ("s^3 + s^2 + (1 + (q-1)^2)*s + K", (2, 3), [["0", "2"]]),
+    # the same with K^2/2: turning values +-sqrt(2) are irrational, still inside; K = 0 is a double root
+    # of the constant term, so two intervals
+    ("s^3 + s^2 + (1 + (q-1)^2)*s + K^2/2", (2, 3), [["-2", "0"], ["0", "2"]]),
+])
+def test_turning_values_outside_the_tolerance_do_not_split_the_range(text, tolerance, expected):
+    r = robust_range(mpoly(text), "K", {"q": tuple(fmpq(v) for v in tolerance)}, {})
+    assert r.to_dict()["exact_intervals"] == expected

@@ -126,7 +126,7 @@ class Parameter:
     nominal: float = 1.0
     minimum: float = 0.0
     maximum: float = 10.0
-    tolerance: tuple[float, float] | None = None
+    tolerance: tuple[float, float] | None = field(default=None, repr=False)  # compared, not in the repr
 
 
 @dataclass
