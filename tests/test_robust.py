@@ -3,6 +3,7 @@ line and errors. References: numpy.roots on dense samples of the tolerance box, 
 conditions in closed form (from memory), Kharitonov's theorem and the edge theorem against each
 other."""
 import itertools
+import math
 import json
 
 import numpy as np
@@ -281,3 +282,26 @@ def test_bench_workloads_worst_case_is_the_limit(workload):
 def test_turning_values_outside_the_tolerance_do_not_split_the_range(text, tolerance, expected):
     r = robust_range(mpoly(text), "K", {"q": tuple(fmpq(v) for v in tolerance)}, {})
     assert r.to_dict()["exact_intervals"] == expected
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_random_loops_one_tolerance_against_sampling(seed):
+    # invented, seeded: (s + 1 + a q)(s^2 + (1 + b q) s + 2 + c q^2)(s + d) + K (m s + 1), q in
+    # [1/2, 2] (stable at K = 0); reference numpy.roots (polymul) on 80 values of q
+    a, b, c, d, m = (int(v) for v in np.random.default_rng(seed).integers(0, 4, size=5))
+    d += 1
+    text = f"(s + 1 + {a}*q)*(s^2 + (1 + {b}*q)*s + 2 + {c}*q^2)*(s + {d}) + K*({m}*s + 1)"
+    tol = {"q": (fmpq(1, 2), fmpq(2))}
+    r = robust_range(mpoly(text), "K", tol, {})
+
+    def coeffs(k, q):
+        loop = np.polymul(np.polymul([1, 1 + a * q], [1, 1 + b * q, 2 + c * q * q]), [1, d])
+        return np.polyadd(loop, [m * k, k])
+    ends = [e.value for e in r.endpoints]
+    assert r.intervals and all(math.isfinite(e) for e in ends)
+    span = max(abs(e) for e in ends)
+    samples = box(tol, 80)
+    for k in np.linspace(-1.5 * span, 1.5 * span, 97):
+        if any(abs(k - e) < 1e-3 * span for e in ends):
+            continue
+        assert r.contains(float(k)) == all(numpy_stable(coeffs(k, **q), 4) for q in samples), (text, k)
