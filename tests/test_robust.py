@@ -3,8 +3,8 @@ line and errors. References: numpy.roots on dense samples of the tolerance box, 
 conditions in closed form (from memory), Kharitonov's theorem and the edge theorem against each
 other."""
 import itertools
-import math
 import json
+import math
 
 import numpy as np
 import pytest
