@@ -35,15 +35,17 @@ import random
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
-from flint import arb, arb_poly, ctx, fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly
+from flint import arb, arb_poly, ctx, fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
 
 from core.algebra.polynomial import ParametricPolynomial, to_float, to_fmpq
 from core.analysis.routh import is_hurwitz
 from core.analysis.stable_range import (
     Boundary,
     _boundaries,
+    _interpolate_consecutive,
     _irreducible_factors,
     _key,
+    _points_start,
     _sign_at,
     stable_range,
 )
@@ -343,8 +345,7 @@ def _one_problem(p: fmpq_mpoly, degree: int, tol: tuple | None, worst_fixed: dic
         for end in (lo, hi):
             if not add(_in_k(_at_q(f, end)), ("end", kind, end)):
                 return []  # q = end is a boundary root for every k
-        dq = f.derivative(2)
-        add(_in_k(f.resultant(dq, f.context().names()[2])), ("turn", kind, len(bivariate) - 1))
+        add(turning_resultant(f), ("turn", kind, len(bivariate) - 1))
     bounds = _boundaries(cand)
     points = _test_points(bounds)
     flags = [_robust_at(coeffs, degree, bivariate, x, lo, hi) for x in points]
@@ -363,6 +364,35 @@ def _one_problem(p: fmpq_mpoly, degree: int, tol: tuple | None, worst_fixed: dic
                 out.append((start, hi_end))
             open_ = False
     return out
+
+
+def turning_resultant(f: fmpq_mpoly) -> fmpq_poly:
+    """Res_q(f, df/dq) as a polynomial in k (context (s, k, q), no s): zero where two roots q meet.
+
+    By evaluation and interpolation, as for ``hurwitz_delta``: its degree in k is at most
+    (2 deg_q f - 1) deg_k f, and at integers where the leading coefficient in q does not vanish
+    the resultant of the values (flint, exact integers) is the value of the resultant.
+
+    >>> ctx3 = fmpq_mpoly_ctx.get(("s", "k", "q"), "lex")
+    >>> _, k, q = ctx3.gens()
+    >>> turning_resultant(q ** 2 - k)  # the discriminant of q^2 - k, up to a constant factor: -4k
+    (-4)*x
+    """
+    terms = f.to_dict()
+    den = 1
+    for c in terms.values():
+        den = den * int(c.q) // math.gcd(den, int(c.q))
+    dq = max(e[2] for e in terms)
+    by_q = [[0] * (max(e[1] for e in terms) + 1) for _ in range(dq + 1)]
+    for e, c in terms.items():
+        by_q[e[2]][e[1]] += int(c * den)
+    coeffs = [fmpz_poly(row) for row in by_q]
+    derived = [coeffs[j + 1] * (j + 1) for j in range(dq)]
+    bound = (2 * dq - 1) * max(c.degree() for c in coeffs)
+    start = _points_start(coeffs[-1], bound + 1)
+    values = [fmpz_poly([c(x) for c in coeffs]).resultant(fmpz_poly([c(x) for c in derived]))
+              for x in range(start, start + bound + 1)]
+    return _interpolate_consecutive(values, start)
 
 
 def _test_points(bounds: list[Boundary]) -> list[fmpq]:
