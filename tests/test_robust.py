@@ -305,3 +305,15 @@ def test_random_loops_one_tolerance_against_sampling(seed):
         if any(abs(k - e) < 1e-3 * span for e in ends):
             continue
         assert r.contains(float(k)) == all(numpy_stable(coeffs(k, **q), 4) for q in samples), (text, k)
+
+
+def test_a_boundary_touching_the_tolerance_at_one_irrational_value():
+    # invented: a0 = (q - 1/2)^2 + (K^2 - 2)^2 vanishes only at q = 1/2, K = +-sqrt(2) (by hand):
+    # inside the tolerance [0, 1] those two values are not robust; with q in [0, 1] shifted to
+    # (q - 3/2) the boundary never meets the tolerance and every K is robust
+    touching = robust_range(mpoly("s^2 + s + (q-1/2)^2 + (K^2-2)^2"), "K", {"q": (fmpq(0), fmpq(1))}, {})
+    assert len(touching.intervals) == 3 and [round(e.value, 12) for e in touching.endpoints] == [
+        round(-2 ** 0.5, 12), round(2 ** 0.5, 12)]
+    assert touching.contains(0) and touching.contains(2) and touching.notes
+    clear = robust_range(mpoly("s^2 + s + (q-3/2)^2 + (K^2-2)^2"), "K", {"q": (fmpq(0), fmpq(1))}, {})
+    assert clear.to_dict()["exact_intervals"] == [[None, None]] and not clear.notes

@@ -187,9 +187,11 @@ def robust_range(poly: fmpq_mpoly, parameter: str, tolerances: Mapping[str, tupl
         return _sampled_result(parameter, local, degree, tol, why, notes)
     if len(tol) == 1 and method is None:
         q = next(iter(tol))
+        touching: list[Boundary] = []
+        ranges = _one_problem(local, degree, (q, *tol[q]), {}, touching)
         return _result(parameter, tol, "exact", "one toleranced parameter: every value in its tolerance "
-                       "checked exactly through the boundary polynomials", _one_problem(local, degree, (q, *tol[q]), {}),
-                       notes=notes)
+                       "checked exactly through the boundary polynomials", ranges,
+                       notes=notes + _touching_notes(touching, parameter))
     weights = _kharitonov_weights(local, len(tol)) if method is None else None
     if weights is not None:
         return _result(parameter, tol, "kharitonov", "each toleranced parameter enters one coefficient "
@@ -198,9 +200,16 @@ def robust_range(poly: fmpq_mpoly, parameter: str, tolerances: Mapping[str, tupl
     edges = len(tol) * 2 ** (len(tol) - 1)
     if edges > MAX_EDGES:
         return _sampled_result(parameter, local, degree, tol, f"{edges} edges are too many to check one by one", notes)
+    touching = []
+    ranges = _edges(local, degree, tol, touching)
     return _result(parameter, tol, "edge-theorem", f"the toleranced parameters enter the coefficients "
                    f"affinely: a polytope of polynomials, stable iff each of its {edges} edges is, "
-                   "each decided exactly", _edges(local, degree, tol), notes=notes)
+                   "each decided exactly", ranges, notes=notes + _touching_notes(touching, parameter))
+
+
+def _touching_notes(touching: list[Boundary], parameter: str) -> list[str]:
+    return [f"{parameter} = {b.text(parameter)} is left out: a boundary may touch the tolerance there "
+            "(not proven either way; leaving it out can only make the range smaller)" for b in touching]
 
 
 def _sampled_result(parameter, local, degree, tol, why: str, notes) -> RobustRange:
@@ -301,9 +310,11 @@ def _coeffs_at(coeffs: list[fmpq_mpoly], k: fmpq, q: fmpq | None) -> list[fmpq]:
 
 
 # -- one toleranced parameter: the exact method --------------------------------------------------
-def _one_problem(p: fmpq_mpoly, degree: int, tol: tuple | None, worst_fixed: dict) -> list[Interval]:
+def _one_problem(p: fmpq_mpoly, degree: int, tol: tuple | None, worst_fixed: dict,
+                 touching: list[Boundary] | None = None) -> list[Interval]:
     """Robust intervals of k for p in the context (s, k[, q]) with q in [lo, hi] (``tol`` = (name,
-    lo, hi); None: no q). ``degree`` is the degree every member must keep."""
+    lo, hi); None: no q). ``degree`` is the degree every member must keep. Isolated irrational
+    values left out only because no proof was found that they are robust go into ``touching``."""
     if p.is_zero() or p.degrees()[0] != degree:
         return []
     if tol is None:
@@ -351,6 +362,9 @@ def _one_problem(p: fmpq_mpoly, degree: int, tol: tuple | None, worst_fixed: dic
     flags = [_robust_at(coeffs, degree, bivariate, x, lo, hi) for x in points]
     keep = [_turn_kept(bounds[i], owners[_key(bounds[i].factor)], bivariate, lo, hi)
             if flags[i] and flags[i + 1] else False for i in range(len(bounds))]
+    if touching is not None:
+        touching += [b for i, b in enumerate(bounds) if flags[i] and flags[i + 1] and not keep[i]
+                     and b.rational is None and all(r[0] == "turn" for r in owners[_key(b.factor)])]
     out: list[Interval] = []
     start: _End | None = None
     open_ = False
@@ -590,7 +604,7 @@ def _drop_qs(p: fmpq_mpoly) -> fmpq_mpoly:
     return ctx2.from_dict({exps[:2]: c for exps, c in p.to_dict().items()})
 
 
-def _edges(p: fmpq_mpoly, degree: int, tol: dict) -> list[Interval]:
+def _edges(p: fmpq_mpoly, degree: int, tol: dict, touching: list[Boundary] | None = None) -> list[Interval]:
     names = list(tol)
     ctx3 = fmpq_mpoly_ctx.get(("s", "k", "q"), "lex")
     parts = []
@@ -600,7 +614,7 @@ def _edges(p: fmpq_mpoly, degree: int, tol: dict) -> list[Interval]:
             fixed = {names[i]: tol[names[i]][c] for i, c in zip(others, corner)}
             at = p.subs({f"q{i}": fixed[names[i]] for i in others})
             edge = ctx3.from_dict({(e[0], e[1], e[2 + free]): c for e, c in at.to_dict().items()})
-            parts.append(_one_problem(edge, degree, (names[free], *tol[names[free]]), fixed))
+            parts.append(_one_problem(edge, degree, (names[free], *tol[names[free]]), fixed, touching))
             if not parts[-1]:
                 return []
     return _intersect_all(parts)
