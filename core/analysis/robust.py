@@ -222,7 +222,7 @@ def _result(parameter, tol, method, reason, ranges: list[Interval], samples=None
     name = parameter or "k"
     ends: list[_End] = []
     for lo, hi in ranges:
-        ends += [e for e in (lo, hi) if e is not None and (not ends or ends[-1].boundary is not e.boundary)]
+        ends += [e for e in (lo, hi) if e is not None and (not ends or _compare(ends[-1].boundary, e.boundary) != 0)]
     endpoints = [RobustEndpoint(e.boundary.value, e.boundary.text(name), e.boundary.approx, e.kind,
                                 {q: to_float(v) if isinstance(v, fmpq) else v for q, v in e.worst.items()},
                                 {q: str(v) for q, v in e.worst.items() if isinstance(v, fmpq)}) for e in ends]
