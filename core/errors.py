@@ -56,6 +56,7 @@ CATALOGUE: dict[str, str] = {
     "E406": "input does not reach the output",
     "E407": "transfer function improper: no step response",
     "E408": "a block's denominator is zero at the nominal values",
+    "E409": "step response beyond the floating-point range",
     "E420": "tolerance empty, inverted or not finite (analysis)",
     "E421": "tolerance given for the tuning parameter",
     "E422": "tolerance given for a name that is not a parameter",
