@@ -296,19 +296,6 @@ def _at_q(p: fmpq_mpoly, q: fmpq) -> fmpq_mpoly:
     return p.subs({p.context().names()[2]: q})
 
 
-def _coeffs_at(coeffs: list[fmpq_mpoly], k: fmpq, q: fmpq | None) -> list[fmpq]:
-    out = []
-    for c in coeffs:
-        total = fmpq(0)
-        for exps, v in c.to_dict().items():
-            total += v * k ** exps[1] * (q ** exps[2] if q is not None and len(exps) > 2 else 1)
-        out.append(total)
-    i = 0
-    while i < len(out) - 1 and out[i] == 0:
-        i += 1
-    return out[i:]
-
-
 # -- one toleranced parameter: the exact method --------------------------------------------------
 def _one_problem(p: fmpq_mpoly, degree: int, tol: tuple | None, worst_fixed: dict,
                  touching: list[Boundary] | None = None) -> list[Interval]:
@@ -359,7 +346,8 @@ def _one_problem(p: fmpq_mpoly, degree: int, tol: tuple | None, worst_fixed: dic
         add(turning_resultant(f), ("turn", kind, len(bivariate) - 1))
     bounds = _boundaries(cand)
     points = _test_points(bounds)
-    flags = [_robust_at(coeffs, degree, bivariate, x, lo, hi) for x in points]
+    at_lo = [_in_k(_at_q(c, lo)) for c in coeffs]
+    flags = [_robust_at(at_lo, degree, bivariate, x, lo, hi) for x in points]
     keep = [_turn_kept(bounds[i], owners[_key(bounds[i].factor)], bivariate, lo, hi)
             if flags[i] and flags[i + 1] else False for i in range(len(bounds))]
     if touching is not None:
@@ -417,9 +405,10 @@ def _test_points(bounds: list[Boundary]) -> list[fmpq]:
     return [*pts, simplest_between(bounds[-1].hi, None)]
 
 
-def _robust_at(coeffs, degree, bivariate, k: fmpq, lo: fmpq, hi: fmpq) -> bool:
-    """Exact: stable at (k, lo) and no boundary factor has a root q in [lo, hi] at k."""
-    if not is_hurwitz(_coeffs_at(coeffs, k, lo), degree):
+def _robust_at(at_lo: list[fmpq_poly], degree, bivariate, k: fmpq, lo: fmpq, hi: fmpq) -> bool:
+    """Exact: stable at (k, lo) (``at_lo``: the coefficients at q = lo, in k) and no boundary factor
+    has a root q in [lo, hi] at k."""
+    if not is_hurwitz([c(k) for c in at_lo], degree):
         return False
     return not any(_has_root_in(_in_q(f, k), lo, hi) for f, _ in bivariate)
 
