@@ -130,7 +130,7 @@ def test_edge_theorem_against_sampling():
     r = robust_range(mpoly("s^3 + (2+a)*s^2 + (1+a+b)*s + K*(1+b)"), "K", tol, {})
     assert r.method == "edge-theorem"
     coeffs = lambda k, a, b: [1, 2 + a, 1 + a + b, k * (1 + b)]  # noqa: E731
-    check_against_sampling(r, coeffs, 3, tol, np.linspace(-1, 4, 101), band=0.02, per_axis=41)
+    check_against_sampling(r, coeffs, 3, tol, np.linspace(-1, 4, 51), band=0.04, per_axis=21)
 
 
 def test_products_are_sampled_and_say_so():
@@ -287,7 +287,7 @@ def test_turning_values_outside_the_tolerance_do_not_split_the_range(text, toler
 @pytest.mark.parametrize("seed", range(8))
 def test_random_loops_one_tolerance_against_sampling(seed):
     # invented, seeded: (s + 1 + a q)(s^2 + (1 + b q) s + 2 + c q^2)(s + d) + K (m s + 1), q in
-    # [1/2, 2] (stable at K = 0); reference numpy.roots (polymul) on 80 values of q
+    # [1/2, 2] (stable at K = 0); reference numpy.roots (polymul) on 50 values of q
     a, b, c, d, m = (int(v) for v in np.random.default_rng(seed).integers(0, 4, size=5))
     d += 1
     text = f"(s + 1 + {a}*q)*(s^2 + (1 + {b}*q)*s + 2 + {c}*q^2)*(s + {d}) + K*({m}*s + 1)"
@@ -300,8 +300,8 @@ def test_random_loops_one_tolerance_against_sampling(seed):
     ends = [e.value for e in r.endpoints]
     assert r.intervals and all(math.isfinite(e) for e in ends)
     span = max(abs(e) for e in ends)
-    samples = box(tol, 80)
-    for k in np.linspace(-1.5 * span, 1.5 * span, 97):
+    samples = box(tol, 50)
+    for k in np.linspace(-1.5 * span, 1.5 * span, 61):
         if any(abs(k - e) < 1e-3 * span for e in ends):
             continue
         assert r.contains(float(k)) == all(numpy_stable(coeffs(k, **q), 4) for q in samples), (text, k)
