@@ -239,6 +239,8 @@ def test_project_robust_range_from_the_file_and_the_command_line(tmp_path, capsy
     assert robust["endpoints"][-1]["worst_case_exact"] == {"T": "1/10"}
     assert main(["check", str(path)]) == 0
     assert "Robust range" in capsys.readouterr().out
+    assert main(["check", str(path), "--json", "--at", "T=0.2"]) == 0  # the nominal outside the tolerance
+    assert "outside its tolerance" in json.loads(capsys.readouterr().out)["robust_range"]["notes"][0]
 
 
 # -- the bench workloads (also a check that the worst case really is one) -------------------------

@@ -174,6 +174,8 @@ def robust_range(poly: fmpq_mpoly, parameter: str, tolerances: Mapping[str, tupl
     names = poly.context().names()[1:]
     tol = {q: tolerances[q] for q in sorted(tolerances) if q in names}
     notes = [f"{q} does not enter the loop: its tolerance changes nothing" for q in sorted(tolerances) if q not in tol]
+    notes += [f"the nominal value of {q} ({values[q]}) lies outside its tolerance [{lo}, {hi}]"
+              for q, (lo, hi) in tol.items() if q in values and not lo <= values[q] <= hi]
     fixed = {n: values[n] for n in names if n != parameter and n not in tol}
     local = _localised(poly, parameter, list(tol), fixed)
     degree = local.degrees()[0]
