@@ -17,8 +17,9 @@ characteristic polynomial p(s; k, q):
 * ``edge-theorem`` (two or more parameters entering the coefficients affinely): the polynomials form
   a polytope, stable iff every edge is (edge theorem, Bartlett, Hollot and Huang 1988); each of the
   m 2^(m-1) edges is a one-toleranced-parameter problem for the exact method above.
-* ``sampled`` (products or powers of toleranced parameters): the exact stable range at a grid plus
-  random points of the tolerance box, intersected; an estimate that can only be too large.
+* ``sampled`` (products or powers of toleranced parameters): the exact one-parameter method along
+  lines of the tolerance box (the last parameter over its whole tolerance, the others at a grid plus
+  random values), intersected; an estimate that can only be too large.
 
 >>> from core.algebra.polynomial import mpoly_from_dict
 >>> p = mpoly_from_dict(("K", "T"), {(3, 0, 1): 1, (2, 0, 0): 1, (1, 0, 0): 1, (0, 1, 0): 1})  # T s^3 + s^2 + s + K
@@ -56,7 +57,7 @@ __all__ = ["RobustEndpoint", "RobustRange", "check_tolerances", "robust_range"]
 
 METHODS = ("exact", "edge-theorem", "kharitonov", "sampled")
 MAX_EDGES = 320          # above this many edges (m >= 7) the box is sampled instead
-SAMPLES = 64             # grid plus random points for the sampled estimate (about)
+LINES = 32               # lines of the box (a grid plus random ones) for the sampled estimate
 CERTIFY_PIECES = 4096    # subintervals tried to prove no root at an irrational turning value
 KIND_OF = {"a0": "origin", "an": "infinity", "delta": "crossing"}
 
@@ -216,8 +217,9 @@ def _touching_notes(touching: list[Boundary], parameter: str) -> list[str]:
 
 def _sampled_result(parameter, local, degree, tol, why: str, notes) -> RobustRange:
     ranges, count = _sampled(local, degree, tol)
-    return _result(parameter, tol, "sampled", f"{why}: estimated from {count} sampled combinations "
-                   "(a grid and random points); the true robust range may be smaller", ranges, count, notes)
+    return _result(parameter, tol, "sampled", f"{why}: estimated on {count} sampled lines of the tolerance "
+                   f"box ({list(tol)[-1]} over its whole tolerance, exactly; the others at a grid and random "
+                   "values); the true robust range may be smaller", ranges, count, notes)
 
 
 def _result(parameter, tol, method, reason, ranges: list[Interval], samples=None, notes=()) -> RobustRange:
@@ -612,15 +614,22 @@ def _edges(p: fmpq_mpoly, degree: int, tol: dict, touching: list[Boundary] | Non
 
 
 def _sampled(p: fmpq_mpoly, degree: int, tol: dict) -> tuple[list[Interval], int]:
+    """The exact robust range along lines of the box: the last toleranced parameter over its whole
+    tolerance (the exact one-parameter method), the others at a grid plus random values."""
     names = list(tol)
-    per_axis = max(2, min(5, round((SAMPLES / 2) ** (1 / len(names)))))
-    grid = [[lo + (hi - lo) * fmpq(j, per_axis - 1) for j in range(per_axis)] for lo, hi in tol.values()]
-    points = list(itertools.islice(itertools.product(*grid), SAMPLES // 2))
+    rest, last = names[:-1], len(names) - 1
+    per_axis = max(2, min(5, round((LINES / 2) ** (1 / max(len(rest), 1)))))
+    grid = [[tol[n][0] + (tol[n][1] - tol[n][0]) * fmpq(j, per_axis - 1) for j in range(per_axis)] for n in rest]
+    points = list(itertools.islice(itertools.product(*grid), LINES // 2))
     rng = random.Random(20261203)
-    points += [tuple(lo + (hi - lo) * fmpq(rng.randint(1, 1023), 1024) for lo, hi in tol.values())
-               for _ in range(SAMPLES - len(points))]
+    points += [tuple(tol[n][0] + (tol[n][1] - tol[n][0]) * fmpq(rng.randint(1, 1023), 1024) for n in rest)
+               for _ in range(LINES - len(points) if rest else 0)]
+    ctx3 = fmpq_mpoly_ctx.get(("s", "k", "q"), "lex")
     parts = []
     for point in points:
-        at = p.subs({f"q{i}": v for i, v in enumerate(point)})
-        parts.append(_one_problem(_drop_qs(at), degree, None, dict(zip(names, point))))
+        at = p.subs({f"q{i}": v for i, v in enumerate(point)}) if point else p
+        line = ctx3.from_dict({(e[0], e[1], e[2 + last]): c for e, c in at.to_dict().items()})
+        parts.append(_one_problem(line, degree, (names[last], *tol[names[last]]), dict(zip(rest, point))))
+        if not parts[-1]:
+            break
     return _intersect_all(parts), len(points)
