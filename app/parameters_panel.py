@@ -7,6 +7,7 @@ tuning parameter. Below: the decay requirement (mode and value) and the analysis
 """
 from __future__ import annotations
 
+from dataclasses import replace
 from functools import lru_cache
 
 from PySide6.QtCore import Qt, QTimer, Signal
@@ -31,11 +32,12 @@ from app.document.commands import SetAnalysisCommand, SetParameterCommand, SetTu
 from app.theme import figure_font
 from core.algebra.expression import expression_parameters
 from core.algebra.numbers import read_value
-from core.errors import LoopwrightError
+from core.errors import ExpressionError, LoopwrightError
 from core.model.diagram import Diagram, Parameter
 
-COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tune")
+COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tolerance", "Tune")
 FIELDS = {1: "nominal", 2: "minimum", 3: "maximum"}
+TOLERANCE_COLUMN, TUNE_COLUMN = 4, 5
 DECAY_MODES = (
     ("sigma", "Minimum decay rate σ", "1/s", ""),
     ("half_time", "Time to half amplitude", "s", "σ = ln 2 / T"),
@@ -60,6 +62,26 @@ def block_names(num: str, den: str) -> frozenset[str]:
     ['Kp', 'Ti']
     """
     return frozenset(expression_parameters(num) | expression_parameters(den))
+
+
+def tolerance_text(tolerance: tuple[float, float] | None) -> str:
+    """``0.08 .. 0.12``, or empty for none."""
+    return "" if tolerance is None else f"{number_text(tolerance[0])} .. {number_text(tolerance[1])}"
+
+
+def read_tolerance(text: str, where: str | None = None) -> tuple[float, float] | None:
+    """``lo .. hi`` (or ``lo..hi``) as a pair, empty text as no tolerance; E112 for anything else.
+
+    >>> read_tolerance("0.08 .. 0.12"), read_tolerance("  ")
+    ((0.08, 0.12), None)
+    """
+    if not text.strip():
+        return None
+    low, dots, high = text.partition("..")
+    if not dots:
+        raise ExpressionError("E112", f"a tolerance is typed as low .. high, e.g. 0.08 .. 0.12 (got {text.strip()[:40]!r})",
+                              where=where)
+    return read_value(low.strip(), where), read_value(high.strip(), where)
 
 
 def read_number(text: str, where: str | None = None) -> float:
@@ -191,6 +213,7 @@ class ParametersPanel(QWidget):
                 title.setToolTip("")
             for column, field in FIELDS.items():
                 self.table.item(row, column).setText(number_text(getattr(p, field)) if p else "")
+            self.table.item(row, TOLERANCE_COLUMN).setText(tolerance_text(p.tolerance) if p else "")
             radio = self.tune_group.button(row)
             radio.setEnabled(p is not None)
             radio.setChecked(d.tuning_parameter == name)
@@ -212,7 +235,7 @@ class ParametersPanel(QWidget):
             title.setFlags(Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsSelectable)
             title.setData(Qt.ItemDataRole.UserRole, name)
             self.table.setItem(row, 0, title)
-            for column in FIELDS:
+            for column in (*FIELDS, TOLERANCE_COLUMN):
                 item = QTableWidgetItem()
                 item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
                 self.table.setItem(row, column, item)
@@ -223,7 +246,10 @@ class ParametersPanel(QWidget):
             radio.setToolTip(f"Analyse the stable range over {name}")
             box.addWidget(radio, 0, Qt.AlignmentFlag.AlignCenter)
             self.tune_group.addButton(radio, row)
-            self.table.setCellWidget(row, 4, holder)
+            tolerance = self.table.item(row, TOLERANCE_COLUMN)
+            tolerance.setToolTip(f"The interval {name}'s true value lies in, e.g. 0.08 .. 0.12: the robust range "
+                                 "then holds for every value in it (empty: none)")
+            self.table.setCellWidget(row, TUNE_COLUMN, holder)
 
     def _fill_decay(self) -> None:
         a = self.diagram.analysis
@@ -259,19 +285,19 @@ class ParametersPanel(QWidget):
         self.message.emit(text)
 
     def _on_item_changed(self, item: QTableWidgetItem) -> None:
-        if self._filling or item.column() not in FIELDS:
+        if self._filling or item.column() not in (*FIELDS, TOLERANCE_COLUMN):
             return
         name = self.table.item(item.row(), 0).data(Qt.ItemDataRole.UserRole)
-        field = FIELDS[item.column()]
+        field = FIELDS.get(item.column(), "tolerance")
         old = self.diagram.parameters.get(name) or Parameter(name)
+        read = read_tolerance if field == "tolerance" else read_number
         try:
-            value = read_number(item.text(), where=f"parameter {name}, {field}")
+            value = read(item.text(), where=f"parameter {name}, {field}")
         except LoopwrightError as err:
             self._complain(str(err))
             self._refill_later()
             return
-        new = Parameter(name, old.nominal, old.minimum, old.maximum)
-        setattr(new, field, value)
+        new = replace(old, **{field: value})  # every other field, the tolerance too, kept
         if field == "nominal" and name not in self.diagram.parameters:
             new.minimum, new.maximum = min(old.minimum, value), max(old.maximum, value if value else 1.0)
         if new == self.diagram.parameters.get(name):

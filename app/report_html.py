@@ -16,6 +16,7 @@ source (a data URI for the HTML file, a resource name for the PDF) and its width
 from __future__ import annotations
 
 import html
+import math
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -23,7 +24,7 @@ from itertools import pairwise
 
 from app.panels.common import MINUS, math_html, number, pole_number, pole_size
 from app.panels.polynomial_panel import factored
-from app.panels.range_panel import how_lost, range_intervals_html
+from app.panels.range_panel import how_lost, range_intervals_html, robust_html
 from app.panels.routh_panel import entry_display, evaluate_entry, power_label
 from core.algebra.polynomial import to_fmpq
 from core.analysis.report import CAUTION
@@ -282,10 +283,13 @@ def range_html(inputs: ReportInputs) -> str:
     else:
         out.append(f"<p id='intervals' class='bad'>Stable for no value of {name}.</p>")
     if rng["endpoints"]:
-        rows = [[_num(f"{name} = {esc(e['exact']).replace('-', MINUS)}"), _num(number(e["value"], 10)),
+        rows = [[_num(f"{name} = {esc(e['exact']).replace('-', MINUS)}"), _num(number(e["value"], 10) if math.isfinite(e["value"]) else e["approx"]),
                  esc(how_lost(e["kind"], e["omega"]))] for e in rng["endpoints"]]
         out.append("<h3>How stability is lost</h3>" + _grid("endpoints", ["Endpoint (exact)", "Decimal",
                                                                           "What happens there"], rows))
+    robust = robust_html(report)
+    if robust:
+        out.append("<h3 id='robust'>Robust range</h3>" + robust)
     out.append(_margins_html(report))
     out.append(_decay_html(report))
     return "".join(out)

@@ -393,8 +393,9 @@ class MainWindow(QMainWindow):
 
     @staticmethod
     def _verdict_style(result) -> str:
-        """Stable and every requirement met (or none set): the stable colour; stable with a requirement
-        not met or not judged: the warning colour; not stable: the unstable colour."""
+        """Stable (for every toleranced value) and every requirement met (or none set): the stable
+        colour; stable with a requirement not met or not judged, or not robustly: the warning colour;
+        not stable: the unstable colour."""
         report = result.report
         if report is None or report.nominal is None:
             meaning = "warning"
@@ -403,7 +404,8 @@ class MainWindow(QMainWindow):
         else:
             met = result.display.get("requirements_met")
             required = not (result.requirements.is_empty and report.decay is None)
-            meaning = "stable" if met is True or not required else "warning"
+            robust = result.display.get("robust") is not False
+            meaning = "stable" if (met is True or not required) and robust else "warning"
         return f"color: {colour(meaning).name()}; font-weight: 600; padding: 0 6px;"
 
     def _on_settings_changed(self, what: str) -> None:

@@ -10,7 +10,7 @@ from app.panels.polynomial_panel import HTML_KEY, PolynomialPanel, polynomial_ht
 from app.panels.range_panel import RangePanel
 from app.panels.routh_panel import RouthPanel, ready_cells
 from core.errors import LoopwrightError
-from core.present.verdicts import headline, outcome_from_parts
+from core.present.verdicts import headline, outcome_from_parts, robust_at_nominal
 
 __all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach", "prepare_for_panels"]
 
@@ -42,6 +42,7 @@ def ready_headline(result) -> None:
     outcome = outcome_from_parts(report, result.requirements, step, td.joint if td is not None else None)
     result.display["headline"] = headline(report, outcome)
     result.display["requirements_met"] = None if outcome is None else outcome.all_met
+    result.display["robust"] = robust_at_nominal(report)
 
 
 class FollowWhenShown(QObject):

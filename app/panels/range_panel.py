@@ -223,9 +223,16 @@ def exact_summary(exact: str, name: str) -> str:
     return f"root of a degree-{degree} polynomial in {html.escape(name)}"
 
 
-def _interval_text(iv, exact) -> str:
-    """``(0, 6)`` in decimals; the exact ends after it when they are short and differ."""
-    decimals = [("−∞" if iv[0] is None else number(iv[0])), ("+∞" if iv[1] is None else number(iv[1]))]
+def _decimal(x: float | None, approx: str | None, unbounded: str) -> str:
+    if x is None and approx is None:
+        return unbounded
+    return number(x) if x is not None and math.isfinite(x) else str(approx).replace("-", MINUS)
+
+
+def _interval_text(iv, exact, approx=(None, None)) -> str:
+    """``(0, 6)`` in decimals (from ``approx`` beyond the float range); the exact ends after it when
+    they are short and differ."""
+    decimals = [_decimal(iv[0], approx[0], "−∞"), _decimal(iv[1], approx[1], "+∞")]
     text = f"({decimals[0]}, {decimals[1]})"
     ends = [("−∞" if iv[0] is None else _plain(exact[0])), ("+∞" if iv[1] is None else _plain(exact[1]))]
     if ends != decimals and all(len(e) <= SHORT_EXACT for e in ends):
@@ -236,7 +243,34 @@ def _interval_text(iv, exact) -> str:
 def range_intervals_html(ranges: dict) -> str:
     """A stable-range dict's intervals joined by ∪, each as :func:`_interval_text` writes it.
     The panel and the exported report both use it, so their numbers are the same text."""
-    return " ∪ ".join(_interval_text(iv, ex) for iv, ex in zip(ranges["intervals"], ranges["exact_intervals"]))
+    approx = ranges.get("approx_intervals") or [(None, None)] * len(ranges["intervals"])
+    return " ∪ ".join(_interval_text(iv, ex, ap)
+                      for iv, ex, ap in zip(ranges["intervals"], ranges["exact_intervals"], approx, strict=True))
+
+
+def robust_html(report) -> str:
+    """The robust range (every toleranced value at once) with its method and each end's worst case;
+    empty without tolerances. The panel and the exported report both use it."""
+    robust = getattr(report, "robust_range", None)
+    if robust is None:
+        return ""
+    d, name = robust.to_dict(), html.escape(report.parameter or "")
+    boxes = ", ".join(f"{html.escape(q)} in [{html.escape(lo)}, {html.escape(hi)}]" for q, (lo, hi) in d["tolerances"].items())
+    kind = ("<span class='good'>exact</span>" if d["exact"] else
+            "<span class='warn'><b>ESTIMATED</b> (sampled: a value found stable may still fail elsewhere in the "
+            "tolerances)</span>")
+    head = (f"<p style='margin:6px 0 2px 0'><b>Robust for every {boxes}:</b> ")
+    if d["intervals"]:
+        head += f"{name} in <span class='num'>{range_intervals_html(d)}</span>"
+    else:
+        head += f"<span class='bad'>no value of {name}</span>"
+    rows = "".join(f"<tr><td class='num'>{name} = {html.escape(e['approx']).replace('-', MINUS)}</td>"
+                   f"<td>worst case {', '.join(f'{html.escape(q)} = {html.escape(v)}' for q, v in e['worst_case_exact'].items())}</td></tr>"
+                   for e in d["endpoints"] if e["worst_case_exact"])
+    notes = "".join(f"<div class='muted'>{html.escape(n)}</div>" for n in d["notes"])
+    method = "" if d["method"] == "exact" else f"; {html.escape(d['method'])}"
+    return (head + f" &nbsp;({kind}{method}: {html.escape(d['reason'])})</p>"
+            + (f"<table cellspacing='0'>{rows}</table>" if rows else "") + notes)
 
 
 def _interval_plain(iv, exact) -> str:
@@ -348,6 +382,7 @@ class RangePanel(QWidget):
             rows = "".join(self._endpoint_rows(name, e) for e in rng["endpoints"])
             out.append(f"<p style='margin:6px 0 2px 0'><b>Endpoints</b></p>"
                        f"<table cellspacing='0'>{rows}</table>")
+        out.append(robust_html(report))
         out.append(self._margins_html(name))
         out.append(self._decay_html(name))
         return "".join(out)
@@ -356,7 +391,7 @@ class RangePanel(QWidget):
     def _endpoint_rows(name: str, e: dict) -> str:
         """The decimal value first, how stability is lost beside it; the exact value below in small
         muted type (summarised when long; Copy exact gives the full text)."""
-        decimal = number(e["value"], 10)
+        decimal = number(e["value"], 10) if math.isfinite(e["value"]) else e["approx"].replace("-", MINUS)
         exact = _plain(e["exact"])
         same = exact == decimal
         head = (f"<tr><td class='num' style='white-space:nowrap'><b>{name} {'=' if same else '≈'} {decimal}</b>"

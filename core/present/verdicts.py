@@ -20,8 +20,8 @@ from core.analysis.requirements import JointRange, Verdict, evaluate, joint_rang
 from core.errors import LoopwrightError
 from core.model.requirements import Requirements
 
-__all__ = ["RequirementsOutcome", "headline", "outcome_from_parts", "requirements_outcome", "search_span",
-           "stability_phrase", "value_text"]
+__all__ = ["RequirementsOutcome", "headline", "outcome_from_parts", "requirements_outcome", "robust_at_nominal",
+           "robustness_phrase", "search_span", "stability_phrase", "value_text"]
 
 NO_STEP_FOR_POLYNOMIAL = "a typed polynomial has no step response: overshoot is judged for projects only"
 
@@ -294,9 +294,32 @@ def _joint_text(joint: JointRange) -> str:
     return joint.text(short=True).replace("∪", "U").replace("−∞", "-inf").replace("+∞", "+inf")
 
 
+def robustness_phrase(report: Report) -> str:
+    """`` for every T in [2/25, 3/25]`` when the nominal tuning value is in the robust range,
+    ``, but NOT for every T in [...]`` when it is stable but not robustly, `` (estimated)`` for a
+    sampled range; empty without tolerances, a nominal value, or when it is not stable at all."""
+    robust = getattr(report, "robust_range", None)
+    if robust is None or report.nominal is None or report.parameter not in report.values:
+        return ""
+    boxes = ", ".join(f"{q} in [{lo}, {hi}]" for q, (lo, hi) in robust.to_dict()["tolerances"].items())
+    estimated = "" if robust.to_dict()["exact"] else " (estimated)"
+    if robust.contains(report.values[report.parameter]):
+        return f" for every {boxes}{estimated}"
+    return f", but NOT for every {boxes}{estimated}" if report.nominal.stable else ""
+
+
+def robust_at_nominal(report: Report) -> bool | None:
+    """Whether the nominal tuning value is in the robust range (None without tolerances or nominal)."""
+    robust = getattr(report, "robust_range", None)
+    if robust is None or report.parameter not in report.values:
+        return None
+    return robust.contains(report.values[report.parameter])
+
+
 def headline(report: Report, outcome: RequirementsOutcome | None) -> str:
-    """One line stating stability at the nominal values AND the requirements' verdict."""
-    phrase = stability_phrase(report)
+    """One line stating stability at the nominal values (for every toleranced value, when there are
+    tolerances) AND the requirements' verdict."""
+    phrase = stability_phrase(report) + robustness_phrase(report)
     if report.nominal is not None and not report.nominal.stable and outcome is not None and outcome.verdicts:
         return phrase + requirements_phrase(outcome, report.parameter).replace(", but", ";", 1)
     return phrase + requirements_phrase(outcome, report.parameter)

@@ -96,7 +96,7 @@ def test_stale_result_is_dropped(qtbot, monkeypatch):
     monkeypatch.setattr(controller_module, "analyse_snapshot", slow_first)
     ctl, _, results = make(qtbot, d)
     ctl.analyse_now()
-    qtbot.waitUntil(lambda: len(seen) == 1)
+    qtbot.waitUntil(lambda: len(seen) == 1, timeout=30000)  # a loaded machine may start it late
     d.set_parameter(Parameter("K", 7.0, 0.0, 10.0))  # newer generation while the first still runs
     gate.set()
     assert ctl.wait_for_idle(10000)

@@ -111,3 +111,21 @@ def test_names_follow_block_edits_with_parsed_texts_cached(setup):
     assert panel.names() == ["K", "Tm"] and d.parameter_names_in_blocks() == {"K", "Tm"}
     d.update_node("P", den="s*(s+1)*(T s+1)")  # back to a text parsed before
     assert panel.names() == ["K", "T"]
+
+
+def test_a_tolerance_is_typed_kept_through_edits_and_undoable(setup):
+    from app.parameters_panel import TOLERANCE_COLUMN
+    d, stack, panel = setup
+    panel.table.item(row_of(panel, "T"), 1).setText("0.1")
+    row = row_of(panel, "T")
+    panel.table.item(row, TOLERANCE_COLUMN).setText("0.08 .. 0.12")
+    assert d.parameters["T"].tolerance == (0.08, 0.12)
+    panel.table.item(row, 3).setText("2")  # another field edited: the tolerance stays
+    assert d.parameters["T"].tolerance == (0.08, 0.12) and d.parameters["T"].maximum == 2.0
+    stack.undo()
+    stack.undo()
+    assert d.parameters["T"].tolerance is None
+    panel.table.item(row, TOLERANCE_COLUMN).setText("0.12 .. 0.08")  # inverted: the model refuses it
+    assert "E306" in panel.problem.text() and d.parameters["T"].tolerance is None
+    panel.table.item(row, TOLERANCE_COLUMN).setText("0.08 to 0.12")
+    assert "low .. high" in panel.problem.text()
