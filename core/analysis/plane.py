@@ -1,0 +1,497 @@
+"""The stability plane: two parameters x, y as axes, the rectangle divided by root counts.
+
+Method. With every other parameter at its value, the characteristic polynomial's coefficients are
+exact polynomials in (x, y). The count of right-half-plane roots can change only on the real zero
+set of
+
+* the content c(x, y) (gcd of all coefficients): the polynomial vanishes identically ("singular");
+* a0(x, y), the constant term: a real root through s = 0 ("origin");
+* an(x, y), the leading coefficient: a root to or from infinity ("infinity");
+* Delta_{n-1}(x, y) = ±Res_u(E, O) for p(s) = E(s^2) + s O(s^2): two roots summing to zero, a pair
+  on the imaginary axis where omega^2 > 0 ("crossing"); its arcs with a real pair ±a are no boundary.
+
+These are exact (flint ``fmpq_mpoly``, factored over Q). The rectangle is cut into vertical lines
+x = c at rational c (the grid's column centres). On each, every boundary factor becomes a polynomial
+in y whose real roots are isolated exactly (:func:`core.analysis.stable_range.real_values`); between
+consecutive roots the count is constant and is computed exactly by Routh counting at a rational
+point (:func:`core.analysis.routh.routh_counts`). So every grid label and every region's count is
+exact; grid points lying exactly on a boundary are labelled -1. Regions are the cells of those
+columns, joined when neighbouring (same column, or overlapping on the next column) with the same
+count; a region thinner than one column spacing can be missed (the labels are still right).
+Arcs are drawn through the exact roots, joined in order between columns, in floating point.
+On a few rational slices x = c the exact stable y-set comes from the one-parameter engine
+(:func:`core.analysis.stable_range.stable_range`), and the columns' labels there are checked
+against it.
+
+>>> from core.algebra.polynomial import mpoly_context
+>>> ctx = mpoly_context(["Ki", "Kp"]); s, Ki, Kp = ctx.gens()
+>>> plane = stability_plane(s**3 + 3*s**2 + (2 + Kp)*s + Ki, "Kp", "Ki", {},
+...                         (fmpq(0), fmpq(10)), (fmpq(0), fmpq(30)), resolution=20)
+>>> [(r.rhp, r.point) for r in plane.regions]
+[(0, {'Kp': '33/4', 'Ki': '1'}), (2, {'Kp': '1/4', 'Ki': '7'})]
+>>> plane.boundaries["crossing"]
+['-3*Kp + Ki - 6']
+"""
+from __future__ import annotations
+
+import math
+from bisect import bisect_left, bisect_right
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from itertools import pairwise
+
+import numpy as np
+from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly
+
+from core.algebra.polynomial import ParametricPolynomial, mpoly_text, to_float
+from core.analysis.routh import is_hurwitz, routh_counts
+from core.analysis.stable_range import (
+    Boundary,
+    StableRange,
+    _simplest_between,
+    real_values,
+    stable_range,
+)
+from core.errors import AnalysisError
+
+__all__ = ["KINDS", "Arc", "Plane", "PlaneSlice", "Region", "stability_plane"]
+
+KINDS = ("singular", "origin", "infinity", "crossing")
+SLICES = 5  # exact one-parameter slices reported (at xlo + k (xhi - xlo) / 6)
+OMEGA_RESIDUAL = 1e-6  # a common root of E(u) and O(u) in floating point: relative residual below this
+
+
+@dataclass(frozen=True)
+class Region:
+    """A connected part of the rectangle with ``rhp`` roots in the right half plane (exact at
+    ``point``, given as exact strings), and the share of the grid points inside it (estimated)."""
+
+    rhp: int
+    point: dict[str, str]
+    share: float
+
+    def to_dict(self) -> dict:
+        return {"rhp": self.rhp, "stable": self.rhp == 0, "point": dict(self.point), "share": self.share}
+
+
+@dataclass(frozen=True)
+class Arc:
+    """A boundary arc for drawing: float points (x, y) and, for crossings, omega at each point."""
+
+    kind: str
+    points: list[tuple[float, float]]
+    omega: list[float] | None = None
+
+    def to_dict(self) -> dict:
+        return {"kind": self.kind, "polyline": [list(p) for p in self.points], "omega": self.omega}
+
+
+@dataclass(frozen=True)
+class PlaneSlice:
+    """The exact stable y-set on the line x = ``x`` (the one-parameter engine's answer)."""
+
+    x: fmpq
+    range: StableRange
+
+    def to_dict(self) -> dict:
+        return {"x": str(self.x), "x_value": to_float(self.x), **self.range.to_dict()}
+
+
+@dataclass
+class Plane:
+    """The stability plane of parameters ``x`` and ``y`` over the rectangle ``x_range`` x ``y_range``.
+
+    ``grid[j][i]`` is the exact right-half-plane count at (x_i, y_j), the centres of a
+    resolution x resolution grid (row j = y, from the bottom), -1 on a boundary.
+    """
+
+    x: str
+    y: str
+    x_range: tuple[fmpq, fmpq]
+    y_range: tuple[fmpq, fmpq]
+    boundaries: dict[str, list[str]]
+    regions: list[Region]
+    arcs: list[Arc]
+    slices: list[PlaneSlice]
+    xs: list[float]
+    ys: list[float]
+    grid: list[list[int]]
+    nominal: dict[str, str] = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {
+            "x": self.x, "y": self.y,
+            "x_range": [str(v) for v in self.x_range], "y_range": [str(v) for v in self.y_range],
+            "nominal": dict(self.nominal),
+            "boundaries": {k: list(v) for k, v in self.boundaries.items()},
+            "regions": [r.to_dict() for r in self.regions],
+            "arcs": [a.to_dict() for a in self.arcs],
+            "slices": [s.to_dict() for s in self.slices],
+            "resolution": len(self.xs),
+            "grid_x": self.xs, "grid_y": self.ys, "grid": self.grid,
+        }
+
+
+# -- polynomials in (x, y) ------------------------------------------------------------------------
+class _Bivariate:
+    """An fmpq_mpoly in (x, y) kept also as fmpq_poly coefficients in x per power of y, so that its
+    restriction to a line x = c is a handful of evaluations."""
+
+    def __init__(self, poly: fmpq_mpoly):
+        self.poly = poly
+        by_power: dict[int, dict[int, fmpq]] = {}
+        for (ex, ey), c in poly.to_dict().items():
+            by_power.setdefault(ey, {})[ex] = c
+        top = max(by_power, default=-1)
+        self.parts = [fmpq_poly([by_power.get(j, {}).get(i, 0) for i in range(max(by_power.get(j, {0: 0})) + 1)])
+                      for j in range(top + 1)]
+
+    def at_x(self, c: fmpq) -> fmpq_poly:
+        """The polynomial in y on the line x = c."""
+        return fmpq_poly([part(c) for part in self.parts])
+
+    @property
+    def only_x(self) -> bool:
+        return len(self.parts) <= 1
+
+
+def _coefficients_in_xy(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]) -> list[fmpq_mpoly]:
+    """The coefficients (highest power of s first) as polynomials in (x, y)."""
+    names = poly.context().names()
+    missing = [n for n in names[1:] if n not in (x, y) and n not in values]
+    if missing:
+        raise AnalysisError("E404", f"parameter {', '.join(missing)} has no value; give one or make it an axis",
+                            where=f"parameter {missing[0]}")
+    fixed: dict[str | int, fmpq] = {n: fmpq(values[n]) for n in names[1:] if n not in (x, y)}
+    if fixed:
+        poly = poly.subs(fixed)
+    ctx = fmpq_mpoly_ctx.get((x, y), "lex")
+    ix, iy = (names.index(x) if x in names else None), (names.index(y) if y in names else None)
+    by_power: dict[int, dict[tuple[int, ...], fmpq]] = {}
+    for exps, c in poly.to_dict().items():
+        key = (exps[ix] if ix is not None else 0, exps[iy] if iy is not None else 0)
+        terms = by_power.setdefault(exps[0], {})
+        terms[key] = terms.get(key, 0) + c
+    degree = max(by_power, default=-1)
+    coeffs = [ctx.from_dict(by_power.get(p, {})) for p in range(degree, -1, -1)]
+    while len(coeffs) > 1 and coeffs[0].is_zero():
+        coeffs.pop(0)
+    return coeffs
+
+
+def _hurwitz_delta_xy(coeffs: list[fmpq_mpoly]) -> fmpq_mpoly:
+    """±Delta_{n-1}(x, y) as the resultant in u of the even and odd parts of p(s)."""
+    ctx2 = coeffs[0].context()
+    n = len(coeffs) - 1
+    if n < 2:
+        return ctx2.constant(1)
+    ctx3 = fmpq_mpoly_ctx.get(("u", *ctx2.names()), "lex")
+
+    def part(indices):
+        return ctx3.from_dict({(i, *e): c for i, k in enumerate(indices) for e, c in coeffs[k].to_dict().items()})
+    even = part([n - 2 * i for i in range(n // 2 + 1)])
+    odd = part([n - 1 - 2 * i for i in range((n - 1) // 2 + 1)])
+    if even.is_zero() or odd.is_zero():
+        return ctx2.constant(0)
+    res = even.resultant(odd, "u")
+    return ctx2.from_dict({e[1:]: c for e, c in res.to_dict().items()})
+
+
+def _boundary_factors(coeffs: list[fmpq_mpoly]) -> dict[str, list[fmpq_mpoly]]:
+    """The irreducible factors over Q of each kind's boundary polynomial (kinds as in KINDS; a
+    factor shared by two kinds is listed under the first)."""
+    content = coeffs[0]
+    for c in coeffs[1:]:
+        content = content.gcd(c)
+    reduced = [c / content for c in coeffs] if not content.is_zero() else coeffs
+    sources = {"singular": content, "origin": reduced[-1], "infinity": reduced[0],
+               "crossing": _hurwitz_delta_xy(reduced)}
+    seen: set[tuple] = set()
+    out: dict[str, list[fmpq_mpoly]] = {k: [] for k in KINDS}
+    for kind, p in sources.items():
+        if p.is_zero():
+            continue
+        for f, _ in p.factor()[1]:
+            key = tuple(sorted((f * (1 / f.leading_coefficient())).to_dict().items()))
+            if f.total_degree() > 0 and key not in seen:
+                seen.add(key)
+                out[kind].append(f)
+    return out
+
+
+# -- one vertical line --------------------------------------------------------------------------
+@dataclass
+class _Column:
+    """The exact picture on the line x = c: boundary y-values inside (ylo, yhi) with their kinds,
+    and the count in each open sector between them (sector i lies below root i)."""
+
+    c: fmpq
+    roots: list[Boundary]
+    kinds: list[str]
+    counts: list[int]
+    points: list[fmpq]
+
+    def sector_ends(self, ylo: float, yhi: float) -> list[tuple[float, float]]:
+        ends = [ylo, *(r.value for r in self.roots), yhi]
+        return list(pairwise(ends))
+
+
+def _column(c: fmpq, coeffs: list[_Bivariate], factors: list[tuple[str, _Bivariate]],
+            y_range: tuple[fmpq, fmpq]) -> _Column | None:
+    """The column at x = c, or None when the line lies on a boundary (a factor vanishes on it)."""
+    ylo, yhi = y_range
+    on_line = [(kind, f.at_x(c)) for kind, f in factors]
+    if any(p.is_zero() for _, p in on_line):
+        return None
+    product = fmpq_poly([1])
+    for _, p in on_line:
+        product *= p
+    roots = [b for b in (_inside(b, ylo, yhi) for b in real_values(product)) if b is not None]
+    kinds = [next(kind for kind, p in on_line if p.degree() > 0 and p % fmpq_poly(b.factor) == 0) for b in roots]
+    lows = [ylo, *(b.hi for b in roots)]
+    highs = [*(b.lo for b in roots), yhi]
+    points = [_simplest_between(lo, hi) for lo, hi in zip(lows, highs)]
+    n = len(coeffs) - 1
+    counts = [_rhp([f.at_x(c)(t) for f in coeffs], n) for t in points]
+    return _Column(c, roots, kinds, counts, points)
+
+
+def _inside(b: Boundary, lo: fmpq, hi: fmpq) -> Boundary | None:
+    """The boundary value if it lies strictly inside (lo, hi), its isolating interval narrowed
+    inside too; None otherwise."""
+    if b.sign_minus(lo) <= 0 or b.sign_minus(hi) >= 0:
+        return None
+    while not (lo < b.lo and b.hi < hi):
+        b = b.bisected()
+    return b
+
+
+def _rhp(coeffs: list[fmpq], degree: int) -> int:
+    """Exact right-half-plane count (the Hurwitz test first: it is the cheap common answer)."""
+    if is_hurwitz(coeffs, degree):
+        return 0
+    return routh_counts(coeffs).rhp
+
+
+def _sectors(column: _Column, rows: list[fmpq]) -> list[int]:
+    """The sector holding each row value on the column (exact); -1 where a row lies on a boundary."""
+    sectors = [0] * len(rows)
+    start = 0
+    for i, b in enumerate(column.roots):
+        first_in, past = bisect_left(rows, b.lo), bisect_right(rows, b.hi)
+        below = first_in + sum(1 for r in rows[first_in:past] if b.sign_minus(r) > 0)
+        sectors[start:below] = [i] * (below - start)
+        start = below
+        if below < past and b.sign_minus(rows[below]) == 0:
+            sectors[below] = -1
+            start = below + 1
+    sectors[start:] = [len(column.roots)] * (len(rows) - start)
+    return sectors
+
+
+# -- crossing frequency -------------------------------------------------------------------------
+def _omega(coeffs: list[float]) -> float | None:
+    """omega > 0 of the pair ±j omega when p (floats, highest first) has one, else None: a common
+    negative root u = -omega^2 of the even and odd parts."""
+    n = len(coeffs) - 1
+    even = np.array([coeffs[n - 2 * i] for i in range(n // 2, -1, -1)], dtype=float)
+    odd = np.array([coeffs[n - 1 - 2 * i] for i in range((n - 1) // 2, -1, -1)], dtype=float)
+    best = None
+    for a, b in ((even, odd), (odd, even)):
+        a = np.trim_zeros(a, "f")
+        if len(a) < 2:
+            continue
+        for u in np.roots(a):
+            if abs(u.imag) > 1e-7 * max(1.0, abs(u)) or u.real >= 0:
+                continue
+            size = float(np.polyval(np.abs(b), abs(u.real))) or 1.0
+            residual = abs(float(np.polyval(b, u.real))) / size
+            if best is None or residual < best[0]:
+                best = (residual, math.sqrt(-u.real))
+    return best[1] if best is not None and best[0] <= OMEGA_RESIDUAL else None
+
+
+# -- the plane ------------------------------------------------------------------------------------
+def _centres(lo: fmpq, hi: fmpq, count: int) -> list[fmpq]:
+    return [lo + (hi - lo) * fmpq(2 * i + 1, 2 * count) for i in range(count)]
+
+
+def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq],
+                    x_range: tuple[fmpq, fmpq], y_range: tuple[fmpq, fmpq], resolution: int = 100) -> Plane:
+    """The stability plane of ``poly`` (an fmpq_mpoly in s and parameters) in parameters ``x`` and
+    ``y`` over the rectangle, every other parameter at its value in ``values``; ``values`` may hold
+    x and y too (the nominal point). See the module notes for the method.
+
+    Raises E420 for an axis equal to the other, E421 for an empty or inverted range, E404 for a
+    parameter without a value, E403 for a polynomial identically zero in the plane.
+    """
+    if x == y:
+        raise AnalysisError("E420", f"the plane needs two different parameters, got '{x}' twice", where="plane")
+    for name, (lo, hi) in ((x, x_range), (y, y_range)):
+        if not lo < hi:
+            raise AnalysisError("E421", f"the range of {name} is empty: {lo} is not below {hi}",
+                                where=f"plane {name}")
+    coeffs = _coefficients_in_xy(poly, x, y, values)
+    if not coeffs or all(c.is_zero() for c in coeffs):
+        raise AnalysisError("E403", "the characteristic polynomial is identically zero", where="polynomial")
+    factors = _boundary_factors(coeffs)
+    flat = [(kind, _Bivariate(f)) for kind in KINDS for f in factors[kind]]
+    bivariate = [_Bivariate(c) for c in coeffs]
+    xs, ys = _centres(*x_range, resolution), _centres(*y_range, resolution)
+    columns = [_column(c, bivariate, flat, y_range) for c in xs]
+    sectors = [_sectors(col, ys) if col is not None else [-1] * len(ys) for col in columns]
+    grid_columns = [[col.counts[k] if k >= 0 else -1 for k in secs] if col is not None else secs
+                    for col, secs in zip(columns, sectors)]
+    slices = _slices(coeffs, x, y, x_range, y_range, bivariate, flat)
+    floats = (to_float(y_range[0]), to_float(y_range[1]))
+    return Plane(
+        x=x, y=y, x_range=x_range, y_range=y_range,
+        boundaries={k: [mpoly_text(f) for f in factors[k]] for k in KINDS if factors[k]},
+        regions=_regions(columns, x, y, floats, sectors),
+        arcs=_arcs(columns, bivariate, flat, x_range, floats),
+        slices=slices, xs=[to_float(v) for v in xs], ys=[to_float(v) for v in ys],
+        grid=[list(row) for row in zip(*grid_columns)],
+        nominal={n: str(values[n]) for n in (x, y) if n in values})
+
+
+def _slices(coeffs, x, y, x_range, y_range, bivariate, flat) -> list[PlaneSlice]:
+    """The exact stable y-set on a few rational lines x = c, each checked against the column's
+    exact counts there (a disagreement is a bug in one of the two engines)."""
+    lo, hi = x_range
+    out = []
+    for k in range(1, SLICES + 1):
+        c = lo + (hi - lo) * fmpq(k, SLICES + 1)
+        on_line = ParametricPolynomial(tuple(f.at_x(c) for f in bivariate), y)
+        if on_line.degree < 0:
+            continue
+        rng = stable_range(on_line)
+        column = _column(c, bivariate, flat, y_range)
+        if column is not None:
+            for t, count in zip(column.points, column.counts):
+                if _stable_at(rng, t) != (count == 0):
+                    raise RuntimeError(f"plane: slice {x} = {c} disagrees with the stable range at {y} = {t}")
+        out.append(PlaneSlice(c, rng))
+    return out
+
+
+def _stable_at(rng: StableRange, t: fmpq) -> bool:
+    """Exact membership of a rational in the stable set."""
+    return any((lo is None or lo.sign_minus(t) < 0) and (hi is None or hi.sign_minus(t) > 0)
+               for lo, hi in rng.intervals)
+
+
+def _regions(columns: list[_Column | None], x: str, y: str, y_floats: tuple[float, float],
+             sectors: list[list[int]]) -> list[Region]:
+    """Cells of the columns joined into regions of one count (union-find)."""
+    cells: list[tuple[int, int]] = []  # (column index, sector index)
+    index: dict[tuple[int, int], int] = {}
+    for i, col in enumerate(columns):
+        if col is not None:
+            for k in range(len(col.counts)):
+                index[(i, k)] = len(cells)
+                cells.append((i, k))
+    parent = list(range(len(cells)))
+
+    def find(a: int) -> int:
+        while parent[a] != a:
+            parent[a] = parent[parent[a]]
+            a = parent[a]
+        return a
+
+    def join(a: int, b: int) -> None:
+        parent[find(a)] = find(b)
+
+    for i, col in enumerate(columns):
+        if col is None:
+            continue
+        for k in range(1, len(col.counts)):
+            if col.counts[k] == col.counts[k - 1]:
+                join(index[(i, k)], index[(i, k - 1)])
+        nxt = columns[i + 1] if i + 1 < len(columns) else None
+        if nxt is None:
+            continue
+        mine, theirs = col.sector_ends(*y_floats), nxt.sector_ends(*y_floats)
+        for k, (a, b) in enumerate(mine):
+            for m, (c, d) in enumerate(theirs):
+                if col.counts[k] == nxt.counts[m] and max(a, c) < min(b, d):
+                    join(index[(i, k)], index[(i + 1, m)])
+    members: dict[int, list[int]] = {}
+    for cell in range(len(cells)):
+        members.setdefault(find(cell), []).append(cell)
+    per_cell: dict[tuple[int, int], int] = {}
+    for i, secs in enumerate(sectors):
+        for k in secs:
+            per_cell[(i, k)] = per_cell.get((i, k), 0) + 1
+    total = sum(len(secs) for secs in sectors) or 1
+    regions = []
+    for group in members.values():
+        i, k = _widest(group, cells, columns, y_floats)
+        col = columns[i]
+        assert col is not None
+        share = sum(per_cell.get(cells[g], 0) for g in group) / total
+        regions.append(Region(col.counts[k], {x: str(col.c), y: str(col.points[k])}, share))
+    regions.sort(key=lambda r: (r.rhp, -r.share))
+    return regions
+
+
+def _widest(group: list[int], cells, columns, y_floats) -> tuple[int, int]:
+    """The cell of a region whose sector is widest (its exact point lies well inside)."""
+    def width(cell):
+        i, k = cells[cell]
+        a, b = columns[i].sector_ends(*y_floats)[k]
+        return b - a
+    return cells[max(group, key=width)]
+
+
+
+def _arcs(columns, bivariate, flat, x_range, y_floats) -> list[Arc]:
+    """Polylines through the exact boundary points of consecutive columns, by kind, joined in order
+    when two neighbouring columns hold as many points of that kind; crossings only where the pair
+    lies on the axis (omega^2 > 0). Vertical lines for factors in x alone."""
+    arcs: list[Arc] = []
+    open_arcs: dict[str, list[tuple[list, list]]] = {}
+    for col in columns:
+        if col is None:
+            arcs += _close(open_arcs)
+            continue
+        xf = to_float(col.c)
+        here: dict[str, list[tuple[float, float | None]]] = {}
+        for b, kind in zip(col.roots, col.kinds):
+            omega = None
+            if kind == "crossing":
+                near = (b.lo + b.hi) / 2
+                omega = _omega([to_float(f.at_x(col.c)(near)) for f in bivariate])
+                if omega is None:
+                    continue
+            here.setdefault(kind, []).append((b.value, omega))
+        for kind in set(open_arcs) | set(here):
+            points = here.get(kind, [])
+            current = open_arcs.get(kind, [])
+            if len(current) != len(points):
+                arcs += _close({kind: current})
+                current = [([], []) for _ in points]
+            for (pts, oms), (yv, om) in zip(current, points):
+                pts.append((xf, yv))
+                oms.append(om)
+            open_arcs[kind] = current
+    arcs += _close(open_arcs)
+    for kind, f in flat:
+        if f.only_x and not f.poly.is_zero():
+            for b in _x_roots(f, x_range):
+                arcs.append(Arc(kind, [(b.value, y_floats[0]), (b.value, y_floats[1])]))
+    return arcs
+
+
+def _close(open_arcs: dict[str, list[tuple[list, list]]]) -> list[Arc]:
+    out = []
+    for kind, current in open_arcs.items():
+        for pts, oms in current:
+            if len(pts) >= 2:
+                out.append(Arc(kind, list(pts), list(oms) if kind == "crossing" else None))
+    open_arcs.clear()
+    return out
+
+
+def _x_roots(f: _Bivariate, x_range: tuple[fmpq, fmpq]) -> list[Boundary]:
+    lo, hi = x_range
+    return [b for b in (_inside(b, lo, hi) for b in real_values(f.parts[0])) if b is not None]
