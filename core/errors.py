@@ -54,6 +54,9 @@ CATALOGUE: dict[str, str] = {
     "E406": "input does not reach the output",
     "E407": "transfer function improper: no step response",
     "E408": "a block's denominator is zero at the nominal values",
+    "E420": "stability plane: the same parameter on both axes",
+    "E421": "stability plane: an axis range is empty or inverted",
+    "E422": "stability plane: an axis is not a parameter",
     # command line
     "E501": "command-line arguments invalid",
 }

@@ -30,7 +30,7 @@ against it.
 >>> [(r.rhp, r.point) for r in plane.regions]
 [(0, {'Kp': '33/4', 'Ki': '1'}), (2, {'Kp': '1/4', 'Ki': '7'})]
 >>> plane.boundaries["crossing"]
-['-3*Kp + Ki - 6']
+['3*Kp - Ki + 6']
 """
 from __future__ import annotations
 
@@ -43,7 +43,7 @@ from itertools import pairwise
 import numpy as np
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly
 
-from core.algebra.polynomial import ParametricPolynomial, mpoly_text, to_float
+from core.algebra.polynomial import ParametricPolynomial, mpoly_text, primitive_scale, to_float
 from core.analysis.routh import is_hurwitz, routh_counts
 from core.analysis.stable_range import (
     Boundary,
@@ -212,7 +212,9 @@ def _boundary_factors(coeffs: list[fmpq_mpoly]) -> dict[str, list[fmpq_mpoly]]:
         if p.is_zero():
             continue
         for f, _ in p.factor()[1]:
-            key = tuple(sorted((f * (1 / f.leading_coefficient())).to_dict().items()))
+            f = f / f.leading_coefficient()
+            f = f * primitive_scale(f)  # coprime integers, positive leading term: one form per factor
+            key = tuple(sorted(f.to_dict().items()))
             if f.total_degree() > 0 and key not in seen:
                 seen.add(key)
                 out[kind].append(f)
