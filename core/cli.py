@@ -196,7 +196,7 @@ def run(args) -> int:
     if args.poly is not None:
         requirements = _requirements(args, Requirements())
         mode, value = decay or ("sigma", 0.0)
-        values, notes = plane_option.values_inside(axes, at) if axes is not None else (at, [])
+        values, notes = plane_option.values_for_polynomial(args.poly, axes, at) if axes is not None else (at, [])
         report = check_polynomial(args.poly, parameter=args.param, at=values, decay=value, decay_mode=mode)
         report.warnings += notes
         outcome = requirements_outcome(report, requirements, span=search_span(report))

@@ -71,9 +71,16 @@ def _checked_range(name: str, lo: fmpq, hi: fmpq) -> tuple[fmpq, fmpq]:
     return lo, hi
 
 
-def values_inside(axes: PlaneAxes, at: Mapping[str, object]) -> tuple[dict[str, object], list[str]]:
+def values_for_polynomial(text: str, axes: PlaneAxes, at: Mapping[str, object]) -> tuple[dict[str, object], list[str]]:
     """``at`` with a value for each axis that has none (the simplest rational inside its range),
-    and a note for each value so chosen."""
+    and a note for each value so chosen; E422 for an axis that is not a parameter of the polynomial."""
+    from core.algebra.expression import expression_parameters
+
+    names = sorted(expression_parameters(text))
+    for name in (axes.x, axes.y):
+        if name not in names:
+            raise AnalysisError("E422", f"'{name[:40]}' is not a parameter of the polynomial "
+                                f"(it has {', '.join(names) or 'none'})", where=f"{WHERE} {name[:40]}")
     values = dict(at)
     notes = []
     for name, rng in ((axes.x, axes.x_range), (axes.y, axes.y_range)):
@@ -85,15 +92,11 @@ def values_inside(axes: PlaneAxes, at: Mapping[str, object]) -> tuple[dict[str, 
 
 
 def plane_of_polynomial(text: str, axes: PlaneAxes, values: Mapping[str, fmpq]) -> Plane:
-    """The plane of a typed characteristic polynomial (E422 for an axis not in it)."""
+    """The plane of a typed characteristic polynomial (axes checked by :func:`values_for_polynomial`)."""
     from core.algebra.expression import expression_parameters, parse_polynomial, to_mpoly
     from core.algebra.polynomial import mpoly_context
 
     names = sorted(expression_parameters(text))
-    for name in (axes.x, axes.y):
-        if name not in names:
-            raise AnalysisError("E422", f"'{name[:40]}' is not a parameter of the polynomial "
-                                f"(it has {', '.join(names) or 'none'})", where=f"{WHERE} {name[:40]}")
     poly = to_mpoly(parse_polynomial(text, where="polynomial", declared=set(values) | {axes.x, axes.y}),
                     mpoly_context(names))
     assert axes.x_range is not None and axes.y_range is not None  # read with need_ranges=True
