@@ -265,3 +265,23 @@ def test_command_line_text_and_project_ranges_from_the_table(capsys):
     text = capsys.readouterr().out
     assert "Stability plane: Ka from 0 to 20, Kr from 1/20 to 1" in text
     assert text.index("Stability plane") < text.index("Caution:")
+
+
+def test_bench_row_input_is_the_pi_loop():
+    # numpy.polymul/polyadd as the outside reference for s D(s) + (Kp s + Ki) N(s) at Kp = 2, Ki = 3
+    from bench import generators, plane_row
+
+    loop = generators.loop_polynomial(5)
+    den = np.array([float(c) for c in loop.at(0)])
+    num = np.array([float(c) for c in loop.at(1)]) - den
+    num = np.trim_zeros(num, "f")
+    expected = np.polyadd(np.polymul([1, 0], den), np.polymul([2, 3], num))
+    s_poly = plane_row.pi_loop().subs({"Kp": fmpq(2), "Ki": fmpq(3)})
+    got = [float(s_poly.to_dict().get((k, 0, 0), 0)) for k in range(6, -1, -1)]
+    assert np.allclose(got, expected)
+    small = stability_plane(plane_row.pi_loop(), "Kp", "Ki", {}, *plane_row.RANGES, resolution=6)
+    (xlo, xhi), (ylo, yhi) = (tuple(Fraction(str(v)) for v in r) for r in plane_row.RANGES)
+    for j, ki in enumerate(centres(ylo, yhi, 6)):
+        for i, kp in enumerate(centres(xlo, xhi, 6)):
+            coeffs = np.polyadd(np.polymul([1, 0], den), np.polymul([float(kp), float(ki)], num))
+            assert numpy_rhp(coeffs) in (None, small.grid[j][i])  # numpy.roots reference

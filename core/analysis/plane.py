@@ -269,10 +269,34 @@ def _inside(b: Boundary, lo: fmpq, hi: fmpq) -> Boundary | None:
 
 
 def _rhp(coeffs: list[fmpq], degree: int) -> int:
-    """Exact right-half-plane count (the Hurwitz test first: it is the cheap common answer)."""
+    """Exact right-half-plane count: the Hurwitz test first (the cheap common answer), then the
+    sign changes of a Routh first column proven nonzero in ball arithmetic, else full counting."""
     if is_hurwitz(coeffs, degree):
         return 0
-    return routh_counts(coeffs).rhp
+    changes = _routh_sign_changes_by_balls(coeffs)
+    return changes if changes is not None else routh_counts(coeffs).rhp
+
+
+def _routh_sign_changes_by_balls(coeffs: list[fmpq]) -> int | None:
+    """Sign changes in the first column of the plain Routh array, each entry an arb ball holding
+    the exact value, or None when some ball contains 0 (a zero or too little precision). With no
+    zero in the first column the count of sign changes is the number of right-half-plane roots
+    (Routh 1877), so this is exact as a decision."""
+    from flint import arb, arb_poly, ctx
+
+    with ctx.workprec(256):
+        above = arb_poly([arb(c) for c in coeffs[0::2]])
+        prev = arb_poly([arb(c) for c in coeffs[1::2]])
+        firsts = [above[0], prev[0]]
+        for _ in range(2, len(coeffs)):
+            if firsts[-1].contains(0):
+                return None
+            new = above.right_shift(1) - prev.right_shift(1) * (above[0] / prev[0])
+            firsts.append(new[0])
+            above, prev = prev, new
+        if any(f.contains(0) for f in firsts):
+            return None
+        return sum(1 for a, b in pairwise(firsts) if (a > 0) != (b > 0))
 
 
 def _sectors(column: _Column, rows: list[fmpq]) -> list[int]:
@@ -293,23 +317,30 @@ def _sectors(column: _Column, rows: list[fmpq]) -> list[int]:
 
 # -- crossing frequency -------------------------------------------------------------------------
 def _omega(coeffs: list[float]) -> float | None:
-    """omega > 0 of the pair ±j omega when p (floats, highest first) has one, else None: a common
-    negative root u = -omega^2 of the even and odd parts."""
+    """omega > 0 of the pair ±j omega when p (floats, highest first) has one, else None: a negative
+    root u = -omega^2 of the lower-degree one of the even and odd parts E(u), O(u) where the other
+    part nearly vanishes too (relative to the size of its terms)."""
     n = len(coeffs) - 1
-    even = np.array([coeffs[n - 2 * i] for i in range(n // 2, -1, -1)], dtype=float)
-    odd = np.array([coeffs[n - 1 - 2 * i] for i in range((n - 1) // 2, -1, -1)], dtype=float)
+    even = [coeffs[n - 2 * i] for i in range(n // 2, -1, -1)]  # highest power of u first
+    odd = [coeffs[n - 1 - 2 * i] for i in range((n - 1) // 2, -1, -1)]
+    while even and even[0] == 0:
+        even.pop(0)
+    while odd and odd[0] == 0:
+        odd.pop(0)
+    if len(even) < 2 or len(odd) < 2:
+        return None
+    roots_of, other = (even, odd) if len(even) <= len(odd) else (odd, even)
     best = None
-    for a, b in ((even, odd), (odd, even)):
-        a = np.trim_zeros(a, "f")
-        if len(a) < 2:
+    for u in np.roots(roots_of):
+        if abs(u.imag) > 1e-7 * max(1.0, abs(u)) or u.real >= 0:
             continue
-        for u in np.roots(a):
-            if abs(u.imag) > 1e-7 * max(1.0, abs(u)) or u.real >= 0:
-                continue
-            size = float(np.polyval(np.abs(b), abs(u.real))) or 1.0
-            residual = abs(float(np.polyval(b, u.real))) / size
-            if best is None or residual < best[0]:
-                best = (residual, math.sqrt(-u.real))
+        value = size = 0.0
+        for c in other:
+            value = value * u.real + c
+            size = size * -u.real + abs(c)
+        residual = abs(value) / size if size else math.inf
+        if best is None or residual < best[0]:
+            best = (residual, math.sqrt(-u.real))
     return best[1] if best is not None and best[0] <= OMEGA_RESIDUAL else None
 
 

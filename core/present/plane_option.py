@@ -51,7 +51,7 @@ def read_plane_option(text: str, need_ranges: bool, read_value: Callable[[str, s
     x, xlo, xhi, y, ylo, yhi = match.groups()
     if x == y:
         raise AnalysisError("E420", f"the plane needs two different parameters, got '{x[:40]}' twice", where=WHERE)
-    ranges = []
+    ranges: list[tuple[fmpq, fmpq] | None] = []
     for name, lo, hi in ((x, xlo, xhi), (y, ylo, yhi)):
         if lo is None:
             if need_ranges:
