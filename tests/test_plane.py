@@ -285,3 +285,17 @@ def test_bench_row_input_is_the_pi_loop():
         for i, kp in enumerate(centres(xlo, xhi, 6)):
             coeffs = np.polyadd(np.polymul([1, 0], den), np.polymul([float(kp), float(ki)], num))
             assert numpy_rhp(coeffs) in (None, small.grid[j][i])  # numpy.roots reference
+
+
+def test_slices_avoid_lines_where_the_order_drops():
+    """Kp s + Ki: one root -Ki/Kp, in the left half plane iff Ki/Kp > 0 (elementary); at Kp = 0
+    the order drops all along the line, so no slice is put there."""
+    s, Ki, Kp = mpoly_context(["Ki", "Kp"]).gens()
+    plane = stability_plane(Kp * s + Ki, "Kp", "Ki", {}, (fmpq(-1), fmpq(1)), (fmpq(-1), fmpq(1)), 10)
+    assert len(plane.slices) == 5
+    for piece in plane.slices:
+        kp = Fraction(str(piece.x))
+        assert kp != 0
+        expected = [[0.0, None]] if kp > 0 else [[None, 0.0]]
+        assert piece.range.to_dict()["intervals"] == expected
+    assert sorted(r.rhp for r in plane.regions) == [0, 0, 1, 1]  # four quadrants

@@ -375,7 +375,7 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
     sectors = [_sectors(col, ys) if col is not None else [-1] * len(ys) for col in columns]
     grid_columns = [[col.counts[k] if k >= 0 else -1 for k in secs] if col is not None else secs
                     for col, secs in zip(columns, sectors)]
-    slices = _slices(coeffs, x, y, x_range, y_range, bivariate, flat)
+    slices = _slices(x, y, x_range, y_range, bivariate, flat)
     floats = (to_float(y_range[0]), to_float(y_range[1]))
     return Plane(
         x=x, y=y, x_range=x_range, y_range=y_range,
@@ -387,22 +387,23 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
         nominal={n: str(values[n]) for n in (x, y) if n in values})
 
 
-def _slices(coeffs, x, y, x_range, y_range, bivariate, flat) -> list[PlaneSlice]:
+def _slices(x, y, x_range, y_range, bivariate, flat) -> list[PlaneSlice]:
     """The exact stable y-set on a few rational lines x = c, each checked against the column's
-    exact counts there (a disagreement is a bug in one of the two engines)."""
+    exact counts there (a disagreement is a bug in one of the two engines). A line lying on a
+    boundary (the order drops all along it, or a factor vanishes on it) is moved a little right."""
     lo, hi = x_range
+    step = (hi - lo) / (SLICES + 1)
     out = []
     for k in range(1, SLICES + 1):
-        c = lo + (hi - lo) * fmpq(k, SLICES + 1)
-        on_line = ParametricPolynomial(tuple(f.at_x(c) for f in bivariate), y)
-        if on_line.degree < 0:
-            continue
-        rng = stable_range(on_line)
+        c = lo + step * k
         column = _column(c, bivariate, flat, y_range)
-        if column is not None:
-            for t, count in zip(column.points, column.counts):
-                if _stable_at(rng, t) != (count == 0):
-                    raise RuntimeError(f"plane: slice {x} = {c} disagrees with the stable range at {y} = {t}")
+        while column is None:
+            c = _simplest_between(c, c + step / 4)
+            column = _column(c, bivariate, flat, y_range)
+        rng = stable_range(ParametricPolynomial(tuple(f.at_x(c) for f in bivariate), y))
+        for t, count in zip(column.points, column.counts):
+            if _stable_at(rng, t) != (count == 0):
+                raise RuntimeError(f"plane: slice {x} = {c} disagrees with the stable range at {y} = {t}")
         out.append(PlaneSlice(c, rng))
     return out
 
@@ -476,7 +477,6 @@ def _widest(group: list[int], cells, columns, y_floats) -> tuple[int, int]:
     return cells[max(group, key=width)]
 
 
-
 def _arcs(columns, bivariate, flat, x_range, y_floats) -> list[Arc]:
     """Polylines through the exact boundary points of consecutive columns, by kind, joined in order
     when two neighbouring columns hold as many points of that kind; crossings only where the pair
@@ -526,5 +526,6 @@ def _close(open_arcs: dict[str, list[tuple[list, list]]]) -> list[Arc]:
 
 
 def _x_roots(f: _Bivariate, x_range: tuple[fmpq, fmpq]) -> list[Boundary]:
+    """The real roots inside the x range of a factor in x alone."""
     lo, hi = x_range
     return [b for b in (_inside(b, lo, hi) for b in real_values(f.parts[0])) if b is not None]

@@ -72,8 +72,8 @@ def _checked_range(name: str, lo: fmpq, hi: fmpq) -> tuple[fmpq, fmpq]:
 
 
 def values_for_polynomial(text: str, axes: PlaneAxes, at: Mapping[str, object]) -> tuple[dict[str, object], list[str]]:
-    """``at`` with a value for each axis that has none (the simplest rational inside its range),
-    and a note for each value so chosen; E422 for an axis that is not a parameter of the polynomial."""
+    """``at`` with a value for each axis that has none (the simplest rational in the upper half of
+    its range: 0, often a degenerate gain, only when nothing simpler lies there), and a note for each value so chosen; E422 for an axis that is not a parameter of the polynomial."""
     from core.algebra.expression import expression_parameters
 
     names = sorted(expression_parameters(text))
@@ -85,7 +85,7 @@ def values_for_polynomial(text: str, axes: PlaneAxes, at: Mapping[str, object]) 
     notes = []
     for name, rng in ((axes.x, axes.x_range), (axes.y, axes.y_range)):
         if name not in values and rng is not None:
-            values[name] = _simplest_between(*rng)
+            values[name] = _simplest_between((rng[0] + rng[1]) / 2, rng[1])
             notes.append(f"{name} = {values[name]} taken for the report (inside the plane's range); "
                          f"give --at {name}=VALUE to choose")
     return values, notes

@@ -28,7 +28,7 @@ def plane_lines(plane: Plane, width: int = 80) -> list[str]:
     """Axes, boundary polynomials, regions (count and an exact point) and the exact slices (their
     ends in twelve digits here; exact in the JSON report)."""
     d = plane.to_dict()
-    (xlo, xhi), (ylo, yhi) = d["x_range"], d["y_range"]
+    (xlo, xhi), (ylo, yhi) = (abbreviate(v, 30) for v in d["x_range"]), (abbreviate(v, 30) for v in d["y_range"])
     out = [f"Stability plane: {plane.x} from {xlo} to {xhi}, {plane.y} from {ylo} to {yhi} "
            f"(counts exact, {d['resolution']} x {d['resolution']} grid)"]
     for kind, polys in d["boundaries"].items():
@@ -36,11 +36,11 @@ def plane_lines(plane: Plane, width: int = 80) -> list[str]:
             out.append(f"  boundary, {KIND_WORDS[kind]}: {abbreviate(poly, width)} = 0")
     for i, region in enumerate(d["regions"], start=1):
         what = "STABLE" if region["stable"] else f"{region['rhp']} root{'s' if region['rhp'] != 1 else ''} in the right half plane"
-        at = ", ".join(f"{name} = {value}" for name, value in region["point"].items())
+        at = ", ".join(f"{name} = {abbreviate(value, 30)}" for name, value in region["point"].items())
         out.append(f"  region {i}: {what}, e.g. at {at} (about {100 * region['share']:.0f} % of the grid)")
     for piece in d["slices"]:
         ivs = " U ".join(f"({lo or '-inf'}, {hi or '+inf'})" for lo, hi in piece["approx_intervals"])
-        out.append(f"  at {plane.x} = {piece['x']}: stable for {plane.y} in {ivs or 'no value'} (exact)")
+        out.append(f"  at {plane.x} = {abbreviate(piece['x'], 30)}: stable for {plane.y} in {ivs or 'no value'} (exact)")
     return out
 
 
