@@ -299,3 +299,20 @@ def test_slices_avoid_lines_where_the_order_drops():
         expected = [[0.0, None]] if kp > 0 else [[None, 0.0]]
         assert piece.range.to_dict()["intervals"] == expected
     assert sorted(r.rhp for r in plane.regions) == [0, 0, 1, 1]  # four quadrants
+
+
+def test_a_region_thinner_than_the_grid_is_still_found():
+    """s^2 + s + (x - 1/2)^2 + y^2 - 1/10^4: one root in the right half plane exactly inside the
+    disc of radius 1/100 about (1/2, 0) (the constant term negative: Descartes' rule of signs),
+    far thinner than the 4 x 4 grid's columns."""
+    s, x, y = mpoly_context(["x", "y"]).gens()
+    plane = stability_plane(s**2 + s + (x - fmpq(1, 2))**2 + y**2 - fmpq(1, 10**4), "x", "y", {},
+                            (fmpq(0), fmpq(1)), (fmpq(-1), fmpq(1)), 4)
+    assert plane.regions_complete
+    assert all(label == 0 for row in plane.grid for label in row)  # the grid misses the disc
+    inside = [r for r in plane.regions if r.rhp == 1]
+    assert len(inside) == 1
+    px, py = Fraction(inside[0].point["x"]), Fraction(inside[0].point["y"])
+    assert (px - Fraction(1, 2)) ** 2 + py ** 2 < Fraction(1, 10**4)
+    constant = float((px - Fraction(1, 2)) ** 2 + py ** 2 - Fraction(1, 10**4))
+    assert int(np.sum(np.roots([1, 1, constant]).real > 0)) == 1  # numpy.roots reference

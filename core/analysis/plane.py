@@ -17,7 +17,11 @@ consecutive roots the count is constant and is computed exactly by Routh countin
 point (:func:`core.analysis.routh.routh_counts`). So every grid label and every region's count is
 exact; grid points lying exactly on a boundary are labelled -1. Regions are the cells of those
 columns, joined when neighbouring (same column, or overlapping on the next column) with the same
-count; a region thinner than one column spacing can be missed (the labels are still right).
+count. Extra columns go between the critical values of x (roots of the factors' leading
+coefficients, discriminants and pairwise resultants in y, and their values on the lower and upper
+edges), one in every gap that holds no grid column, so every cell of that decomposition, hence
+every region, is sampled (``regions_complete``); when those polynomials would be too large a
+region thinner than one column spacing can be missed, never mislabelled.
 Arcs are drawn through the exact roots, joined in order between columns, in floating point.
 On a few rational slices x = c the exact stable y-set comes from the one-parameter engine
 (:func:`core.analysis.stable_range.stable_range`), and the columns' labels there are checked
@@ -58,6 +62,7 @@ __all__ = ["KINDS", "Arc", "Plane", "PlaneSlice", "Region", "stability_plane"]
 
 KINDS = ("singular", "origin", "infinity", "crossing")
 SLICES = 5  # exact one-parameter slices reported (at xlo + k (xhi - xlo) / 6)
+CRITICAL_DEGREE = 64  # critical values of x are computed while their polynomials stay this small
 OMEGA_RESIDUAL = 1e-6  # a common root of E(u) and O(u) in floating point: relative residual below this
 
 
@@ -117,6 +122,7 @@ class Plane:
     ys: list[float]
     grid: list[list[int]]
     nominal: dict[str, str] = field(default_factory=dict)
+    regions_complete: bool = False
 
     def to_dict(self) -> dict:
         return {
@@ -125,6 +131,7 @@ class Plane:
             "nominal": dict(self.nominal),
             "boundaries": {k: list(v) for k, v in self.boundaries.items()},
             "regions": [r.to_dict() for r in self.regions],
+            "regions_complete": self.regions_complete,
             "arcs": [a.to_dict() for a in self.arcs],
             "slices": [s.to_dict() for s in self.slices],
             "resolution": len(self.xs),
@@ -315,6 +322,60 @@ def _sectors(column: _Column, rows: list[fmpq]) -> list[int]:
     return sectors
 
 
+# -- critical values of x ---------------------------------------------------------------------------
+def _critical_polynomials(flat: list[tuple[str, _Bivariate]], y_range: tuple[fmpq, fmpq]) -> list[fmpq_poly] | None:
+    """Polynomials in x whose real roots hold every x where the boundary's picture over a vertical
+    line can change: factors in x alone, leading coefficients in y, discriminants in y, pairwise
+    resultants in y and the values on the rectangle's lower and upper edges. None when one would
+    be of degree above CRITICAL_DEGREE (too costly to compute)."""
+    ylo, yhi = y_range
+    y = flat[0][1].poly.context().names()[1] if flat else "y"
+    curves = [f for _, f in flat if not f.only_x]
+    out = [f.parts[0] for _, f in flat if f.only_x]
+
+    def degree_x(f: _Bivariate) -> int:
+        return max(part.degree() for part in f.parts)
+    for i, f in enumerate(curves):
+        dy, dx = len(f.parts) - 1, degree_x(f)
+        if (2 * dy - 1) * dx > CRITICAL_DEGREE:
+            return None
+        out += [f.parts[-1], _on_edge(f, ylo), _on_edge(f, yhi)]
+        if dy > 1:
+            out.append(_Bivariate(f.poly.discriminant(y)).parts[0])
+        for g in curves[i + 1:]:
+            if dy * degree_x(g) + (len(g.parts) - 1) * dx > CRITICAL_DEGREE:
+                return None
+            out.append(_Bivariate(f.poly.resultant(g.poly, y)).parts[0])
+    return [p for p in out if not p.is_zero()]
+
+
+def _on_edge(f: _Bivariate, v: fmpq) -> fmpq_poly:
+    """f(x, v) as a polynomial in x."""
+    out = fmpq_poly([])
+    for j, part in enumerate(f.parts):
+        out += part * v ** j
+    return out
+
+
+def _between_critical_values(flat, xs: list[fmpq], x_range: tuple[fmpq, fmpq],
+                             y_range: tuple[fmpq, fmpq]) -> list[fmpq] | None:
+    """A rational in every open interval between consecutive critical values of x that holds no
+    grid column, so every cell of the decomposition, hence every region, has a sample column; None
+    when the critical values are too costly (regions thinner than a column may then be missed)."""
+    polys = _critical_polynomials(flat, y_range)
+    if polys is None:
+        return None
+    product = fmpq_poly([1])
+    for p in polys:
+        product *= p
+    lo, hi = x_range
+    critical = [b for b in (_inside(b, lo, hi) for b in real_values(product)) if b is not None]
+    lefts = [lo, *(b.hi for b in critical)]  # the open gaps, shrunk to rational ends
+    rights = [*(b.lo for b in critical), hi]
+    return [_simplest_between(left, right) for left, right in zip(lefts, rights)
+            if not any(left < c < right for c in xs)]
+
+
 # -- crossing frequency -------------------------------------------------------------------------
 def _omega(coeffs: list[float]) -> float | None:
     """omega > 0 of the pair ±j omega when p (floats, highest first) has one, else None: a negative
@@ -373,6 +434,9 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
     xs, ys = _centres(*x_range, resolution), _centres(*y_range, resolution)
     columns = [_column(c, bivariate, flat, y_range) for c in xs]
     sectors = [_sectors(col, ys) if col is not None else [-1] * len(ys) for col in columns]
+    extra = _between_critical_values(flat, xs, x_range, y_range)
+    samples = sorted([(c, col, secs) for c, col, secs in zip(xs, columns, sectors)] +
+                     [(c, _column(c, bivariate, flat, y_range), None) for c in extra or []], key=lambda s: s[0])
     grid_columns = [[col.counts[k] if k >= 0 else -1 for k in secs] if col is not None else secs
                     for col, secs in zip(columns, sectors)]
     slices = _slices(x, y, x_range, y_range, bivariate, flat)
@@ -380,7 +444,7 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
     return Plane(
         x=x, y=y, x_range=x_range, y_range=y_range,
         boundaries={k: [mpoly_text(f) for f in factors[k]] for k in KINDS if factors[k]},
-        regions=_regions(columns, x, y, floats, sectors),
+        regions=_regions([(col, secs) for _, col, secs in samples], x, y, floats), regions_complete=extra is not None,
         arcs=_arcs(columns, bivariate, flat, x_range, floats),
         slices=slices, xs=[to_float(v) for v in xs], ys=[to_float(v) for v in ys],
         grid=[list(row) for row in zip(*grid_columns)],
@@ -414,9 +478,11 @@ def _stable_at(rng: StableRange, t: fmpq) -> bool:
                for lo, hi in rng.intervals)
 
 
-def _regions(columns: list[_Column | None], x: str, y: str, y_floats: tuple[float, float],
-             sectors: list[list[int]]) -> list[Region]:
-    """Cells of the columns joined into regions of one count (union-find)."""
+def _regions(samples: list[tuple[_Column | None, list[int] | None]], x: str, y: str,
+             y_floats: tuple[float, float]) -> list[Region]:
+    """Cells of the columns (in increasing x; each with the grid rows' sectors, or None for a
+    column off the grid) joined into regions of one count (union-find)."""
+    columns = [col for col, _ in samples]
     cells: list[tuple[int, int]] = []  # (column index, sector index)
     index: dict[tuple[int, int], int] = {}
     for i, col in enumerate(columns):
@@ -453,10 +519,10 @@ def _regions(columns: list[_Column | None], x: str, y: str, y_floats: tuple[floa
     for cell in range(len(cells)):
         members.setdefault(find(cell), []).append(cell)
     per_cell: dict[tuple[int, int], int] = {}
-    for i, secs in enumerate(sectors):
-        for k in secs:
+    for i, (_, secs) in enumerate(samples):
+        for k in secs or []:
             per_cell[(i, k)] = per_cell.get((i, k), 0) + 1
-    total = sum(len(secs) for secs in sectors) or 1
+    total = sum(len(secs) for _, secs in samples if secs is not None) or 1
     regions = []
     for group in members.values():
         i, k = _widest(group, cells, columns, y_floats)
