@@ -58,7 +58,7 @@ from core.analysis.stable_range import (
 )
 from core.errors import AnalysisError
 
-__all__ = ["KINDS", "Arc", "Plane", "PlaneSlice", "Region", "stability_plane"]
+__all__ = ["KINDS", "Arc", "Plane", "PlaneSlice", "Region", "short_text", "stability_plane"]
 
 KINDS = ("singular", "origin", "infinity", "crossing")
 SLICES = 5  # exact one-parameter slices reported (at xlo + k (xhi - xlo) / 6)
@@ -137,6 +137,16 @@ class Plane:
             "resolution": len(self.xs),
             "grid_x": self.xs, "grid_y": self.ys, "grid": self.grid,
         }
+
+
+def short_text(v: fmpq) -> str:
+    """A rational for a message: exact when short, else twelve digits.
+
+    >>> short_text(fmpq(1, 3)), short_text(fmpq(10) ** 40)
+    ('1/3', '1e+40')
+    """
+    text = str(v)
+    return text if len(text) <= 30 else f"{to_float(v):.12g}"
 
 
 # -- polynomials in (x, y) ------------------------------------------------------------------------
@@ -423,7 +433,7 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
         raise AnalysisError("E420", f"the plane needs two different parameters, got '{x}' twice", where="plane")
     for name, (lo, hi) in ((x, x_range), (y, y_range)):
         if not lo < hi:
-            raise AnalysisError("E421", f"the range of {name} is empty: {lo} is not below {hi}",
+            raise AnalysisError("E421", f"the range of {name} is empty: {short_text(lo)} is not below {short_text(hi)}",
                                 where=f"plane {name}")
     coeffs = _coefficients_in_xy(poly, x, y, values)
     if not coeffs or all(c.is_zero() for c in coeffs):

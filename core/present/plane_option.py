@@ -20,7 +20,7 @@ from fractions import Fraction
 
 from flint import fmpq
 
-from core.analysis.plane import Plane, stability_plane
+from core.analysis.plane import Plane, short_text, stability_plane
 from core.analysis.stable_range import _simplest_between
 from core.errors import AnalysisError, UsageError
 
@@ -66,7 +66,7 @@ def read_plane_option(text: str, need_ranges: bool, read_value: Callable[[str, s
 
 def _checked_range(name: str, lo: fmpq, hi: fmpq) -> tuple[fmpq, fmpq]:
     if not lo < hi:
-        raise AnalysisError("E421", f"the range of {name[:40]} is empty: {lo} is not below {hi}",
+        raise AnalysisError("E421", f"the range of {name[:40]} is empty: {short_text(lo)} is not below {short_text(hi)}",
                             where=f"{WHERE} {name[:40]}")
     return lo, hi
 
