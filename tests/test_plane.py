@@ -316,3 +316,18 @@ def test_a_region_thinner_than_the_grid_is_still_found():
     assert (px - Fraction(1, 2)) ** 2 + py ** 2 < Fraction(1, 10**4)
     constant = float((px - Fraction(1, 2)) ** 2 + py ** 2 - Fraction(1, 10**4))
     assert int(np.sum(np.roots([1, 1, constant]).real > 0)) == 1  # numpy.roots reference
+
+
+def test_pi_arcs_lie_on_their_boundaries(pi_plane):
+    # origin arcs on a0 = 6 Ki = 0; crossing arcs on Delta_3 = a1 a2 a3 - a3^2 - a1^2 a4 = 0
+    # (Routh-Hurwitz for degree 4, from memory)
+    for arc in pi_plane.arcs:
+        for kp, ki in arc.points:
+            a3, a4 = 8 + 6 * kp, 6 * ki
+            if arc.kind == "origin":
+                assert abs(ki) < 1e-12
+            else:
+                assert arc.kind == "crossing"
+                delta3 = 98 * a3 - a3 ** 2 - 49 * a4
+                assert abs(delta3) < 1e-9 * (98 * abs(a3) + a3 ** 2 + 49 * abs(a4))
+    assert {a.kind for a in pi_plane.arcs} == {"origin", "crossing"}

@@ -246,7 +246,7 @@ class _Column:
 
     c: fmpq
     roots: list[Boundary]
-    kinds: list[str]
+    owners: list[int]  # for each root, the index of its boundary factor (in the plane's factor list)
     counts: list[int]
     points: list[fmpq]
 
@@ -266,13 +266,14 @@ def _column(c: fmpq, coeffs: list[_Bivariate], factors: list[tuple[str, _Bivaria
     for _, p in on_line:
         product *= p
     roots = [b for b in (_inside(b, ylo, yhi) for b in real_values(product)) if b is not None]
-    kinds = [next(kind for kind, p in on_line if p.degree() > 0 and p % fmpq_poly(b.factor) == 0) for b in roots]
+    owners = [next(i for i, (_, p) in enumerate(on_line) if p.degree() > 0 and p % fmpq_poly(b.factor) == 0)
+              for b in roots]
     lows = [ylo, *(b.hi for b in roots)]
     highs = [*(b.lo for b in roots), yhi]
     points = [_simplest_between(lo, hi) for lo, hi in zip(lows, highs)]
     n = len(coeffs) - 1
     counts = [_rhp([f.at_x(c)(t) for f in coeffs], n) for t in points]
-    return _Column(c, roots, kinds, counts, points)
+    return _Column(c, roots, owners, counts, points)
 
 
 def _inside(b: Boundary, lo: fmpq, hi: fmpq) -> Boundary | None:
@@ -554,36 +555,36 @@ def _widest(group: list[int], cells, columns, y_floats) -> tuple[int, int]:
 
 
 def _arcs(columns, bivariate, flat, x_range, y_floats) -> list[Arc]:
-    """Polylines through the exact boundary points of consecutive columns, by kind, joined in order
-    when two neighbouring columns hold as many points of that kind; crossings only where the pair
-    lies on the axis (omega^2 > 0). Vertical lines for factors in x alone."""
+    """Polylines through the exact boundary points of consecutive columns, one family per boundary
+    factor, joined in order while two neighbouring columns hold as many points of it; crossings
+    only where the pair lies on the axis (omega^2 > 0). Vertical lines for factors in x alone."""
     arcs: list[Arc] = []
-    open_arcs: dict[str, list[tuple[list, list]]] = {}
+    open_arcs: dict[int, list[tuple[list, list]]] = {}
     for col in columns:
         if col is None:
-            arcs += _close(open_arcs)
+            arcs += _close(open_arcs, flat)
             continue
         xf = to_float(col.c)
-        here: dict[str, list[tuple[float, float | None]]] = {}
-        for b, kind in zip(col.roots, col.kinds):
+        here: dict[int, list[tuple[float, float | None]]] = {}
+        for b, owner in zip(col.roots, col.owners):
             omega = None
-            if kind == "crossing":
+            if flat[owner][0] == "crossing":
                 near = (b.lo + b.hi) / 2
                 omega = _omega([to_float(f.at_x(col.c)(near)) for f in bivariate])
                 if omega is None:
                     continue
-            here.setdefault(kind, []).append((b.value, omega))
-        for kind in set(open_arcs) | set(here):
-            points = here.get(kind, [])
-            current = open_arcs.get(kind, [])
+            here.setdefault(owner, []).append((b.value, omega))
+        for owner in set(open_arcs) | set(here):
+            points = here.get(owner, [])
+            current = open_arcs.get(owner, [])
             if len(current) != len(points):
-                arcs += _close({kind: current})
+                arcs += _close({owner: current}, flat)
                 current = [([], []) for _ in points]
             for (pts, oms), (yv, om) in zip(current, points):
                 pts.append((xf, yv))
                 oms.append(om)
-            open_arcs[kind] = current
-    arcs += _close(open_arcs)
+            open_arcs[owner] = current
+    arcs += _close(open_arcs, flat)
     for kind, f in flat:
         if f.only_x and not f.poly.is_zero():
             for b in _x_roots(f, x_range):
@@ -591,9 +592,11 @@ def _arcs(columns, bivariate, flat, x_range, y_floats) -> list[Arc]:
     return arcs
 
 
-def _close(open_arcs: dict[str, list[tuple[list, list]]]) -> list[Arc]:
+def _close(open_arcs: dict[int, list[tuple[list, list]]], flat) -> list[Arc]:
+    """The open polylines as arcs (those of two points or more), emptied."""
     out = []
-    for kind, current in open_arcs.items():
+    for owner, current in open_arcs.items():
+        kind = flat[owner][0]
         for pts, oms in current:
             if len(pts) >= 2:
                 out.append(Arc(kind, list(pts), list(oms) if kind == "crossing" else None))
