@@ -33,7 +33,7 @@ from app.document.commands import EditNodeCommand, SetAnalysisCommand, push
 from app.document.editing import block_text_command
 from app.theme import figure_font
 from core.algebra.expression import S, block_transfer, glued_reading, read_block, to_mpoly, typed_names
-from core.algebra.polynomial import mpoly_context, mpoly_text, to_fmpq
+from core.algebra.polynomial import decimal_text, mpoly_context, mpoly_text, to_fmpq
 from core.errors import LoopwrightError
 from core.model.diagram import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram
 
@@ -132,15 +132,13 @@ def _factor_order(pair) -> tuple:
 
 
 def _gain_text(gain: fmpq) -> str:
-    """``0.8`` for gains with a short exact decimal, else ``(1/3)``; ``(≈1e-300)`` for a long one."""
-    try:
-        short = f"{int(gain.p) / int(gain.q):.6g}"
-    except OverflowError:
-        short = "e"
+    """``0.8`` for gains with a short exact decimal, else ``(1/3)``; ``(≈1e-300)`` for a long one
+    (also beyond the float range: ``(≈1e+400)``)."""
+    short = decimal_text(gain)
     if gain.q != 1 and "e" not in short and to_fmpq(short) == gain:
         return short
     exact = str(gain) if gain.q == 1 else f"({gain})"
-    return exact if len(exact) <= 24 or short == "e" else f"(≈{short})"
+    return exact if len(exact) <= 24 else f"(≈{short})"
 
 
 class _FieldWithError(QWidget):
@@ -202,6 +200,8 @@ class Inspector(QWidget):
         self.factored = QLabel()
         self.factored.setFont(figure_font(9.5))
         self.factored.setWordWrap(True)
+        # a long run of digits cannot wrap: clip it rather than widen the dock (the tooltip holds it all)
+        self.factored.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
         self.factored.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         self.flip = QCheckBox("Drawn right to left")
         self.signs_row = QWidget()
@@ -332,9 +332,12 @@ class Inspector(QWidget):
 
     def _show_factored(self, num: str, den: str) -> None:
         try:
-            self.factored.setText(factored_text(num, den))
+            text = factored_text(num, den)
+            self.factored.setText(text)
+            self.factored.setToolTip(text)
         except LoopwrightError:
             self.factored.setText("—")
+            self.factored.setToolTip("")
 
     def _refresh_io(self) -> None:
         node = self.diagram.nodes.get(self.node_id) if self.node_id else None

@@ -1,6 +1,6 @@
 """The report an engineer hands on, as one HTML page built from one AnalysisResult.
 
-Every number is written by the same functions the panels use (``number``, ``complex_number``,
+Every number is written by the same functions the panels use (``number``, ``pole_number``,
 ``evaluate_entry``, ``how_lost``, the range panel's interval text), from the same Report, so the
 page and the panels agree. The HTML keeps to what both a browser and Qt's rich-text engine (used
 for the PDF) draw: tables with attributes, a few class selectors, ``<sup>``. Sections carry ids
@@ -21,7 +21,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from itertools import pairwise
 
-from app.panels.common import MINUS, complex_number, math_html, number
+from app.panels.common import MINUS, math_html, number, pole_number, pole_size
 from app.panels.polynomial_panel import HIDDEN_PREFIX, factored
 from app.panels.range_panel import how_lost, range_intervals_html
 from app.panels.routh_panel import entry_display, evaluate_entry, power_label
@@ -203,7 +203,7 @@ def polynomial_html(inputs: ReportInputs) -> str:
             blocks = ", ".join(mode.blocks) if mode.blocks else "the loop"
             state = "<span class='bad'>does not decay</span>" if mode.unstable else "<span class='good'>decays</span>"
             mult = f" (×{mode.pole.multiplicity})" if mode.pole.multiplicity > 1 else ""
-            lines.append(f"<li class='warn'>s = {_num(complex_number(complex(mode.pole.re, mode.pole.im)))}{mult} "
+            lines.append(f"<li class='warn'>s = {_num(pole_number(mode.pole))}{mult} "
                          f"sits in {esc(blocks)}: it cancels out of the input-to-output transfer function but "
                          f"stays in the loop; it {state}.</li>")
         out.append(f"<h3>Hidden modes</h3><ul id='hidden-modes'>{''.join(lines)}</ul>")
@@ -331,8 +331,8 @@ def poles_html(inputs: ReportInputs) -> str:
     report = inputs.result.report
     out = ["<h2 id='poles'>Poles at the nominal values</h2>"]
     if report.nominal is not None and report.nominal.poles:
-        rows = [[_num(complex_number(complex(p.re, p.im))), _num(str(p.multiplicity)),
-                 _num(number(p.damping, 4)) if p.damping is not None else "—", _num(number(p.natural_frequency, 5))]
+        rows = [[_num(pole_number(p)), _num(str(p.multiplicity)),
+                 _num(number(p.damping, 4)) if p.damping is not None else "—", _num(pole_size(p))]
                 for p in report.nominal.poles]
         out.append(_grid("pole-table", ["Pole s", "Multiplicity", "Damping ratio", "Natural frequency (rad/s)"],
                          rows))

@@ -9,6 +9,8 @@
   the pole map's slider path, the controller's current value and every panel's
   ``set_current_value``), the events that queued processed, then the analysis panels repainted
   synchronously.
+* GUI-thread gap: a 10 ms timer ticks on the GUI thread while heavy projects (a degree-150 block,
+  a dense degree-40 loop) are opened and analysed; the longest time between two ticks.
 * cold start: a child process (:mod:`bench.cold_start`) from its start to the end of the first
   paint pass of the main window, and to every panel filled; its peak memory from getrusage.
 """
@@ -18,6 +20,7 @@ import subprocess
 import sys
 import tempfile
 import time
+from itertools import pairwise
 from pathlib import Path
 
 from bench.app_session import isolate, open_window, project_path
@@ -27,6 +30,9 @@ from bench.timing import median, percentile
 TARGET_EDIT_S = 0.150
 TARGET_FRAME_S = 0.016
 TARGET_COLD_S = 2.0
+TARGET_GAP_S = 0.100
+HEAVY_BLOCKS = (("degree-150 block", "K", "(s+1)^150"),
+                ("dense degree-40 loop", "K*(s+3)", "(s^2 + 0.7*s + 2)^12*(s+2)^16"))
 REPO = Path(__file__).resolve().parents[1]
 
 
@@ -127,6 +133,31 @@ def cold_starts(project: Path, scratch: Path, count: int) -> list[dict]:
     return runs
 
 
+def gui_gap(window, den: str, num: str, timeout_s: float = 120.0) -> tuple[float, float]:
+    """(the longest gap between 10 ms GUI-thread ticks, the analysis' wall time) while the window's
+    block G becomes ``num / den`` and is analysed."""
+    from PySide6.QtCore import QElapsedTimer, QTimer
+    from PySide6.QtWidgets import QApplication
+
+    from app.document.commands import EditNodeCommand, push
+    clock, ticks = QElapsedTimer(), []
+    timer = QTimer()
+    timer.setInterval(10)
+    timer.timeout.connect(lambda: ticks.append(clock.elapsed() / 1000.0))
+    node = _edited_block(window)
+    clock.start()
+    timer.start()
+    start = time.perf_counter()
+    push(window.undo_stack, EditNodeCommand(window.diagram, node, num=num, den=den))
+    while (window.controller.stale or window.controller.busy) and time.perf_counter() - start < timeout_s:
+        QApplication.processEvents()
+        time.sleep(0.001)
+    wall = time.perf_counter() - start
+    timer.stop()
+    gaps = [b - a for a, b in pairwise(ticks)]
+    return max(gaps, default=wall), wall
+
+
 def run(quick: bool) -> list[Row]:
     from app.controller import DEBOUNCE_MS
     from app.headless import settle
@@ -140,6 +171,7 @@ def run(quick: bool) -> list[Row]:
         nodes = len(window.diagram.nodes)
         received, painted, worker = edit_latencies(window, 8 if quick else 25)
         frames = slider_frames(window, 30 if quick else 120)
+        heavy = [(label, *gui_gap(window, den, num)) for label, num, den in HEAVY_BLOCKS]
         window.undo_stack.setClean()  # else closing asks whether to save the benchmark's edits
         window.close()
         starts = cold_starts(project, scratch, 2 if quick else 5)
@@ -155,6 +187,10 @@ def run(quick: bool) -> list[Row]:
     rows.append(Row("4", f"slider drag frame (set value -> panels repainted), {len(frames)} frames",
                     f"median {ms(fmed)}, p95 {ms(f95)}", f"<= {ms(TARGET_FRAME_S)}", fmed <= TARGET_FRAME_S,
                     {"median_s": fmed, "p95_s": f95, "times_s": frames}))
+    for label, gap, wall in heavy:
+        rows.append(Row("4", f"GUI-thread worst gap while a {label} is analysed (10 ms ticks)",
+                        f"{ms(gap)} (analysis {ms(wall)})", f"<= {ms(TARGET_GAP_S)}", gap <= TARGET_GAP_S,
+                        {"gap_s": gap, "analysis_s": wall, "project": label}))
     cold = median([r["painted"] for r in starts])
     analysed = median([r["analysed"] for r in starts if "analysed" in r] or [float("nan")])
     peak = max(r.get("maxrss_kb", 0) for r in starts)

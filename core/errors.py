@@ -54,6 +54,7 @@ CATALOGUE: dict[str, str] = {
     "E406": "input does not reach the output",
     "E407": "transfer function improper: no step response",
     "E408": "a block's denominator is zero at the nominal values",
+    "E409": "step response beyond the floating-point range",
     "E420": "stability plane: the same parameter on both axes",
     "E421": "stability plane: an axis range is empty or inverted",
     "E422": "stability plane: an axis is not a parameter",

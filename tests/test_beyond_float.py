@@ -8,19 +8,26 @@ end that is finite.
 from __future__ import annotations
 
 import json
+import math
 from dataclasses import replace
 
+import mpmath as mp
 import numpy as np
+import pytest
 import sympy as sp
 from flint import fmpq, fmpq_poly
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
-from core import check_project
-from core.algebra.polynomial import ParametricPolynomial, scaled_floats, to_float
+from core import check_polynomial, check_project
+from core.algebra.polynomial import ParametricPolynomial, decimal_text, scaled_floats, to_float
 from core.analysis.poles import pole_paths
 from core.analysis.requirements import loop_poles
 from core.analysis.time_response import step_response, transfer_from_text
 from core.cli import main
 from core.io.project_file import project_from_dict
+from core.present.report_json import json_text
+from core.present.report_text import report_text
 
 
 def _tiny_gain_project() -> dict:
@@ -113,3 +120,65 @@ def test_scaled_floats_and_saturation():
     # roots unchanged by the common power of two (numpy reference on the unscaled floats)
     coeffs = [fmpq(2), fmpq(-3), fmpq(1)]
     assert np.allclose(sorted(np.roots(scaled_floats(coeffs))), sorted(np.roots([2.0, -3.0, 1.0])))
+
+
+# -- poles and Routh entries beyond the float range ---------------------------------------------------
+def test_a_pole_near_minus_1e400_is_written_from_the_exact_value(capsys):
+    # Reference (mpmath, 60 digits): the roots of 1e-300 s^2 + 1e100 s + 1.
+    mp.mp.dps = 60
+    roots = sorted(mp.polyroots([mp.mpf("1e-300"), mp.mpf("1e100"), 1], maxsteps=200, extraprec=2000), key=abs)
+    assert main(["check", "--poly", "1e-300*s^2 + 1e100*s + 1"]) == 0
+    out = capsys.readouterr().out
+    assert "inf" not in out and "nan" not in out
+    big = mp.nstr(roots[1], 6)  # '-1.0e+400'
+    assert float(mp.mpf(big) / mp.mpf("1e400")) == -1.0
+    assert "-1e+400 + j0   damping 1, natural frequency 1e+400 rad/s" in out
+    assert main(["check", "--poly", "1e-300*s^2 + 1e100*s + 1", "--json"]) == 0
+    poles = json.loads(capsys.readouterr().out)["nominal"]["poles"]
+    far = min(poles, key=lambda p: p[0] if p[0] is not None else -math.inf)
+    assert far == [None, 0.0]  # beyond floats: null in the numeric pair
+
+
+def test_pole_json_texts_and_damping_of_a_far_pole():
+    report = check_polynomial("1e-300*s^2 + 1e100*s + 1")
+    far = next(p for p in report.nominal.poles if p.re == -math.inf)
+    # Reference (by hand): a real negative pole has damping 1; its size is |a1/a2| = 1e400 (mpmath above)
+    assert far.damping == 1.0 and far.to_dict()["re_text"] == "-1e+400"
+    assert far.to_dict()["natural_frequency_text"] == "1e+400"
+
+
+def test_a_complex_pair_real_part_is_refined_not_a_wide_ball_midpoint():
+    # Reference (mpmath, 400 digits): s^3 + 1e-300 s^2 + 1e200 s + 1e100 has a pair with real part
+    # +5e-101 (unstable, as the exact Routh count says) and imaginary part +-1e100.
+    mp.mp.dps = 400
+    pair = [r for r in mp.polyroots([1, mp.mpf("1e-300"), mp.mpf("1e200"), mp.mpf("1e100")],
+                                    maxsteps=400, extraprec=4000) if abs(mp.im(r)) > 1]
+    mp.mp.dps = 15
+    report = check_polynomial("s^3 + 1e-300*s^2 + 1e200*s + 1e100")
+    assert report.nominal.rhp == 2
+    upper = next(p for p in report.nominal.poles if p.im > 0)
+    assert upper.re == pytest.approx(float(mp.re(pair[0])), rel=1e-6) and upper.re > 0
+
+
+def test_routh_entries_beyond_floats_print_without_inf(capsys):
+    # Reference (by hand, sympy integers): the analysed polynomial is the typed one times 1e300,
+    # 1e300 s^3 + s^2 + 1e500 s + 1e400; row s^1 starts with (1 * 1e500 - 1e300 * 1e400) / 1.
+    report = check_polynomial("s^3 + 1e-300*s^2 + 1e200*s + 1e100")
+    first = report.routh.rows[2][0].constant()
+    assert sp.Rational(str(first)) == sp.Integer(10) ** 500 - sp.Integer(10) ** 700
+    assert decimal_text(first) == "-1e+700"
+    assert main(["check", "--poly", "s^3 + 1e-300*s^2 + 1e200*s + 1e100"]) == 0
+    out = capsys.readouterr().out
+    assert "inf" not in out and "nan" not in out
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from([-1, 1]), st.integers(-300, 300)), min_size=2, max_size=6))
+def test_coefficients_near_the_limits_never_give_inf_nan_or_an_error(terms):
+    # Property: any polynomial whose coefficients are +-10^k, |k| <= 300 (the typed-number limits):
+    # the text and JSON reports contain no inf or nan, and nothing raises.
+    poly = " + ".join(f"{'-' if sign < 0 else ''}1e{k}*s^{i}" for i, (sign, k) in enumerate(reversed(terms)))
+    report = check_polynomial(poly.replace("+ -", "- "))
+    text = report_text(report, None)
+    assert "inf" not in text.replace("+inf", "").replace("-inf", "") and "nan" not in text
+    json.loads(json_text(report.to_dict()))

@@ -116,3 +116,11 @@ def test_power_plus_gain_crosses_at_tan_pi_over_n(n):
     assert low.kind == "origin" and high.kind == "crossing"
     mpmath.mp.dps = 50
     assert high.omega == pytest.approx(float(mpmath.tan(mpmath.pi / n)), rel=1e-12)
+
+
+def test_s200_plus_one_counts_without_building_the_whole_eps_array():
+    # Reference (by hand): the roots of s^200 = -1 are exp(j*pi*(2k+1)/200), k = 0..199: none on the
+    # axis (2k+1 is odd, never 100), 100 with a positive real part.
+    report = check_polynomial("s^200 + 1")
+    assert (report.nominal.rhp, report.nominal.jw, report.nominal.lhp) == (100, 0, 100)
+    assert any("too large to write out" in n for n in report.nominal.notes)

@@ -7,13 +7,16 @@ does not understand is shown escaped, as typed.
 '<i>s</i><sup>2</sup> + 2<i>s</i> + <i>K</i><sub>p</sub>'
 >>> formula_html("-0.5s**3")
 '\u22120.5<i>s</i><sup>3</sup>'
+>>> formula_html("1e-300*s^2 + 2.5E3")
+'10<sup>\u2212300</sup>\u2009<i>s</i><sup>2</sup> + 2.5·10<sup>3</sup>'
 """
 from __future__ import annotations
 
 import html
 import re
 
-_TOKEN = re.compile(r"\s*(\*\*|\d+(?:\.\d*)?|\.\d+|[A-Za-z_][A-Za-z0-9_]*|.)")
+_NUMBER = r"(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_TOKEN = re.compile(rf"\s*(\*\*|{_NUMBER}|[A-Za-z_][A-Za-z0-9_]*|.)")
 MINUS, THIN = "\u2212", "\u2009"
 
 
@@ -59,10 +62,21 @@ def _render(tokens: list[str], i: int, stop: str | None) -> tuple[str, int]:
             out.append(_name_html(t))
             operand_before = True
         else:
-            out.append(html.escape(t))
+            out.append(_number_html(t))
             operand_before = True
         i += 1
     return "".join(out), i
+
+
+def _number_html(token: str) -> str:
+    """``2.5e-3`` as 2.5·10<sup>−3</sup> (``1e-300`` as 10<sup>−300</sup>): an exponent is never
+    drawn as if it were a subtraction."""
+    mantissa, e, power = token.replace("E", "e").partition("e")
+    if not e:
+        return html.escape(token)
+    power = power.lstrip("+").replace("-", MINUS)
+    ten = f"10<sup>{html.escape(power)}</sup>"
+    return ten if re.fullmatch(r"1(\.0*)?", mantissa) else f"{html.escape(mantissa)}·{ten}"
 
 
 def _exponent(tokens: list[str], i: int) -> tuple[str, int]:

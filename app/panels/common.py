@@ -44,6 +44,21 @@ def complex_number(z: complex, digits: int = 5) -> str:
     return f"{number(z.real, digits)} {sign} j{number(abs(z.imag), digits)}"
 
 
+def pole_number(pole, digits: int = 5) -> str:
+    """One certified pole as :func:`complex_number` text, also beyond the float range (``−1e+400``)."""
+    if pole.scaled is None:
+        return complex_number(complex(pole.re, pole.im), digits)
+    re, im = pole.re_text.replace("-", MINUS), pole.im_text
+    if pole.im == 0:
+        return re
+    return f"{re} {MINUS if im.startswith('-') else '+'} j{im.lstrip('-').replace('-', MINUS)}"
+
+
+def pole_size(pole, digits: int = 5) -> str:
+    """A pole's natural frequency |p| as text, also beyond the float range."""
+    return number(pole.natural_frequency, digits) if pole.scaled is None else pole.natural_frequency_text
+
+
 def dark() -> bool:
     """Whether the application uses a dark palette."""
     return system_is_dark()

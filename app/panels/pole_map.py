@@ -227,11 +227,14 @@ class PoleMap(QWidget):
         result = self._result
         if result is None or result.report is None:
             return
-        poles = result.poles_at(value)
+        poles, beyond = result.poles_and_beyond(value)
         self.poles.setData(poles.real, poles.imag)
         zeros = result.zeros_at(value) if result.zero_table.size else self._nominal_zeros()
         self.zeros.setData(zeros.real, zeros.imag)
-        self.caption.setText(self._caption(poles, value))
+        caption = self._caption(poles, value)
+        if beyond:
+            caption += f" · not drawn, beyond the float range: {', '.join(beyond[:3])}{' …' if len(beyond) > 3 else ''}"
+        self.caption.setText(caption)
         if value is not None and result.tuning_range is not None:
             self._updating = True
             self.slider.setValue(self._slider_position(value))

@@ -11,11 +11,11 @@ from app.panels.common import (
     MessageLabel,
     Readout,
     colour,
-    complex_number,
     is_palette_change,
     math_html,
     number,
     number_css,
+    pole_number,
 )
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, poly_text, to_fmpq
 
@@ -188,7 +188,7 @@ class PolynomialPanel(QWidget):
                 state = ("<span class='bad'>does not decay</span>" if mode.unstable
                          else "<span class='good'>decays</span>")
                 mult = f" (×{mode.pole.multiplicity})" if mode.pole.multiplicity > 1 else ""
-                lines.append(_line(f"⚠ s = <span class='num'>{complex_number(complex(mode.pole.re, mode.pole.im))}"
+                lines.append(_line(f"⚠ s = <span class='num'>{pole_number(mode.pole)}"
                                    f"</span>{mult} sits in {blocks}: it cancels out of the input-to-output "
                                    f"transfer function but stays in the loop; it {state}.", "warn"))
             out.append(_section("Hidden modes", "".join(lines)))

@@ -32,7 +32,7 @@ from PySide6.QtWidgets import (
 from app.panels.common import MINUS, MessageLabel, colour, is_palette_change, number, number_css
 from app.panels.routh_values import FloatEntries
 from app.theme import figure_font
-from core.algebra.polynomial import to_fmpq
+from core.algebra.polynomial import decimal_text, to_fmpq
 from core.analysis.routh import RationalFunction, RouthArray
 from core.present.report_text import routh_table
 
@@ -165,13 +165,13 @@ def evaluate_entry(entry: RationalFunction, array: RouthArray, value) -> EntryVa
     try:
         if not array.uses_eps:
             q = entry(v) if not entry.is_constant() else entry.constant()
-            return EntryValue(number(float(q)), str(q), _sign(q))
+            return EntryValue(decimal_text(q).replace("-", MINUS), str(q), _sign(q))
         rf = entry if isinstance(entry.num, fmpq_poly) else _in_eps(entry, v)
     except ZeroDivisionError:
         return EntryValue("undefined", "the entry's denominator vanishes at this value", None)
     if rf.is_constant():
         q = rf.constant()
-        return EntryValue(number(float(q)), str(q), _sign(q))
+        return EntryValue(decimal_text(q).replace("-", MINUS), str(q), _sign(q))
     text = entry_display(rf.text(EPS), True)
     return EntryValue(text, f"{text}, sign as ε → 0+", rf.sign_near_zero())
 

@@ -25,7 +25,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from fractions import Fraction
 
-from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz
+from flint import arb, fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly, fmpz
 
 S = "s"  # the Laplace variable's name, reserved in every expression
 
@@ -33,6 +33,7 @@ __all__ = [
     "ParametricPolynomial",
     "S",
     "binary_exponent",
+    "decimal_text",
     "fmpq",
     "fmpq_poly",
     "mpoly_context",
@@ -81,6 +82,20 @@ def to_float(q) -> float:
         return float(q)
     except OverflowError:
         return math.inf if q > 0 else -math.inf
+
+
+def decimal_text(q, digits: int = 6) -> str:
+    """An exact rational in ``digits`` significant figures, however large or small (``%g`` style).
+
+    >>> decimal_text(fmpq(2, 3)), decimal_text(-fmpq(10) ** 400 / 3), decimal_text(fmpq(1, 10 ** 320))
+    ('0.666667', '-3.33333e+399', '1e-320')
+    """
+    value = to_float(q)
+    if q == 0 or (math.isfinite(value) and abs(value) >= 1e-300):
+        return f"{value:.{digits}g}"
+    head, _, power = arb(q).str(digits, radius=False).partition("e")
+    head = head.rstrip("0").rstrip(".") if "." in head else head
+    return f"{head}e{int(power):+d}"
 
 
 def binary_exponent(q: fmpq) -> int:

@@ -17,6 +17,7 @@ import math
 import time
 import traceback
 from dataclasses import dataclass, field
+from fractions import Fraction
 from functools import cached_property
 from itertools import pairwise
 
@@ -24,7 +25,7 @@ import numpy as np
 from flint import arb, arb_poly
 
 from core.algebra.polynomial import ParametricPolynomial, to_float, to_fmpq
-from core.analysis.poles import path_sensitivity, pole_paths
+from core.analysis.poles import certified_roots, expand_multiplicity, path_sensitivity, pole_paths
 from core.analysis.report import Report, check_project
 from core.analysis.requirements import TimeDomain, prepare
 from core.analysis.routh import RouthArray, is_hurwitz, routh_counts
@@ -152,8 +153,22 @@ class AnalysisResult:
         return _evaluate_table(self.coefficient_table, value)
 
     def poles_at(self, value: float | None) -> np.ndarray:
-        """The loop's poles at a parameter value (numpy.roots; floats, for drawing)."""
-        return _roots(self.coefficients_at(value))
+        """The loop's poles at a parameter value (numpy.roots; floats, for drawing). Where floats
+        fail (coefficients spanning beyond their range), the certified roots that fit."""
+        return self.poles_and_beyond(value)[0]
+
+    def poles_and_beyond(self, value: float | None) -> tuple[np.ndarray, list[str]]:
+        """(the drawable poles, texts of the poles beyond the float range) at a parameter value."""
+        coeffs = self.coefficients_at(value)
+        roots = _roots(coeffs)
+        if (roots.size == coeffs.size - 1 and np.all(np.isfinite(roots))) or self.report is None:
+            return roots, []
+        exact = self.report.analysed.at(_exact_value(value) if self.report.parameter else None)
+        poles = expand_multiplicity(certified_roots(exact))
+        fits = [p for p in poles if math.isfinite(p.re) and math.isfinite(p.im)]
+        beyond = [p.re_text if p.im == 0 else f"{p.re_text} {'-' if p.im < 0 else '+'} j{p.im_text.lstrip('-')}"
+                  for p in poles if p not in fits]
+        return np.array([complex(p.re, p.im) for p in fits], dtype=complex), beyond
 
     def zeros_at(self, value: float | None) -> np.ndarray:
         """Zeros of the closed-loop transfer function at a parameter value (numpy.roots)."""
@@ -220,6 +235,11 @@ def _evaluate_table(table: np.ndarray, value: float | None) -> np.ndarray:
     v = 0.0 if value is None else float(value)
     powers = v ** np.arange(table.shape[1] - 1, -1, -1, dtype=float)
     return np.trim_zeros(table @ powers, "f")
+
+
+def _exact_value(value: float | None):
+    """A slider's float as the exact binary rational it is (no decimal rounding)."""
+    return None if value is None else to_fmpq(Fraction(float(value)))
 
 
 def _roots(coeffs: np.ndarray) -> np.ndarray:

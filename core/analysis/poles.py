@@ -12,60 +12,151 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, cast
 
 import numpy as np
-from flint import fmpq, fmpq_poly
+from flint import arb, ctx, fmpq, fmpq_poly
 
-from core.algebra.polynomial import ParametricPolynomial, binary_exponent, to_float, to_fmpq
+from core.algebra.polynomial import ParametricPolynomial, binary_exponent, decimal_text, to_float, to_fmpq
 
 
 @dataclass(frozen=True)
 class Pole:
-    """A root with its damping ratio and natural frequency (rad/s); ``multiplicity`` >= 1."""
+    """A root with its damping ratio and natural frequency (rad/s); ``multiplicity`` >= 1.
+
+    ``re`` and ``im`` are the nearest floats (infinite, or 0, beyond the float range); ``scaled``
+    = (re / 2^e, im / 2^e, e) keeps such a root's size and direction, so its damping ratio and
+    texts stay right (a pole at -1e400 has damping 1 and is written ``-1e+400``).
+
+    >>> big = Pole(-math.inf, 0.0, scaled=(-0.8, 0.0, 1330))
+    >>> big.damping, big.re_text, big.natural_frequency
+    (1.0, '-1.87493e+400', inf)
+    """
 
     re: float
     im: float
     multiplicity: int = 1
+    scaled: tuple[float, float, int] | None = None
 
     @property
     def natural_frequency(self) -> float:
-        """|p| in rad/s."""
-        return math.hypot(self.re, self.im)
+        """|p| in rad/s (infinite beyond the float range)."""
+        if self.scaled is None:
+            return math.hypot(self.re, self.im)
+        a, b, e = self.scaled
+        try:
+            return math.ldexp(math.hypot(a, b), e)
+        except OverflowError:
+            return math.inf
 
     @property
     def damping(self) -> float | None:
         """-Re p / |p|; None for a root at the origin."""
-        wn = self.natural_frequency
-        return None if wn == 0 else -self.re / wn
+        a, b = (self.re, self.im) if self.scaled is None else self.scaled[:2]
+        wn = math.hypot(a, b)
+        return None if wn == 0 else -a / wn
+
+    @property
+    def re_text(self) -> str:
+        """The real part in six significant digits, also beyond the float range."""
+        return self._text(0)
+
+    @property
+    def im_text(self) -> str:
+        """The imaginary part in six significant digits, also beyond the float range."""
+        return self._text(1)
+
+    @property
+    def natural_frequency_text(self) -> str:
+        """|p| in six significant digits, also beyond the float range."""
+        if self.scaled is None:
+            return f"{self.natural_frequency:.6g}"
+        a, b, e = self.scaled
+        return power_of_two_text(math.hypot(a, b), e)
+
+    def _text(self, part: int) -> str:
+        if self.scaled is None:
+            return f"{(self.re, self.im)[part]:.6g}"
+        return power_of_two_text(self.scaled[part], self.scaled[2])
 
     def to_dict(self) -> dict:
-        """JSON-ready fields."""
+        """JSON-ready fields (a number beyond the float range is null there: see the texts)."""
         return {"re": self.re, "im": self.im, "multiplicity": self.multiplicity,
-                "damping": self.damping, "natural_frequency": self.natural_frequency}
+                "damping": self.damping, "natural_frequency": self.natural_frequency,
+                "re_text": self.re_text, "im_text": self.im_text,
+                "natural_frequency_text": self.natural_frequency_text}
+
+
+def power_of_two_text(mantissa: float, exponent: int, digits: int = 6) -> str:
+    """``mantissa * 2^exponent`` in ``digits`` significant digits, however large or small.
+
+    >>> power_of_two_text(0.5, 2000), power_of_two_text(-0.75, -1400), power_of_two_text(0.5, 3)
+    ('5.74065e+601', '-2.71061e-422', '4')
+    """
+    return decimal_text(fmpq(*mantissa.as_integer_ratio()) * fmpq(2) ** exponent, digits)
+
+
+FIT_EXPONENT = 990  # roots of size 2^-990 .. 2^990 are kept as plain floats
 
 
 def certified_roots(coeffs: Sequence) -> list[Pole]:
     """Roots of an exact polynomial (highest power first), sorted by decreasing real part.
 
-    Each conjugate pair is listed with both members; real roots have ``im == 0.0`` exactly.
+    Each conjugate pair is listed with both members; real roots have ``im == 0.0`` exactly. Every
+    part shown is known to three significant digits or more (the isolation is refined until each
+    part's ball is that narrow relative to the root's size, or, for a part that may be 0, narrower
+    than 2^-ROOT_BITS of it): a midpoint of a wide ball is never shown as if it were the value.
     """
     exact = [to_fmpq(c) for c in coeffs]
     poly = fmpq_poly(list(reversed(exact)))
     if poly.degree() < 1:
         return []
-    poles: list[Pole] = []
-    for root, mult in cast("list[tuple[Any, int]]", poly.complex_roots()):  # stub: (ball, mult) pairs
-        re, im = float(root.real.mid()), float(root.imag.mid())
-        poles.append(Pole(re, 0.0 if root.imag == 0 else im, int(mult)))
+    poles = [_pole(root, int(mult)) for root, mult in _isolated_roots(poly)]
     poles.sort(key=lambda p: (-p.re, -p.im))
     return poles
 
 
+ROOT_BITS = 4096  # the finest isolation tried (a part within 2^-4096 of the root's size reads as 0)
+
+
+def _isolated_roots(poly: fmpq_poly) -> list[tuple[Any, int]]:
+    prec = ctx.prec
+    while True:
+        with ctx.workprec(prec):
+            roots = cast("list[tuple[Any, int]]", poly.complex_roots())  # stub: (ball, mult) pairs
+        if prec >= ROOT_BITS or all(_parts_known(root) for root, _ in roots):
+            return roots
+        prec *= 4
+
+
+def _parts_known(root) -> bool:
+    size = abs(root)
+    return all(part.rad() <= 1e-3 * abs(part.mid()) or part.rad() * 2 ** ROOT_BITS <= size.lower()
+               or part == 0 for part in (root.real, root.imag))
+
+
+def _pole(root, mult: int) -> Pole:
+    """A Pole from a certified ball: floats when they fit, else (mantissas, shared exponent)."""
+    re_mid, im_mid = root.real.mid(), root.imag.mid()
+    im_mid = arb(0) if root.imag == 0 else im_mid
+    exponents = [_exponent(x) for x in (re_mid, im_mid) if x != 0]
+    if not exponents or -FIT_EXPONENT < max(exponents) < FIT_EXPONENT:
+        return Pole(float(re_mid), float(im_mid), mult)
+    e = max(exponents)
+    scale = arb(2) ** (-e)
+    return Pole(float(re_mid), float(im_mid), mult, (float(re_mid * scale), float(im_mid * scale), e))
+
+
+def _exponent(x) -> int:
+    """About log2 |x| of an exact (midpoint) ball."""
+    man, exp = x.man_exp()
+    return int(man).bit_length() + int(exp) if man != 0 else 0
+
+
 def expand_multiplicity(poles: Sequence[Pole]) -> list[Pole]:
     """One entry per root, repeating multiple roots."""
-    return [Pole(p.re, p.im, 1) for p in poles for _ in range(p.multiplicity)]
+    return [replace(p, multiplicity=1) for p in poles for _ in range(p.multiplicity)]
 
 
 def dominant_pole(poles: Sequence[Pole]) -> Pole | None:

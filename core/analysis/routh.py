@@ -43,6 +43,7 @@ __all__ = [
 
 EPS_NAME = "eps"
 DISPLAY_BITS = 8_000_000  # a symbolic array for display holds at most this many bits (about 2.4 million digits)
+COUNTS_DISPLAY_BITS = 500_000  # the full numeric array beside exact counts (its sign changes): a smaller cap
 MPOLY_COST = 16  # a bit of an entry in Q(k, eps) costs about 16 of the fraction-free rows' (measured, bench/)
 
 
@@ -557,10 +558,14 @@ def routh_counts(coeffs: list[fmpq]) -> RootCounts:
     rhp = rhp_rest + off_axis_g // 2
     jw = zeros + jw_g
     same = zeros == 0 and g.degree() == 0  # then rest is p (g is monic)
-    array = rest_array if same else routh_array(ParametricPolynomial.from_coefficients(coeffs))
+    array = rest_array if same else routh_array(ParametricPolynomial.from_coefficients(coeffs),
+                                                limit_bits=COUNTS_DISPLAY_BITS)
+    if array.omitted:
+        notes.append("the full array (with its ε rows) is too large to write out; the counts come from "
+                     "the symmetric-part split")
     notes += [s.note for s in array.special]
     changes = array.sign_changes() or []
-    if len(changes) != rhp:
+    if len(changes) != rhp and not array.omitted:
         notes.append(f"the array's {len(changes)} sign change(s) do not give the RHP count here; "
                      f"exact count {rhp} from the symmetric-part split")
     return RootCounts(rhp, jw, n - rhp - jw, changes, notes, array)

@@ -177,8 +177,11 @@ def step_response(transfer: ParametricTransfer, value: float | None = None, hori
                   points: int = POINTS) -> StepResponse:
     """The unit-step response at a parameter value, simulated, with exact stability and final value.
 
+    Poles too fast for floats (the denominator's leading coefficients vanish against the others
+    once rounded: poles beyond about 1e300 rad/s) are simulated as instantaneous, with a note.
     Raises AnalysisError E407 when the transfer function is improper at this value (a step into
-    it would need an impulse), E403 when its denominator vanishes.
+    it would need an impulse), E403 when its denominator vanishes, E409 when the floats left
+    cannot describe it.
     """
     num_q, den_q, char_q = transfer.at(value)
     if not den_q or all(c == 0 for c in den_q):
@@ -189,13 +192,20 @@ def step_response(transfer: ParametricTransfer, value: float | None = None, hori
                                     "at t = 0", where="step response")
     stable = is_hurwitz(char_q, transfer.characteristic.degree)
     num, den = _float_pair(num_q, den_q)
+    notes = []
+    fast = int(np.argmax(den != 0)) if np.any(den) else den.size
+    if fast:
+        den, num = den[fast:], np.trim_zeros(num, "f") if np.any(num) else np.zeros(1)
+        if den.size == 0 or num.size > den.size:
+            raise AnalysisError("E409", "the transfer function's coefficients span more than the floating-point "
+                                        "range here: the step response cannot be simulated", where="step response")
+        notes.append(f"{fast} pole{'s' if fast > 1 else ''} beyond 1e300 rad/s simulated as instantaneous")
     poles = np.roots(den).astype(complex) if den.size > 1 else np.empty(0, dtype=complex)
     visible_stable = bool(np.all(poles.real < 0))
     t_end, capped = (horizon, False) if horizon is not None else response_horizon(poles)
     n = _point_count(t_end, poles, points)
     t = np.linspace(0.0, t_end, n)
     y = _simulate(num, den, t)
-    notes = []
     final = None
     if stable:
         gain = transfer.static_gain(value)
@@ -244,7 +254,8 @@ def step_samples(num: np.ndarray, den: np.ndarray, dt: float, count: int) -> np.
     m[1:n, :n - 1] += np.eye(n - 1)
     m[0, n] = 1.0
     output = np.append(num[1:] - num[0] * den[1:], num[0])
-    m, (scale, _) = matrix_balance(m, permute=False, separate=True)  # m -> diag(1/scale) m diag(scale)
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):  # entries of 1e-100 and less
+        m, (scale, _) = matrix_balance(m, permute=False, separate=True)  # m -> diag(1/scale) m diag(scale)
     output = output * scale
     z = np.zeros((count, n + 1))
     z[0, n] = 1.0 / scale[n]

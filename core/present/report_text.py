@@ -80,6 +80,13 @@ def margins_lines(name: str, m: dict | None) -> list[str]:
     return lines
 
 
+def pole_text(p: dict) -> str:
+    """``-1 + j2``, ``+5e-101 - j1e+100`` from a pole's JSON fields (texts exact beyond floats)."""
+    re, im = p["re_text"], p["im_text"]
+    re = re if re.startswith("-") else "+" + re
+    return f"{re} {'-' if im.startswith('-') else '+'} j{im.lstrip('-')}"
+
+
 def _big(x: float, digits: int = 6) -> str:
     """A size in ``digits`` digits; beyond the float range, said so."""
     return f"{x:.{digits}g}" if math.isfinite(x) else "more than 1e308"
@@ -141,8 +148,8 @@ def report_text(report: Report, outcome: RequirementsOutcome | None = None, widt
             for p in d["poles"]:
                 zeta = "-" if p["damping"] is None else f"{p['damping']:.4g}"
                 mult = f" (x{p['multiplicity']})" if p["multiplicity"] > 1 else ""
-                out.append(f"    {p['re']:+.6g} {'+' if p['im'] >= 0 else '-'} j{abs(p['im']):.6g}{mult}"
-                           f"   damping {zeta}, natural frequency {p['natural_frequency']:.6g} rad/s")
+                out.append(f"    {pole_text(p)}{mult}"
+                           f"   damping {zeta}, natural frequency {p['natural_frequency_text']} rad/s")
     else:
         out.append(f"No nominal value for {d['parameter']}: verdict given as a range only.")
     rng = d["stable_range"]
