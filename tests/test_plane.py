@@ -331,3 +331,22 @@ def test_pi_arcs_lie_on_their_boundaries(pi_plane):
                 delta3 = 98 * a3 - a3 ** 2 - 49 * a4
                 assert abs(delta3) < 1e-9 * (98 * abs(a3) + a3 ** 2 + 49 * abs(a4))
     assert {a.kind for a in pi_plane.arcs} == {"origin", "crossing"}
+
+
+@pytest.mark.parametrize("case", ["integrator", "symmetric pair"])
+def test_roots_identically_on_the_axis_or_symmetric(case):
+    """s (s^2 + x s + y): a root at s = 0 for every x, y, so never stable; (s^2 - x)(s + y): a
+    pair ±sqrt(x), real for x > 0 (one in the right half plane), on the axis for x < 0."""
+    s, x, y = mpoly_context(["x", "y"]).gens()
+    poly = s * (s**2 + x * s + y) if case == "integrator" else (s**2 - x) * (s + y)
+    plane = stability_plane(poly, "x", "y", {}, (fmpq(-1), fmpq(1)), (fmpq(-1), fmpq(1)), 8)
+    assert not any(r.stable for r in plane.regions)
+    assert all(label != 0 for row in plane.grid for label in row)
+    for region in plane.regions:
+        px, py = float(Fraction(region.point["x"])), float(Fraction(region.point["y"]))
+        coeffs = [1, px, py, 0] if case == "integrator" else [1, py, -px, -px * py]
+        roots = np.roots(coeffs)  # numpy.roots reference
+        assert int(np.sum(np.abs(roots.real) < 1e-9)) == region.jw
+        assert int(np.sum(roots.real > 1e-9)) == region.rhp
+    if case == "symmetric pair":
+        assert {(r.rhp, r.jw) for r in plane.regions} == {(1, 0), (2, 0), (0, 2), (1, 2)}

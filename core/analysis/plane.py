@@ -10,6 +10,11 @@ set of
 * Delta_{n-1}(x, y) = ±Res_u(E, O) for p(s) = E(s^2) + s O(s^2): two roots summing to zero, a pair
   on the imaginary axis where omega^2 > 0 ("crossing"); its arcs with a real pair ±a are no boundary.
 
+When a root pair symmetric about the origin is there for every x and y (a0 or Delta_{n-1}
+identically zero: a root fixed at s = 0, a factor s^2 - x), the symmetric part g = gcd(p(s), p(-s))
+is split off: the boundaries are those of p / g and, for g(s) = s^m h(s^2), h(0), h's leading
+coefficient and its discriminant in u. Counts then include the roots on the axis (``jw``).
+
 These are exact (flint ``fmpq_mpoly``, factored over Q). The rectangle is cut into vertical lines
 x = c at rational c (the grid's column centres). On each, every boundary factor becomes a polynomial
 in y whose real roots are isolated exactly (:func:`core.analysis.stable_range.real_values`); between
@@ -68,15 +73,22 @@ OMEGA_RESIDUAL = 1e-6  # a common root of E(u) and O(u) in floating point: relat
 
 @dataclass(frozen=True)
 class Region:
-    """A connected part of the rectangle with ``rhp`` roots in the right half plane (exact at
-    ``point``, given as exact strings), and the share of the grid points inside it (estimated)."""
+    """A connected part of the rectangle with ``rhp`` roots in the right half plane and ``jw`` on
+    the imaginary axis (exact at ``point``, given as exact strings), and the share of the grid
+    points inside it (estimated)."""
 
     rhp: int
     point: dict[str, str]
     share: float
+    jw: int = 0  # roots on the imaginary axis all over the region (a root identically at s = 0...)
+
+    @property
+    def stable(self) -> bool:
+        return self.rhp == 0 and self.jw == 0
 
     def to_dict(self) -> dict:
-        return {"rhp": self.rhp, "stable": self.rhp == 0, "point": dict(self.point), "share": self.share}
+        return {"rhp": self.rhp, "jw": self.jw, "stable": self.stable, "point": dict(self.point),
+                "share": self.share}
 
 
 @dataclass(frozen=True)
@@ -107,7 +119,8 @@ class Plane:
     """The stability plane of parameters ``x`` and ``y`` over the rectangle ``x_range`` x ``y_range``.
 
     ``grid[j][i]`` is the exact right-half-plane count at (x_i, y_j), the centres of a
-    resolution x resolution grid (row j = y, from the bottom), -1 on a boundary.
+    resolution x resolution grid (row j = y, from the bottom), -1 on a boundary, -2 in a region
+    with roots on the imaginary axis throughout (never stable: a root identically at s = 0...).
     """
 
     x: str
@@ -221,11 +234,13 @@ def _boundary_factors(coeffs: list[fmpq_mpoly]) -> dict[str, list[fmpq_mpoly]]:
     for c in coeffs[1:]:
         content = content.gcd(c)
     reduced = [c / content for c in coeffs] if not content.is_zero() else coeffs
-    sources = {"singular": content, "origin": reduced[-1], "infinity": reduced[0],
-               "crossing": _hurwitz_delta_xy(reduced)}
+    symmetric, rest = _symmetric_split(reduced)
+    sources = [("singular", content), ("origin", rest[-1]), ("infinity", rest[0]),
+               ("crossing", _hurwitz_delta_xy(rest))]
+    sources += _symmetric_sources(symmetric)
     seen: set[tuple] = set()
     out: dict[str, list[fmpq_mpoly]] = {k: [] for k in KINDS}
-    for kind, p in sources.items():
+    for kind, p in sources:
         if p.is_zero():
             continue
         for f, _ in p.factor()[1]:
@@ -238,6 +253,55 @@ def _boundary_factors(coeffs: list[fmpq_mpoly]) -> dict[str, list[fmpq_mpoly]]:
     return out
 
 
+def _in_s(coeffs: list[fmpq_mpoly]) -> fmpq_mpoly:
+    """The coefficient list (highest power first) as one polynomial in (s, x, y)."""
+    ctx3 = fmpq_mpoly_ctx.get(("s", *coeffs[0].context().names()), "lex")
+    n = len(coeffs) - 1
+    return ctx3.from_dict({(n - i, *e): v for i, c in enumerate(coeffs) for e, v in c.to_dict().items()})
+
+
+def _coefficient_list(poly: fmpq_mpoly, ctx2: fmpq_mpoly_ctx) -> list[fmpq_mpoly]:
+    by_power: dict[int, dict[tuple[int, ...], fmpq]] = {}
+    for (es, *e), v in poly.to_dict().items():
+        by_power.setdefault(es, {})[tuple(e)] = v
+    top = max(by_power, default=0)
+    return [ctx2.from_dict(by_power.get(k, {})) for k in range(top, -1, -1)]
+
+
+def _symmetric_split(coeffs: list[fmpq_mpoly]) -> tuple[list[fmpq_mpoly], list[fmpq_mpoly]]:
+    """(g, p / g) for g = gcd(p(s), p(-s)) over Q[x, y], as coefficient lists: g holds every root
+    pair symmetric about the origin that is there for all x and y (a root identically at s = 0 or
+    on the imaginary axis), and then a0 or Delta_{n-1} of p vanish identically; p / g has none."""
+    ctx2 = coeffs[0].context()
+    n = len(coeffs) - 1
+    mirrored = [c if (n - i) % 2 == 0 else -c for i, c in enumerate(coeffs)]
+    p = _in_s(coeffs)
+    g = p.gcd(_in_s(mirrored))
+    if g.degrees()[0] == 0:
+        return [ctx2.constant(1)], coeffs
+    return _coefficient_list(g, ctx2), _coefficient_list(p / g, ctx2)
+
+
+def _symmetric_sources(symmetric: list[fmpq_mpoly]) -> list[tuple[str, fmpq_mpoly]]:
+    """Boundaries of the symmetric part g(s) = s^m h(s^2): where a root of h reaches u = 0 (a root
+    through s = 0), h's degree drops (to infinity), or two roots of h meet (a pair on the axis
+    leaves it or splits into a real pair): h(0), the leading coefficient, the discriminant in u."""
+    while len(symmetric) > 1 and symmetric[-1].is_zero():
+        symmetric = symmetric[:-1]  # a root identically at s = 0: no boundary
+    if len(symmetric) <= 1:
+        return []
+    m = len(symmetric) - 1
+    h = symmetric[m % 2::2]  # the even powers of s, highest first: h(u) with u = s^2
+    sources = [("origin", h[-1]), ("infinity", h[0])]
+    if len(h) > 2:
+        ctx3 = fmpq_mpoly_ctx.get(("u", *h[0].context().names()), "lex")
+        k = len(h) - 1
+        hu = ctx3.from_dict({(k - i, *e): v for i, c in enumerate(h) for e, v in c.to_dict().items()})
+        disc = hu.discriminant("u")
+        sources.append(("crossing", h[0].context().from_dict({e[1:]: v for e, v in disc.to_dict().items()})))
+    return sources
+
+
 # -- one vertical line --------------------------------------------------------------------------
 @dataclass
 class _Column:
@@ -247,7 +311,7 @@ class _Column:
     c: fmpq
     roots: list[Boundary]
     owners: list[int]  # for each root, the index of its boundary factor (in the plane's factor list)
-    counts: list[int]
+    counts: list[tuple[int, int]]  # (right half plane, imaginary axis) in each sector
     points: list[fmpq]
 
     def sector_ends(self, ylo: float, yhi: float) -> list[tuple[float, float]]:
@@ -272,8 +336,29 @@ def _column(c: fmpq, coeffs: list[_Bivariate], factors: list[tuple[str, _Bivaria
     highs = [*(b.lo for b in roots), yhi]
     points = [_simplest_between(lo, hi) for lo, hi in zip(lows, highs)]
     n = len(coeffs) - 1
-    counts = [_rhp([f.at_x(c)(t) for f in coeffs], n) for t in points]
+    counts = [_counts([f.at_x(c)(t) for f in coeffs], n) for t in points]
     return _Column(c, roots, owners, counts, points)
+
+
+def _labels_point_by_point(c: fmpq, rows: list[fmpq], coeffs: list[_Bivariate]) -> list[int]:
+    """Exact counts on a line x = c lying in the boundary set (a factor vanishes all along it), one
+    Routh count per row: -1 where a root is on the imaginary axis or the order drops."""
+    on_line = [f.at_x(c) for f in coeffs]
+    labels = []
+    for t in rows:
+        values = [p(t) for p in on_line]
+        if values[0] == 0:
+            labels.append(-1)
+            continue
+        counts = routh_counts(values)
+        labels.append(-1 if counts.jw else counts.rhp)
+    return labels
+
+
+def _label(counts: tuple[int, int]) -> int:
+    """A grid label: the right-half-plane count, or -2 where roots lie on the imaginary axis."""
+    rhp, jw = counts
+    return rhp if jw == 0 else -2
 
 
 def _inside(b: Boundary, lo: fmpq, hi: fmpq) -> Boundary | None:
@@ -286,13 +371,17 @@ def _inside(b: Boundary, lo: fmpq, hi: fmpq) -> Boundary | None:
     return b
 
 
-def _rhp(coeffs: list[fmpq], degree: int) -> int:
-    """Exact right-half-plane count: the Hurwitz test first (the cheap common answer), then the
-    sign changes of a Routh first column proven nonzero in ball arithmetic, else full counting."""
+def _counts(coeffs: list[fmpq], degree: int) -> tuple[int, int]:
+    """Exact (right half plane, imaginary axis) root counts: the Hurwitz test first (the cheap
+    common answer), then the sign changes of a Routh first column proven nonzero in ball
+    arithmetic (no root on the axis then), else full counting."""
     if is_hurwitz(coeffs, degree):
-        return 0
+        return 0, 0
     changes = _routh_sign_changes_by_balls(coeffs)
-    return changes if changes is not None else routh_counts(coeffs).rhp
+    if changes is not None:
+        return changes, 0
+    counts = routh_counts(coeffs)
+    return counts.rhp, counts.jw
 
 
 def _routh_sign_changes_by_balls(coeffs: list[fmpq]) -> int | None:
@@ -448,8 +537,8 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
     extra = _between_critical_values(flat, xs, x_range, y_range)
     samples = sorted([(c, col, secs) for c, col, secs in zip(xs, columns, sectors)] +
                      [(c, _column(c, bivariate, flat, y_range), None) for c in extra or []], key=lambda s: s[0])
-    grid_columns = [[col.counts[k] if k >= 0 else -1 for k in secs] if col is not None else secs
-                    for col, secs in zip(columns, sectors)]
+    grid_columns = [[_label(col.counts[k]) if k >= 0 else -1 for k in secs] if col is not None
+                    else _labels_point_by_point(c, ys, bivariate) for c, col, secs in zip(xs, columns, sectors)]
     slices = _slices(x, y, x_range, y_range, bivariate, flat)
     floats = (to_float(y_range[0]), to_float(y_range[1]))
     return Plane(
@@ -477,7 +566,7 @@ def _slices(x, y, x_range, y_range, bivariate, flat) -> list[PlaneSlice]:
             column = _column(c, bivariate, flat, y_range)
         rng = stable_range(ParametricPolynomial(tuple(f.at_x(c) for f in bivariate), y))
         for t, count in zip(column.points, column.counts):
-            if _stable_at(rng, t) != (count == 0):
+            if _stable_at(rng, t) != (count == (0, 0)):
                 raise RuntimeError(f"plane: slice {x} = {c} disagrees with the stable range at {y} = {t}")
         out.append(PlaneSlice(c, rng))
     return out
@@ -540,8 +629,9 @@ def _regions(samples: list[tuple[_Column | None, list[int] | None]], x: str, y: 
         col = columns[i]
         assert col is not None
         share = sum(per_cell.get(cells[g], 0) for g in group) / total
-        regions.append(Region(col.counts[k], {x: str(col.c), y: str(col.points[k])}, share))
-    regions.sort(key=lambda r: (r.rhp, -r.share))
+        rhp, jw = col.counts[k]
+        regions.append(Region(rhp, {x: str(col.c), y: str(col.points[k])}, share, jw))
+    regions.sort(key=lambda r: (r.jw, r.rhp, -r.share))
     return regions
 
 

@@ -35,13 +35,19 @@ def plane_lines(plane: Plane, width: int = 80) -> list[str]:
         for poly in polys:
             out.append(f"  boundary, {KIND_WORDS[kind]}: {abbreviate(poly, width)} = 0")
     for i, region in enumerate(d["regions"], start=1):
-        what = "STABLE" if region["stable"] else f"{region['rhp']} root{'s' if region['rhp'] != 1 else ''} in the right half plane"
+        what = "STABLE" if region["stable"] else _roots_text(region["rhp"], "in the right half plane")
+        if region["jw"]:
+            what += f", {_roots_text(region['jw'], 'on the imaginary axis')} (not stable)"
         at = ", ".join(f"{name} = {abbreviate(value, 30)}" for name, value in region["point"].items())
         out.append(f"  region {i}: {what}, e.g. at {at} (about {100 * region['share']:.0f} % of the grid)")
     for piece in d["slices"]:
         ivs = " U ".join(f"({lo or '-inf'}, {hi or '+inf'})" for lo, hi in piece["approx_intervals"])
         out.append(f"  at {plane.x} = {abbreviate(piece['x'], 30)}: stable for {plane.y} in {ivs or 'no value'} (exact)")
     return out
+
+
+def _roots_text(count: int, where: str) -> str:
+    return f"{count} root{'s' if count != 1 else ''} {where}"
 
 
 def with_plane_section(text: str, plane: Plane) -> str:
