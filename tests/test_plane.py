@@ -350,3 +350,34 @@ def test_roots_identically_on_the_axis_or_symmetric(case):
         assert int(np.sum(roots.real > 1e-9)) == region.rhp
     if case == "symmetric pair":
         assert {(r.rhp, r.jw) for r in plane.regions} == {(1, 0), (2, 0), (0, 2), (1, 2)}
+
+
+def test_random_polynomials_against_numpy():
+    """Random coefficients built from 1, x, y, x y, x^2, y^2 (some with a factor s or s^2 - x):
+    every grid label equals numpy.roots' right-half-plane count where no root is near the axis."""
+    import random
+
+    rnd = random.Random(20261203)
+    s, x, y = mpoly_context(["x", "y"]).gens()
+    monomials = [1, x, y, x * y, x**2, y**2]
+    xs, ys = centres(-2, 2, 7), centres(-2, 3, 7)
+    compared = 0
+    for _ in range(15):
+        n = rnd.randint(1, 4)
+        poly = sum((sum(rnd.randint(-3, 3) * m for m in rnd.sample(monomials, 2)) + rnd.randint(-2, 4)) * s**k
+                   for k in range(n + 1)) * rnd.choice([1, 1, s, s**2 - x])
+        if poly.is_zero():
+            continue
+        plane = stability_plane(poly, "x", "y", {}, (fmpq(-2), fmpq(2)), (fmpq(-2), fmpq(3)), 7)
+        degree = poly.degrees()[0]
+        for j, yv in enumerate(ys):
+            for i, xv in enumerate(xs):
+                at = poly.subs({"x": fmpq(xv.numerator, xv.denominator), "y": fmpq(yv.numerator, yv.denominator)})
+                coeffs = [float(at.to_dict().get((k, 0, 0), 0)) for k in range(degree, -1, -1)]
+                if coeffs[0] == 0:
+                    continue  # the order drops here
+                expected = numpy_rhp(coeffs)  # numpy.roots reference
+                if expected is not None:
+                    assert plane.grid[j][i] == expected, (str(poly), xv, yv)
+                    compared += 1
+    assert compared > 200

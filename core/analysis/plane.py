@@ -53,7 +53,7 @@ import numpy as np
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly
 
 from core.algebra.polynomial import ParametricPolynomial, mpoly_text, primitive_scale, to_float
-from core.analysis.routh import is_hurwitz, routh_counts
+from core.analysis.routh import routh_counts
 from core.analysis.stable_range import (
     Boundary,
     StableRange,
@@ -119,7 +119,8 @@ class Plane:
     """The stability plane of parameters ``x`` and ``y`` over the rectangle ``x_range`` x ``y_range``.
 
     ``grid[j][i]`` is the exact right-half-plane count at (x_i, y_j), the centres of a
-    resolution x resolution grid (row j = y, from the bottom), -1 on a boundary, -2 in a region
+    resolution x resolution grid (row j = y, from the bottom), -1 on a boundary (a root on the
+    imaginary axis there, or the order drops), -2 in a region
     with roots on the imaginary axis throughout (never stable: a root identically at s = 0...).
     """
 
@@ -335,24 +336,20 @@ def _column(c: fmpq, coeffs: list[_Bivariate], factors: list[tuple[str, _Bivaria
     lows = [ylo, *(b.hi for b in roots)]
     highs = [*(b.lo for b in roots), yhi]
     points = [_simplest_between(lo, hi) for lo, hi in zip(lows, highs)]
-    n = len(coeffs) - 1
-    counts = [_counts([f.at_x(c)(t) for f in coeffs], n) for t in points]
+    line = [f.at_x(c) for f in coeffs]
+    counts = [_counts([f(t) for f in line]) for t in points]
     return _Column(c, roots, owners, counts, points)
 
 
-def _labels_point_by_point(c: fmpq, rows: list[fmpq], coeffs: list[_Bivariate]) -> list[int]:
-    """Exact counts on a line x = c lying in the boundary set (a factor vanishes all along it), one
-    Routh count per row: -1 where a root is on the imaginary axis or the order drops."""
-    on_line = [f.at_x(c) for f in coeffs]
-    labels = []
-    for t in rows:
-        values = [p(t) for p in on_line]
-        if values[0] == 0:
-            labels.append(-1)
-            continue
-        counts = routh_counts(values)
-        labels.append(-1 if counts.jw else counts.rhp)
-    return labels
+def _label_on_boundary(line: list[fmpq_poly], t: fmpq) -> int:
+    """The exact count at a point of the boundary set (coefficients ``line`` on its vertical line,
+    at y = t): -1 where a root is on the imaginary axis or the order drops, which is where the
+    boundary really is (a candidate such as a real pair ±a is no boundary)."""
+    values = [p(t) for p in line]
+    if values[0] == 0:
+        return -1
+    counts = routh_counts(values)
+    return -1 if counts.jw else counts.rhp
 
 
 def _label(counts: tuple[int, int]) -> int:
@@ -371,12 +368,10 @@ def _inside(b: Boundary, lo: fmpq, hi: fmpq) -> Boundary | None:
     return b
 
 
-def _counts(coeffs: list[fmpq], degree: int) -> tuple[int, int]:
-    """Exact (right half plane, imaginary axis) root counts: the Hurwitz test first (the cheap
-    common answer), then the sign changes of a Routh first column proven nonzero in ball
-    arithmetic (no root on the axis then), else full counting."""
-    if is_hurwitz(coeffs, degree):
-        return 0, 0
+def _counts(coeffs: list[fmpq]) -> tuple[int, int]:
+    """Exact (right half plane, imaginary axis) root counts at a point off the boundaries of the
+    order (leading coefficient nonzero): the sign changes of a Routh first column proven nonzero
+    in ball arithmetic (no root on the axis then), else full counting."""
     changes = _routh_sign_changes_by_balls(coeffs)
     if changes is not None:
         return changes, 0
@@ -391,7 +386,8 @@ def _routh_sign_changes_by_balls(coeffs: list[fmpq]) -> int | None:
     (Routh 1877), so this is exact as a decision."""
     from flint import arb, arb_poly, ctx
 
-    with ctx.workprec(256):
+    bits = max(max(int(c.p).bit_length(), int(c.q).bit_length()) for c in coeffs)
+    with ctx.workprec(128 + 2 * bits):
         above = arb_poly([arb(c) for c in coeffs[0::2]])
         prev = arb_poly([arb(c) for c in coeffs[1::2]])
         firsts = [above[0], prev[0]]
@@ -537,8 +533,11 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
     extra = _between_critical_values(flat, xs, x_range, y_range)
     samples = sorted([(c, col, secs) for c, col, secs in zip(xs, columns, sectors)] +
                      [(c, _column(c, bivariate, flat, y_range), None) for c in extra or []], key=lambda s: s[0])
-    grid_columns = [[_label(col.counts[k]) if k >= 0 else -1 for k in secs] if col is not None
-                    else _labels_point_by_point(c, ys, bivariate) for c, col, secs in zip(xs, columns, sectors)]
+    grid_columns = []
+    for c, col, secs in zip(xs, columns, sectors):
+        line = [f.at_x(c) for f in bivariate]
+        grid_columns.append([_label(col.counts[k]) if col is not None and k >= 0 else _label_on_boundary(line, t)
+                             for k, t in zip(secs, ys)])
     slices = _slices(x, y, x_range, y_range, bivariate, flat)
     floats = (to_float(y_range[0]), to_float(y_range[1]))
     return Plane(
