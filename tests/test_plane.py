@@ -381,3 +381,13 @@ def test_random_polynomials_against_numpy():
                     assert plane.grid[j][i] == expected, (str(poly), xv, yv)
                     compared += 1
     assert compared > 200
+
+
+def test_parameters_named_like_internal_variables():
+    # s^3 + u s^2 + s + v: stable iff u > 0, v > 0 and u * 1 > v (Routh, third order, textbook)
+    s, u, v = mpoly_context(["u", "v"]).gens()
+    plane = stability_plane(s**3 + u * s**2 + s + v, "u", "v", {}, (fmpq(-1), fmpq(4)), (fmpq(-1), fmpq(3)), 10)
+    for j, vv in enumerate(centres(-1, 3, 10)):
+        for i, uu in enumerate(centres(-1, 4, 10)):
+            if uu != vv:
+                assert (plane.grid[j][i] == 0) == (uu > 0 and vv > 0 and uu > vv)

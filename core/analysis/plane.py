@@ -52,7 +52,7 @@ from itertools import pairwise
 import numpy as np
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly
 
-from core.algebra.polynomial import ParametricPolynomial, mpoly_text, primitive_scale, to_float
+from core.algebra.polynomial import ParametricPolynomial, S, mpoly_text, primitive_scale, to_float
 from core.analysis.routh import routh_counts
 from core.analysis.stable_range import (
     Boundary,
@@ -216,7 +216,7 @@ def _hurwitz_delta_xy(coeffs: list[fmpq_mpoly]) -> fmpq_mpoly:
     n = len(coeffs) - 1
     if n < 2:
         return ctx2.constant(1)
-    ctx3 = fmpq_mpoly_ctx.get(("u", *ctx2.names()), "lex")
+    ctx3 = fmpq_mpoly_ctx.get((S, *ctx2.names()), "lex")  # S stands for u = s^2: never a parameter name
 
     def part(indices):
         return ctx3.from_dict({(i, *e): c for i, k in enumerate(indices) for e, c in coeffs[k].to_dict().items()})
@@ -224,7 +224,7 @@ def _hurwitz_delta_xy(coeffs: list[fmpq_mpoly]) -> fmpq_mpoly:
     odd = part([n - 1 - 2 * i for i in range((n - 1) // 2 + 1)])
     if even.is_zero() or odd.is_zero():
         return ctx2.constant(0)
-    res = even.resultant(odd, "u")
+    res = even.resultant(odd, S)
     return ctx2.from_dict({e[1:]: c for e, c in res.to_dict().items()})
 
 
@@ -295,10 +295,10 @@ def _symmetric_sources(symmetric: list[fmpq_mpoly]) -> list[tuple[str, fmpq_mpol
     h = symmetric[m % 2::2]  # the even powers of s, highest first: h(u) with u = s^2
     sources = [("origin", h[-1]), ("infinity", h[0])]
     if len(h) > 2:
-        ctx3 = fmpq_mpoly_ctx.get(("u", *h[0].context().names()), "lex")
+        ctx3 = fmpq_mpoly_ctx.get((S, *h[0].context().names()), "lex")  # S stands for u
         k = len(h) - 1
         hu = ctx3.from_dict({(k - i, *e): v for i, c in enumerate(h) for e, v in c.to_dict().items()})
-        disc = hu.discriminant("u")
+        disc = hu.discriminant(S)
         sources.append(("crossing", h[0].context().from_dict({e[1:]: v for e, v in disc.to_dict().items()})))
     return sources
 
