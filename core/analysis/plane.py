@@ -544,7 +544,8 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
         x=x, y=y, x_range=x_range, y_range=y_range,
         boundaries={k: [mpoly_text(f) for f in factors[k]] for k in KINDS if factors[k]},
         regions=_regions([(col, secs) for _, col, secs in samples], x, y, floats), regions_complete=extra is not None,
-        arcs=_arcs(columns, bivariate, flat, x_range, floats),
+        arcs=_arcs([_column(x_range[0], bivariate, flat, y_range), *columns,
+                    _column(x_range[1], bivariate, flat, y_range)], bivariate, flat, x_range, floats),
         slices=slices, xs=[to_float(v) for v in xs], ys=[to_float(v) for v in ys],
         grid=[list(row) for row in zip(*grid_columns)],
         nominal={n: str(values[n]) for n in (x, y) if n in values})
@@ -644,7 +645,8 @@ def _widest(group: list[int], cells, columns, y_floats) -> tuple[int, int]:
 
 
 def _arcs(columns, bivariate, flat, x_range, y_floats) -> list[Arc]:
-    """Polylines through the exact boundary points of consecutive columns, one family per boundary
+    """Polylines through the exact boundary points of consecutive columns (the grid's, with the
+    rectangle's left and right edges), one family per boundary
     factor, joined in order while two neighbouring columns hold as many points of it; crossings
     only where the pair lies on the axis (omega^2 > 0). Vertical lines for factors in x alone."""
     arcs: list[Arc] = []
