@@ -346,10 +346,10 @@ def _label_on_boundary(line: list[fmpq_poly], t: fmpq) -> int:
     at y = t): -1 where a root is on the imaginary axis or the order drops, which is where the
     boundary really is (a candidate such as a real pair ±a is no boundary)."""
     values = [p(t) for p in line]
-    if values[0] == 0:
+    if values[0] == 0 or values[-1] == 0:  # the order drops, or a root at s = 0
         return -1
-    counts = routh_counts(values)
-    return -1 if counts.jw else counts.rhp
+    rhp, jw = _counts(values)
+    return -1 if jw else rhp
 
 
 def _label(counts: tuple[int, int]) -> int:
