@@ -391,3 +391,8 @@ def test_parameters_named_like_internal_variables():
         for i, uu in enumerate(centres(-1, 4, 10)):
             if uu != vv:
                 assert (plane.grid[j][i] == 0) == (uu > 0 and vv > 0 and uu > vv)
+
+
+def test_command_line_overlong_plane_text(capsys):
+    assert main(["check", "--poly", PI_TEXT, "--plane", "Kp=0..1," + "Ki" * 300 + "=0..1"]) == 2
+    assert ": E501" in capsys.readouterr().err

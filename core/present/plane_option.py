@@ -29,6 +29,7 @@ _NAME = r"[^\W\d]\w*"
 _AXIS = rf"\s*({_NAME})\s*(?:=(.+?)\.\.(.+?))?\s*"
 _OPTION = re.compile(rf"^{_AXIS},{_AXIS}$")
 WHERE = "--plane"
+MAX_TEXT = 400  # characters read at most (the pattern is matched only on text this short)
 
 
 @dataclass(frozen=True)
@@ -45,7 +46,7 @@ def read_plane_option(text: str, need_ranges: bool, read_value: Callable[[str, s
     """``X=LO..HI,Y=LO..HI`` (or ``X,Y`` unless ``need_ranges``) as PlaneAxes. E501 malformed text
     or a missing range, E420 the same name twice, E421 LO >= HI; each number read by
     ``read_value(text, where)`` (the command line's exact reader, with its own codes)."""
-    match = _OPTION.match(text)
+    match = _OPTION.match(text) if len(text) <= MAX_TEXT else None
     if match is None:
         raise UsageError("E501", f"--plane wants X=LO..HI,Y=LO..HI, got '{text[:60]}'", where=WHERE)
     x, xlo, xhi, y, ylo, yhi = match.groups()
@@ -73,7 +74,8 @@ def _checked_range(name: str, lo: fmpq, hi: fmpq) -> tuple[fmpq, fmpq]:
 
 def values_for_polynomial(text: str, axes: PlaneAxes, at: Mapping[str, object]) -> tuple[dict[str, object], list[str]]:
     """``at`` with a value for each axis that has none (the simplest rational in the upper half of
-    its range: 0, often a degenerate gain, only when nothing simpler lies there), and a note for each value so chosen; E422 for an axis that is not a parameter of the polynomial."""
+    its range: 0, often a degenerate gain, only when nothing simpler lies there), and a note for
+    each value so chosen; E422 for an axis that is not a parameter of the polynomial."""
     from core.algebra.expression import expression_parameters
 
     names = sorted(expression_parameters(text))
