@@ -22,11 +22,12 @@ from dataclasses import dataclass, field
 from itertools import pairwise
 
 from app.panels.common import MINUS, math_html, number, pole_number, pole_size
-from app.panels.polynomial_panel import HIDDEN_PREFIX, factored
+from app.panels.polynomial_panel import factored
 from app.panels.range_panel import how_lost, range_intervals_html
 from app.panels.routh_panel import entry_display, evaluate_entry, power_label
 from core.algebra.polynomial import to_fmpq
 from core.analysis.report import CAUTION
+from core.errors import notice_kind
 from core.model.diagram import Diagram
 
 ROLE_NAMES = {"gain": "Gain", "controller": "Controller", "actuator": "Actuator", "plant": "Plant",
@@ -407,7 +408,7 @@ def requirements_html(inputs: ReportInputs, step) -> str:
 def warnings_html(inputs: ReportInputs) -> str:
     """Warnings of the analysis (hidden modes have their own list) and notes at the nominal value."""
     report = inputs.result.report
-    items = [w for w in report.warnings if not w.startswith(HIDDEN_PREFIX)]
+    items = [w for w in report.warnings if notice_kind(w) != "hidden_mode"]  # those have their section
     if report.nominal is not None:
         items += report.nominal.notes
     body = ("".join(f"<li class='warn'>{math_html(w)}</li>" for w in items) if items

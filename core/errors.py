@@ -55,6 +55,7 @@ CATALOGUE: dict[str, str] = {
     "E407": "transfer function improper: no step response",
     "E408": "a block's denominator is zero at the nominal values",
     "E409": "step response beyond the floating-point range",
+    "E410": "loop order above the analysed limit",
     "E420": "stability plane: the same parameter on both axes",
     "E421": "stability plane: an axis range is empty or inverted",
     "E422": "stability plane: an axis is not a parameter",
@@ -111,3 +112,47 @@ class AnalysisError(LoopwrightError):
 
 class UsageError(LoopwrightError):
     """Command-line arguments that do not make sense (codes E5xx)."""
+
+
+NOTICE_KINDS = {
+    "left_out": "parts of the diagram on no input-output path, left out of the analysis",
+    "open_port": "a junction input not connected (contributes zero)",
+    "improper_block": "a block whose numerator degree exceeds its denominator's",
+    "loops_truncated": "more loops than are listed",
+    "ill_posed": "the loop gain tends to 1 as s grows (the order drops)",
+    "not_reached": "the output does not depend on the input, or parts are not reached or not seen",
+    "routh_omitted": "the Routh array is too large to write out",
+    "numerically_sensitive": "floating-point roots disagree with the exact counts",
+    "degenerate": "the characteristic polynomial vanishes identically at the nominal values",
+    "cancellation": "a mode cancels out of the transfer function at some value of the tuning parameter",
+    "hidden_mode": "a mode cancels out of the transfer function at the nominal values",
+    "note": "any other note",
+}
+
+
+class Notice(str):
+    """A warning's text with a stable ``kind`` from :data:`NOTICE_KINDS`: programs (the window, the
+    report, a CI script reading ``warning_kinds``) sort notices by kind, never by their wording.
+
+    >>> n = Notice("block G is improper: ...", "improper_block")
+    >>> n.kind, n.startswith("block G"), Notice("plain").kind
+    ('improper_block', True, 'note')
+    """
+
+    kind: str
+
+    def __new__(cls, text: str, kind: str = "note"):
+        if kind not in NOTICE_KINDS:
+            raise ValueError(f"unknown notice kind {kind!r}")
+        notice = super().__new__(cls, text)
+        notice.kind = kind
+        return notice
+
+    def __reduce__(self):
+        return (Notice, (str(self), self.kind))
+
+
+def notice_kind(text: str) -> str:
+    """The kind of a warning text (``note`` for a plain string)."""
+    return getattr(text, "kind", "note")
+

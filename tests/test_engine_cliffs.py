@@ -17,7 +17,7 @@ import sympy
 from flint import fmpq, fmpq_poly
 
 from core.algebra.polynomial import ParametricPolynomial
-from core.analysis.report import check_polynomial
+from core.analysis.report import check_polynomial, check_project
 from core.analysis.routh import DISPLAY_BITS, is_hurwitz, routh_array
 from core.analysis.stable_range import hurwitz_delta
 
@@ -124,3 +124,14 @@ def test_s200_plus_one_counts_without_building_the_whole_eps_array():
     report = check_polynomial("s^200 + 1")
     assert (report.nominal.rhp, report.nominal.jw, report.nominal.lhp) == (100, 0, 100)
     assert any("too large to write out" in n for n in report.nominal.notes)
+
+
+def test_a_loop_of_order_above_the_limit_is_refused_before_any_work():
+    # Stated limit (docs/guarantees.md): the analysed blocks' orders add up to at most 200.
+    from bench.generators import nested_loops_diagram
+    from core.errors import AnalysisError
+    from core.graph.reduction import MAX_LOOP_ORDER
+
+    with pytest.raises(AnalysisError) as err:
+        check_project(nested_loops_diagram(500))
+    assert err.value.code == "E410" and f"up to {MAX_LOOP_ORDER}" in err.value.message

@@ -15,9 +15,11 @@ from __future__ import annotations
 import html
 import re
 
+from core.present import MINUS
+
 _NUMBER = r"(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 _TOKEN = re.compile(rf"\s*(\*\*|{_NUMBER}|[A-Za-z_][A-Za-z0-9_]*|.)")
-MINUS, THIN = "\u2212", "\u2009"
+THIN = "\u2009"
 
 
 def _name_html(name: str) -> str:

@@ -15,7 +15,7 @@ from PySide6.QtWidgets import QGraphicsItem
 from core.model.diagram import Node
 
 from ..theme import Theme, label_font, math_font, selection_glow
-from .formula import formula_html, is_one
+from .formula import MINUS, formula_html, is_one
 from .port_item import BRANCH_HIT_RADIUS, HIT_RADIUS, PortItem
 
 GRID = 10.0
@@ -23,7 +23,6 @@ SUM_RADIUS = 15.0
 TERMINAL_RADIUS = 5.0
 BRANCH_RADIUS = 3.5
 BAND = 5.0
-MINUS = "\u2212"
 
 
 def _round_up(value: float, step: float) -> float:

@@ -16,8 +16,7 @@ from PySide6.QtGui import QColor
 from PySide6.QtWidgets import QLabel, QSizePolicy, QWidget
 
 from app.theme import figure_font, math_font, system_is_dark
-
-MINUS = "\u2212"
+from core.present import MINUS
 
 
 def math_html(text: str) -> str:

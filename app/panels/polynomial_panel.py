@@ -18,8 +18,7 @@ from app.panels.common import (
     pole_number,
 )
 from core.algebra.polynomial import ParametricPolynomial, mpoly_context, mpoly_text, poly_text, to_fmpq
-
-HIDDEN_PREFIX = "hidden mode at s ="  # the analysis' own hidden-mode warnings, shown in their section
+from core.errors import notice_kind
 
 
 def _factor_text(const, factors: list[tuple[object, int]], text_of) -> str:
@@ -192,7 +191,7 @@ class PolynomialPanel(QWidget):
                                    f"</span>{mult} sits in {blocks}: it cancels out of the input-to-output "
                                    f"transfer function but stays in the loop; it {state}.", "warn"))
             out.append(_section("Hidden modes", "".join(lines)))
-        others = [w for w in report.warnings if not w.startswith(HIDDEN_PREFIX)]
+        others = [w for w in report.warnings if notice_kind(w) != "hidden_mode"]  # those have their section
         if report.nominal is not None:
             others += report.nominal.notes
         if others:

@@ -30,7 +30,7 @@ from core.analysis.report import Report, check_project
 from core.analysis.requirements import TimeDomain, prepare
 from core.analysis.routh import RouthArray, is_hurwitz, routh_counts
 from core.analysis.time_response import StepResponse, step_response
-from core.errors import LoopwrightError
+from core.errors import LoopwrightError, Notice
 from core.io.project_file import project_from_dict
 from core.model.diagram import Diagram
 from core.model.requirements import Requirements
@@ -293,7 +293,7 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
             result.paths = pole_paths(report.analysed, result.path_values)
         result.float_warning = float_sensitivity(result, tuning)
         if result.float_warning is not None:
-            report.warnings.append(result.float_warning)
+            report.warnings.append(Notice(result.float_warning, "numerically_sensitive"))
         result.time_domain = _time_domain(diagram, report, tuning)
         _nominal_steps(result)
     except LoopwrightError as exc:

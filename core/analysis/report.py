@@ -29,7 +29,7 @@ from core.analysis.stable_range import (
     resultant_in_s,
     stable_range,
 )
-from core.errors import AnalysisError
+from core.errors import AnalysisError, Notice, notice_kind
 from core.model.diagram import Diagram
 
 if TYPE_CHECKING:
@@ -155,7 +155,8 @@ class Report:
             "poles": [p.to_dict() for p in self.nominal.poles] if self.nominal else None,
             "zeros": [[z.re, z.im] for z in expand_multiplicity(self.zeros)],
             "dominant_pole": dom.to_dict() if dom else None,
-            "warnings": self.warnings,
+            "warnings": [str(w) for w in self.warnings],
+            "warning_kinds": [notice_kind(w) for w in self.warnings],
             "left_out": self.left_out,
             "caution": CAUTION,
         }
@@ -257,7 +258,7 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
     rng = stable_range(analysed) if parameter else None
     routh = routh_array(analysed, limit_bits=DISPLAY_BITS)
     if routh.omitted:
-        warnings.append(f"Routh array not shown: {routh.omitted}")
+        warnings.append(Notice(f"Routh array not shown: {routh.omitted}", "routh_omitted"))
     nominal_value = values.get(parameter) if parameter else None
     nominal = None
     if parameter is None or nominal_value is not None:
@@ -292,8 +293,8 @@ def _nominal(poly: ParametricPolynomial, value, values: Mapping[str, fmpq], warn
                      f"to {len(coeffs) - 1}")
     float_rhp = sum(p.multiplicity for p in poles if p.re > 0)
     if counts.jw == 0 and float_rhp != counts.rhp:
-        warnings.append(f"numerically sensitive: certified roots show {float_rhp} in the right half plane, "
-                        f"the exact Routh count is {counts.rhp}; trust the exact count")
+        warnings.append(Notice(f"numerically sensitive: certified roots show {float_rhp} in the right half plane, "
+                        f"the exact Routh count is {counts.rhp}; trust the exact count", "numerically_sensitive"))
     stable = counts.rhp == 0 and counts.jw == 0 and len(coeffs) - 1 == poly.degree and len(coeffs) > 0
     return Nominal(values={k: float(v) for k, v in values.items()}, stable=stable, rhp=counts.rhp,
                    jw=counts.jw, lhp=counts.lhp, poles=poles, sign_changes=list(counts.sign_changes),
@@ -307,7 +308,7 @@ def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, 
     where = f"{poly.parameter} = {value}" if poly.parameter else "the nominal values"
     note = (f"the loop is degenerate at {where}: the characteristic polynomial vanishes identically "
             "there, so the loop equations do not determine the signals (not stable)")
-    warnings.append(note)
+    warnings.append(Notice(note, "degenerate"))
     return Nominal(values={k: float(v) for k, v in values.items()}, stable=False, rhp=0, jw=0, lhp=0,
                    poles=[], sign_changes=[], notes=[note], exact_values={k: str(v) for k, v in values.items()})
 
@@ -388,8 +389,9 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
         for mode in report.hidden_modes:
             where = f" (from {', '.join(mode.blocks)})" if mode.blocks else ""
             state = "UNSTABLE" if mode.unstable else "stable"
-            report.warnings.append(f"hidden mode at s = {_complex_text(mode.pole)}{where}: {state}; it cancels "
-                                   "out of the input-output transfer function but is still in the loop")
+            report.warnings.append(Notice(f"hidden mode at s = {_complex_text(mode.pole)}{where}: {state}; it "
+                                          "cancels out of the input-output transfer function but is still in "
+                                          "the loop", "hidden_mode"))
     return report
 
 
@@ -454,9 +456,9 @@ def _cancellation_values(red, parameter: str, values: Mapping[str, fmpq], rng: S
     if num.degree < 1 or den.degree < 1:
         return []
     if den.degree > CANCELLATION_DEGREE:
-        return [f"values of {parameter} where a further mode cancels were not searched above degree "
-                f"{CANCELLATION_DEGREE} in s"]
-    out = []
+        return [Notice(f"values of {parameter} where a further mode cancels were not searched above degree "
+                       f"{CANCELLATION_DEGREE} in s", "cancellation")]
+    out: list[str] = []
     ends = [] if rng is None else [e for lo, hi in rng.intervals for e in (lo, hi) if e is not None]
     for b in real_values(resultant_in_s(num, den)):
         if b.rational is not None and _univariate_at(num, b.rational).gcd(_univariate_at(den, b.rational)).degree() < 1:
@@ -464,8 +466,8 @@ def _cancellation_values(red, parameter: str, values: Mapping[str, fmpq], rng: S
         at_end = any(e.factor == b.factor and e.lo <= b.hi and b.lo <= e.hi for e in ends)
         inside = rng is not None and b.rational is not None and rng.contains(b.rational)
         where = ", inside the stable range" if inside else ", at an end of the stable range" if at_end else ""
-        out.append(f"at {parameter} = {b.text(parameter)} a mode cancels out of the input-output transfer "
-                   f"function (hidden there{where})")
+        out.append(Notice(f"at {parameter} = {b.text(parameter)} a mode cancels out of the input-output "
+                          f"transfer function (hidden there{where})", "cancellation"))
     return out
 
 

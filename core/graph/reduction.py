@@ -45,7 +45,7 @@ from dataclasses import dataclass, field
 
 from flint import fmpq_mpoly
 
-from core.errors import AnalysisError
+from core.errors import AnalysisError, Notice
 from core.graph.elimination import Frac, SingularSystem, eliminate, frac, fraction_product, product, sub
 from core.graph.mason import mason_gain
 from core.graph.signal_graph import (
@@ -86,18 +86,21 @@ class Reduction:
 def reduce_diagram(diagram: Diagram, input_id: str | None, output_id: str | None) -> Reduction:
     """Characteristic polynomial, loops and (when both ends are given) the transfer function.
 
-    Raises AnalysisError E401 for an unknown input or output, E402 when Delta is identically zero.
+    Raises AnalysisError E401 for an unknown input or output, E402 when Delta is identically zero,
+    E410 when the blocks' orders add up to more than MAX_LOOP_ORDER (refused before any work).
     """
     check_endpoints(diagram, input_id, output_id)
     endpoints = (input_id, output_id) if input_id is not None and output_id is not None else None
     kept, left_out = analysed_part(diagram, *endpoints) if endpoints is not None else (list(diagram.nodes), [])
     graph = build_signal_graph(diagram, kept)
+    _check_order(graph)
     with_transfer = endpoints is not None
     loops = simple_cycles(graph)
     warnings = _left_out_warnings(diagram, left_out, endpoints) + _port_warnings(diagram, graph) \
         + _improper_warnings(diagram, graph)
     if len(loops) >= MAX_LOOPS:
-        warnings.append(f"more than {MAX_LOOPS} loops: only the first {MAX_LOOPS} are listed")
+        warnings.append(Notice(f"more than {MAX_LOOPS} loops: only the first {MAX_LOOPS} are listed",
+                               "loops_truncated"))
     observed = output_id if endpoints is not None and graph.kinds[endpoints[1]] != "input" else None
     pivots, sign, x_out = _eliminate(graph, input_id if with_transfer else None, observed, loops)
     # Delta = sign * prod(pivots) in lowest terms: its denominator divides prod(D_i) exactly
@@ -179,13 +182,25 @@ def _set_transfer_function(red: Reduction, graph: SignalGraph, num: fmpq_mpoly) 
 def _left_out_warnings(diagram: Diagram, left_out: list[str], endpoints: tuple[str, str] | None) -> list[str]:
     if not left_out or endpoints is None:
         return []
-    return [f"left out of the analysis (on no wire path from the input {endpoints[0]} to the output "
-            f"{endpoints[1]}): {', '.join(left_out)}"]
+    return [Notice(f"left out of the analysis (on no wire path from the input {endpoints[0]} to the output "
+                   f"{endpoints[1]}): {', '.join(left_out)}", "left_out")]
 
 
 def _port_warnings(diagram: Diagram, graph: SignalGraph) -> list[str]:
-    return [f"node {nid}: input {port + 1} is not connected and contributes zero"
+    return [Notice(f"node {nid}: input {port + 1} is not connected and contributes zero", "open_port")
             for nid, port in graph.unconnected]
+
+
+MAX_LOOP_ORDER = 200  # the sum of the analysed blocks' orders in s (the characteristic degree's bound)
+
+
+def _check_order(graph: SignalGraph) -> None:
+    """Refuse, before any elimination, a loop whose order could pass MAX_LOOP_ORDER."""
+    order = sum(max(_s_degree(n), _s_degree(d)) for n, d in graph.blocks.values())
+    if order > MAX_LOOP_ORDER:
+        raise AnalysisError("E410", f"the analysed blocks' orders in s add up to {order}; loops of order up "
+                                    f"to {MAX_LOOP_ORDER} are analysed (lower the blocks' orders, or leave "
+                                    "blocks off the input-output path)", where="diagram")
 
 
 def _s_degree(p: fmpq_mpoly) -> int:
@@ -193,11 +208,11 @@ def _s_degree(p: fmpq_mpoly) -> int:
 
 
 def _improper_warnings(diagram: Diagram, graph: SignalGraph) -> list[str]:
-    out = []
+    out: list[str] = []
     for b, (n, d) in graph.blocks.items():
         if _s_degree(n) > _s_degree(d):
-            out.append(f"block {b} is improper: its numerator has degree {_s_degree(n)} in s, "
-                       f"its denominator {_s_degree(d)}")
+            out.append(Notice(f"block {b} is improper: its numerator has degree {_s_degree(n)} in s, "
+                              f"its denominator {_s_degree(d)}", "improper_block"))
     return out
 
 
@@ -216,21 +231,22 @@ def _ill_posed_warnings(diagram: Diagram, graph: SignalGraph, characteristic: fm
         if all(_s_degree(blocks[b][0]) == _s_degree(blocks[b][1]) for b in lp if b in blocks):
             suspects += [n for n in lp if n not in suspects and (n in blocks or not any(b in blocks for b in lp))]
     named = f" (loop through {', '.join(suspects)})" if suspects else ""
-    return [(f"ill-posed loop{named}: the loop gain tends to 1 as s grows, so the characteristic polynomial "
-             f"has degree {got} instead of {expected}")]
+    return [Notice(f"ill-posed loop{named}: the loop gain tends to 1 as s grows, so the characteristic "
+                   f"polynomial has degree {got} instead of {expected}", "ill_posed")]
 
 
 def _reach_warnings(diagram: Diagram, graph: SignalGraph, input_id: str, output_id: str,
                     num: fmpq_mpoly) -> list[str]:
-    out = []
+    out: list[str] = []
     forward = reachable(input_id, graph.successors())
     backward = reachable(output_id, graph.predecessors())
     if output_id not in forward or num.is_zero():
-        out.append(f"the output {output_id} does not depend on the input {input_id}: the transfer function is 0")
+        out.append(Notice(f"the output {output_id} does not depend on the input {input_id}: the transfer "
+                          "function is 0", "not_reached"))
     unreached = [n for n in graph.order if n not in forward and graph.kinds[n] != "input"]
     if unreached:
-        out.append(f"not reached from the input {input_id}: {', '.join(unreached)}")
+        out.append(Notice(f"not reached from the input {input_id}: {', '.join(unreached)}", "not_reached"))
     unseen = [n for n in graph.order if n not in backward and graph.kinds[n] != "output"]
     if unseen:
-        out.append(f"not seen at the output {output_id}: {', '.join(unseen)}")
+        out.append(Notice(f"not seen at the output {output_id}: {', '.join(unseen)}", "not_reached"))
     return out

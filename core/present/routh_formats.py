@@ -24,8 +24,8 @@ import re
 from collections.abc import Sequence
 
 from core.analysis.routh import RouthArray
+from core.present import MINUS
 
-MINUS = "\u2212"
 _TOKEN = re.compile(r"\s*(\d+/\d+|\d+|[A-Za-z_][A-Za-z0-9_]*|\^|\*|/|\(|\)|[+-]|\S)")
 
 
