@@ -56,9 +56,9 @@ CATALOGUE: dict[str, str] = {
     "E408": "a block's denominator is zero at the nominal values",
     "E409": "step response beyond the floating-point range",
     "E410": "loop order above the analysed limit",
-    "E420": "stability plane: the same parameter on both axes",
-    "E421": "stability plane: an axis range is empty or inverted",
-    "E422": "stability plane: an axis is not a parameter",
+    "E430": "stability plane: the same parameter on both axes",
+    "E431": "stability plane: an axis range is empty or inverted",
+    "E432": "stability plane: an axis is not a parameter",
     # command line
     "E501": "command-line arguments invalid",
 }

@@ -512,14 +512,14 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
     ``y`` over the rectangle, every other parameter at its value in ``values``; ``values`` may hold
     x and y too (the nominal point). See the module notes for the method.
 
-    Raises E420 for an axis equal to the other, E421 for an empty or inverted range, E404 for a
+    Raises E430 for an axis equal to the other, E431 for an empty or inverted range, E404 for a
     parameter without a value, E403 for a polynomial identically zero in the plane.
     """
     if x == y:
-        raise AnalysisError("E420", f"the plane needs two different parameters, got '{x}' twice", where="plane")
+        raise AnalysisError("E430", f"the plane needs two different parameters, got '{x}' twice", where="plane")
     for name, (lo, hi) in ((x, x_range), (y, y_range)):
         if not lo < hi:
-            raise AnalysisError("E421", f"the range of {name} is empty: {short_text(lo)} is not below {short_text(hi)}",
+            raise AnalysisError("E431", f"the range of {name} is empty: {short_text(lo)} is not below {short_text(hi)}",
                                 where=f"plane {name}")
     coeffs = _coefficients_in_xy(poly, x, y, values)
     if not coeffs or all(c.is_zero() for c in coeffs):

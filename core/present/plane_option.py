@@ -44,14 +44,14 @@ class PlaneAxes:
 
 def read_plane_option(text: str, need_ranges: bool, read_value: Callable[[str, str], fmpq]) -> PlaneAxes:
     """``X=LO..HI,Y=LO..HI`` (or ``X,Y`` unless ``need_ranges``) as PlaneAxes. E501 malformed text
-    or a missing range, E420 the same name twice, E421 LO >= HI; each number read by
+    or a missing range, E430 the same name twice, E431 LO >= HI; each number read by
     ``read_value(text, where)`` (the command line's exact reader, with its own codes)."""
     match = _OPTION.match(text) if len(text) <= MAX_TEXT else None
     if match is None:
         raise UsageError("E501", f"--plane wants X=LO..HI,Y=LO..HI, got '{text[:60]}'", where=WHERE)
     x, xlo, xhi, y, ylo, yhi = match.groups()
     if x == y:
-        raise AnalysisError("E420", f"the plane needs two different parameters, got '{x[:40]}' twice", where=WHERE)
+        raise AnalysisError("E430", f"the plane needs two different parameters, got '{x[:40]}' twice", where=WHERE)
     ranges: list[tuple[fmpq, fmpq] | None] = []
     for name, lo, hi in ((x, xlo, xhi), (y, ylo, yhi)):
         if lo is None:
@@ -67,7 +67,7 @@ def read_plane_option(text: str, need_ranges: bool, read_value: Callable[[str, s
 
 def _checked_range(name: str, lo: fmpq, hi: fmpq) -> tuple[fmpq, fmpq]:
     if not lo < hi:
-        raise AnalysisError("E421", f"the range of {name[:40]} is empty: {short_text(lo)} is not below {short_text(hi)}",
+        raise AnalysisError("E431", f"the range of {name[:40]} is empty: {short_text(lo)} is not below {short_text(hi)}",
                             where=f"{WHERE} {name[:40]}")
     return lo, hi
 
@@ -75,13 +75,13 @@ def _checked_range(name: str, lo: fmpq, hi: fmpq) -> tuple[fmpq, fmpq]:
 def values_for_polynomial(text: str, axes: PlaneAxes, at: Mapping[str, object]) -> tuple[dict[str, object], list[str]]:
     """``at`` with a value for each axis that has none (the simplest rational in the upper half of
     its range: 0, often a degenerate gain, only when nothing simpler lies there), and a note for
-    each value so chosen; E422 for an axis that is not a parameter of the polynomial."""
+    each value so chosen; E432 for an axis that is not a parameter of the polynomial."""
     from core.algebra.expression import expression_parameters
 
     names = sorted(expression_parameters(text))
     for name in (axes.x, axes.y):
         if name not in names:
-            raise AnalysisError("E422", f"'{name[:40]}' is not a parameter of the polynomial "
+            raise AnalysisError("E432", f"'{name[:40]}' is not a parameter of the polynomial "
                                 f"(it has {', '.join(names) or 'none'})", where=f"{WHERE} {name[:40]}")
     values = dict(at)
     notes = []
@@ -107,13 +107,13 @@ def plane_of_polynomial(text: str, axes: PlaneAxes, values: Mapping[str, fmpq]) 
 
 def plane_of_project(project, report, axes: PlaneAxes) -> Plane:
     """The plane of an analysed project: its characteristic polynomial, every other parameter at
-    the value the report used, missing ranges from the parameter table (E422 for an axis that is
+    the value the report used, missing ranges from the parameter table (E432 for an axis that is
     not a parameter of the project)."""
     ranges = []
     for name, rng in ((axes.x, axes.x_range), (axes.y, axes.y_range)):
         param = project.parameters.get(name)
         if param is None:
-            raise AnalysisError("E422", f"the project has no parameter '{name[:40]}' "
+            raise AnalysisError("E432", f"the project has no parameter '{name[:40]}' "
                                 f"(it has {', '.join(sorted(project.parameters)) or 'none'})",
                                 where=f"{WHERE} {name[:40]}")
         ranges.append(rng or _checked_range(name, _decimal(param.minimum), _decimal(param.maximum)))
