@@ -1,4 +1,4 @@
-"""Row 6: the stability plane of a degree-6 loop in two controller gains at 200 x 200.
+"""Row plane: the stability plane of a degree-6 loop in two controller gains at 200 x 200.
 
 The timed call is :func:`core.analysis.plane.stability_plane` on a PI controller Kp + Ki/s around
 the degree-5 plant of :func:`bench.generators.unity_feedback_loop` (its N/D), characteristic
@@ -47,7 +47,7 @@ def run(quick: bool) -> list[Row]:
     times = repeat(timed_plane(), repeats=3 if quick else 9)
     result = timed_plane()()
     took = median(times)
-    return [Row("6", f"stability plane, degree 6 in Kp and Ki, {RESOLUTION} x {RESOLUTION}, median of "
+    return [Row("plane", f"stability plane, degree 6 in Kp and Ki, {RESOLUTION} x {RESOLUTION}, median of "
                 f"{len(times)}", ms(took), f"<= {ms(TARGET_S)}", took <= TARGET_S,
                 {"median_s": took, "times_s": times, "regions": len(result.regions),
                  "arcs": len(result.arcs)})]

@@ -21,7 +21,7 @@ from core.errors import ExpressionError, LoopwrightError, ModelError, UsageError
 PROGRAM = "loopwright-check"
 # the options that take a value; a value starting with '-' (``--poly -s^2-1``) is kept as the value
 VALUE_OPTIONS = ("--poly", "--param", "--at", "--decay", "--time-to-half", "--settling",
-                 "--min-damping", "--max-overshoot", "--min-gain-margin", "--plane")
+                 "--min-damping", "--max-overshoot", "--min-gain-margin", "--tolerance", "--plane")
 FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--help")
 DECAY_OPTIONS = {"--decay": ("sigma", "a decay rate", "1/s"), "--time-to-half": ("half_time", "a time to half", "s"),
                  "--settling": ("settling", "a settling time", "s")}
@@ -53,6 +53,9 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--max-overshoot", metavar="PERCENT", help="requirement: maximum step overshoot in %% (projects)")
     check.add_argument("--min-gain-margin", metavar="FACTOR",
                        help="requirement: minimum factor the tuning parameter may rise by (or e.g. 6dB)")
+    check.add_argument("--tolerance", metavar="NAME=LO..HI", action="append", default=[],
+                       help="a parameter's tolerance, exact (T=0.08..0.12; repeatable; with a project it "
+                            "replaces the file's): adds the robust range of the tuning parameter")
     check.add_argument("--plane", metavar="X=LO..HI,Y=LO..HI",
                        help="the stability plane of two parameters (ranges optional for a project: "
                             "from its parameter table)")
@@ -134,6 +137,23 @@ def _parse_at(items: Sequence[str]) -> dict[str, object]:
     return values
 
 
+def _parse_tolerances(items: Sequence[str]) -> dict[str, tuple]:
+    """``--tolerance NAME=LO..HI`` values as exact (lo, hi) pairs (the analysis checks lo < hi).
+
+    >>> _parse_tolerances(["T=0.08..0.12", "a=-1..1/2"])
+    {'T': (2/25, 3/25), 'a': (-1, 1/2)}
+    """
+    tolerances = {}
+    for item in items:
+        name, sep, rest = item.partition("=")
+        ends = rest.split("..")
+        if not sep or not name.strip() or len(ends) != 2 or not all(e.strip() for e in ends):
+            raise UsageError("E501", f"--tolerance wants NAME=LO..HI, got '{item[:40]}'", where="--tolerance")
+        where = f"--tolerance {name.strip()[:40]}"
+        tolerances[name.strip()] = (exact_value(ends[0], where), exact_value(ends[1], where))
+    return tolerances
+
+
 def _decay(args) -> tuple[str, float] | None:
     """The decay requirement given on the command line: (mode, value), checked; None if none."""
     from core.algebra.numbers import read_value
@@ -189,6 +209,7 @@ def run(args) -> int:
     from core.present.verdicts import requirements_outcome, search_span
 
     at = _parse_at(args.at)
+    tolerances = _parse_tolerances(args.tolerance)
     decay = _decay(args)
     if (args.poly is None) == (args.project is None):
         raise UsageError("E501", "give either a project file or --poly TEXT", where="command line")
@@ -197,7 +218,8 @@ def run(args) -> int:
         requirements = _requirements(args, Requirements())
         mode, value = decay or ("sigma", 0.0)
         values, notes = plane_option.values_for_polynomial(args.poly, axes, at) if axes is not None else (at, [])
-        report = check_polynomial(args.poly, parameter=args.param, at=values, decay=value, decay_mode=mode)
+        report = check_polynomial(args.poly, parameter=args.param, at=values, decay=value, decay_mode=mode,
+                                  tolerances=tolerances)
         report.warnings += notes
         outcome = requirements_outcome(report, requirements, span=search_span(report))
         plane = plane_option.plane_of_polynomial(args.poly, axes, report.values) if axes is not None else None
@@ -205,7 +227,7 @@ def run(args) -> int:
         if args.param:
             raise UsageError("E501", "--param goes with --poly; a project names its tuning parameter",
                              where="--param")
-        project, report = _check_project_with_values(args.project, at, decay)
+        project, report = _check_project_with_values(args.project, at, decay, tolerances)
         requirements = _requirements(args, project.requirements)
         outcome = requirements_outcome(report, requirements, project, span=_span(project, report))
         plane = plane_option.plane_of_project(project, report, axes) if axes is not None else None
@@ -260,7 +282,7 @@ def _span(project, report) -> tuple[float, float] | None:
     return (param.minimum, param.maximum) if param is not None else None
 
 
-def _check_project_with_values(path: str, at: dict[str, object], decay):
+def _check_project_with_values(path: str, at: dict[str, object], decay, tolerances=None):
     from core.analysis.report import check_project
     from core.errors import AnalysisError
     from core.io.project_file import load_project
@@ -269,7 +291,7 @@ def _check_project_with_values(path: str, at: dict[str, object], decay):
     for name in at:
         if name not in project.parameters:
             raise AnalysisError("E405", f"the project has no parameter '{name[:40]}'", where=f"--at {name[:40]}")
-    report = check_project(project, decay, values=at)  # exact: --at K=1/3 stays 1/3
+    report = check_project(project, decay, values=at, tolerances=tolerances)  # exact: --at K=1/3 stays 1/3
     report.source = path
     return project, report
 

@@ -45,6 +45,8 @@ CATALOGUE: dict[str, str] = {
     "E303": "id already in use",
     "E304": "parameter value invalid",
     "E305": "no such wire",
+    "E306": "tolerance empty, inverted or not finite",
+    "E307": "the tuning parameter cannot carry a tolerance",
     # analysis
     "E401": "input or output node not set or not found",
     "E402": "loop is ill-posed (algebraic loop with gain one)",
@@ -56,6 +58,9 @@ CATALOGUE: dict[str, str] = {
     "E408": "a block's denominator is zero at the nominal values",
     "E409": "step response beyond the floating-point range",
     "E410": "loop order above the analysed limit",
+    "E420": "tolerance empty, inverted or not finite (analysis)",
+    "E421": "tolerance given for the tuning parameter",
+    "E422": "tolerance given for a name that is not a parameter",
     "E430": "stability plane: the same parameter on both axes",
     "E431": "stability plane: an axis range is empty or inverted",
     "E432": "stability plane: an axis is not a parameter",

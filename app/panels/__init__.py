@@ -6,7 +6,7 @@ from __future__ import annotations
 from PySide6.QtCore import QEvent, QObject
 
 from app.panels.pole_map import PoleMap
-from app.panels.polynomial_panel import PolynomialPanel
+from app.panels.polynomial_panel import HTML_KEY, PolynomialPanel, polynomial_html
 from app.panels.range_panel import RangePanel
 from app.panels.routh_panel import RouthPanel, ready_cells
 from core.errors import LoopwrightError
@@ -22,7 +22,10 @@ def prepare_for_panels(result) -> None:
     if result.report is None:
         return
     ready_cells(result)
-    result.verdict_at(result.tuning_range.nominal if result.tuning_range is not None else None)
+    nominal = result.tuning_range.nominal if result.tuning_range is not None else None
+    result.verdict_at(nominal)
+    result.poles_and_beyond(nominal)  # remembered: the pole map's first draw only reads it
+    result.display[HTML_KEY] = polynomial_html(result)
     ready_headline(result)
 
 

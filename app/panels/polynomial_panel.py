@@ -148,26 +148,11 @@ class PolynomialPanel(QWidget):
         self.at_value.setText(self.at_value_html())
 
     def html(self) -> str:
-        """The panel's rich text (empty without a Report)."""
-        report = self._result.report if self._result is not None else None
-        if report is None:
+        """The panel's rich text (empty without a Report): readied on the worker when it can be."""
+        if self._result is None:
             return ""
-        parts = [_section("Expanded", _line(math_html(report.polynomial)))]
-        analysed = report.analysed.text()
-        if analysed != report.polynomial:
-            parts.append(_section("With other parameters at nominal", _line(math_html(analysed))))
-        fac = factored(report.analysed)
-        parts.append(_section("Factored over Q", _line(math_html(fac)) if fac else
-                              _line("does not factor over the rationals", "muted")))
-        transfer = report.transfer_function
-        if transfer:
-            body = fraction_html(transfer["num"], transfer["den"])
-            if (transfer["num"], transfer["den"]) != (transfer["num_full"], transfer["den_full"]):
-                body += _line("before cancelling common factors: (" + math_html(transfer["num_full"]) + ") / ("
-                              + math_html(transfer["den_full"]) + ")", "muted")
-            parts.append(_section("Closed-loop transfer function, input to output", body))
-        parts += self._warnings_html(report)
-        return "".join(parts)
+        ready = self._result.display.get(HTML_KEY)
+        return ready if isinstance(ready, str) else polynomial_html(self._result)
 
     def at_value_html(self) -> str:
         """The polynomial at the current value, factored over Q where it factors."""
@@ -178,25 +163,54 @@ class PolynomialPanel(QWidget):
         return (f"<style>{number_css()}</style><b>At {report.parameter} = <span class='num'>"
                 f"{number(self._value)}</span></b>&nbsp;&nbsp;<span class='math'>{math_html(at)}</span>")
 
-    def _warnings_html(self, report) -> list[str]:
-        out = []
-        if report.hidden_modes:
-            lines = []
-            for mode in report.hidden_modes:
-                blocks = ", ".join(mode.blocks) if mode.blocks else "the loop"
-                state = ("<span class='bad'>does not decay</span>" if mode.unstable
-                         else "<span class='good'>decays</span>")
-                mult = f" (×{mode.pole.multiplicity})" if mode.pole.multiplicity > 1 else ""
-                lines.append(_line(f"⚠ s = <span class='num'>{pole_number(mode.pole)}"
-                                   f"</span>{mult} sits in {blocks}: it cancels out of the input-to-output "
-                                   f"transfer function but stays in the loop; it {state}.", "warn"))
-            out.append(_section("Hidden modes", "".join(lines)))
-        others = [w for w in report.warnings if notice_kind(w) != "hidden_mode"]  # those have their section
-        if report.nominal is not None:
-            others += report.nominal.notes
-        if others:
-            out.append(_section("Warnings and notes", "".join(_line("• " + math_html(w), "warn") for w in others)))
-        return out
+
+HTML_KEY = "polynomial_html"  # result.display key: the panel's rich text, readied on the worker
 
 
-__all__ = ["PolynomialPanel", "factored", "factored_at", "fraction_html"]
+def polynomial_html(result) -> str:
+    """The panel's rich text for an AnalysisResult (empty without a Report); widget-free, so the
+    analysis worker can make it."""
+    report = result.report
+    if report is None:
+        return ""
+    parts = [_section("Expanded", _line(math_html(report.polynomial)))]
+    analysed = report.analysed.text()
+    if analysed != report.polynomial:
+        parts.append(_section("With other parameters at nominal", _line(math_html(analysed))))
+    fac = factored(report.analysed)
+    parts.append(_section("Factored over Q", _line(math_html(fac)) if fac else
+                          _line("does not factor over the rationals", "muted")))
+    transfer = report.transfer_function
+    if transfer:
+        body = fraction_html(transfer["num"], transfer["den"])
+        if (transfer["num"], transfer["den"]) != (transfer["num_full"], transfer["den_full"]):
+            body += _line("before cancelling common factors: (" + math_html(transfer["num_full"]) + ") / ("
+                          + math_html(transfer["den_full"]) + ")", "muted")
+        parts.append(_section("Closed-loop transfer function, input to output", body))
+    parts += warnings_html(report)
+    return "".join(parts)
+
+
+def warnings_html(report) -> list[str]:
+    """The hidden modes and the other warnings and notes, as rich-text sections."""
+    out = []
+    if report.hidden_modes:
+        lines = []
+        for mode in report.hidden_modes:
+            blocks = ", ".join(mode.blocks) if mode.blocks else "the loop"
+            state = ("<span class='bad'>does not decay</span>" if mode.unstable
+                     else "<span class='good'>decays</span>")
+            mult = f" (×{mode.pole.multiplicity})" if mode.pole.multiplicity > 1 else ""
+            lines.append(_line(f"⚠ s = <span class='num'>{pole_number(mode.pole)}"
+                               f"</span>{mult} sits in {blocks}: it cancels out of the input-to-output "
+                               f"transfer function but stays in the loop; it {state}.", "warn"))
+        out.append(_section("Hidden modes", "".join(lines)))
+    others = [w for w in report.warnings if notice_kind(w) != "hidden_mode"]  # those have their section
+    if report.nominal is not None:
+        others += report.nominal.notes
+    if others:
+        out.append(_section("Warnings and notes", "".join(_line("• " + math_html(w), "warn") for w in others)))
+    return out
+
+
+__all__ = ["HTML_KEY", "PolynomialPanel", "factored", "factored_at", "fraction_html", "polynomial_html"]

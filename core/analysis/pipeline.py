@@ -133,6 +133,7 @@ class AnalysisResult:
     step_errors: dict[str, LoopwrightError] = field(default_factory=dict)
     display: dict[str, object] = field(default_factory=dict)  # texts a caller readies on its worker thread
     _verdicts: dict[float | None, VerdictAt | None] = field(default_factory=dict, repr=False)
+    _poles_memo: tuple[float | None, tuple[np.ndarray, list[str]]] | None = field(default=None, repr=False)
 
     @property
     def ok(self) -> bool:
@@ -158,7 +159,14 @@ class AnalysisResult:
         return self.poles_and_beyond(value)[0]
 
     def poles_and_beyond(self, value: float | None) -> tuple[np.ndarray, list[str]]:
-        """(the drawable poles, texts of the poles beyond the float range) at a parameter value."""
+        """(the drawable poles, texts of the poles beyond the float range) at a parameter value;
+        the last value's are remembered (a worker can ready the nominal one)."""
+        key = None if value is None else float(value)
+        if self._poles_memo is None or self._poles_memo[0] != key:
+            self._poles_memo = (key, self._poles_and_beyond(value))
+        return self._poles_memo[1]
+
+    def _poles_and_beyond(self, value: float | None) -> tuple[np.ndarray, list[str]]:
         coeffs = self.coefficients_at(value)
         roots = _roots(coeffs)
         if (roots.size == coeffs.size - 1 and np.all(np.isfinite(roots))) or self.report is None:

@@ -33,6 +33,7 @@ from core.errors import AnalysisError, Notice, notice_kind
 from core.model.diagram import Diagram
 
 if TYPE_CHECKING:
+    from core.analysis.robust import RobustRange
     from core.graph.reduction import Reduction
 
 CAUTION = ("A linear model is not a safety case. Before power is applied, check actuator saturation, "
@@ -129,6 +130,7 @@ class Report:
     closed_num: fmpq_mpoly | None = None  # the transfer function numerator, exact (fmpq_mpoly, factors cancelled)
     left_out: list[str] = field(default_factory=list)  # node ids on no wire path from the input to the output
     reduction: Reduction | None = field(default=None, repr=False, compare=False)  # input to output, for reuse
+    robust_range: RobustRange | None = None  # with toleranced parameters (core.analysis.robust)
 
     @property
     def dominant(self) -> Pole | None:
@@ -158,6 +160,7 @@ class Report:
             "warnings": [str(w) for w in self.warnings],
             "warning_kinds": [notice_kind(w) for w in self.warnings],
             "left_out": self.left_out,
+            "robust_range": self.robust_range.to_dict() if self.robust_range is not None else None,
             "caution": CAUTION,
         }
 
@@ -234,13 +237,18 @@ def _exact_values(values: Mapping[str, object] | None) -> dict[str, fmpq]:
 
 
 def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, fmpq],
-                       decay: tuple[str, float] = ("sigma", 0.0), shown: str | None = None) -> Report:
-    """Routh array, stable range, decay range and nominal poles of one characteristic polynomial.
+                       decay: tuple[str, float] = ("sigma", 0.0), shown: str | None = None,
+                       tolerances: Mapping[str, tuple[fmpq, fmpq]] | None = None) -> Report:
+    """Routh array, stable range, decay range and nominal poles of one characteristic polynomial,
+    and the robust range when ``tolerances`` ({name: (lo, hi)}, exact, checked) are given.
 
     ``poly_mpoly`` is an fmpq_mpoly in ``s`` and parameters; every parameter but ``parameter``
-    must have a value in ``values``.
+    must have a value in ``values`` (a toleranced one without a value sits at its tolerance's middle).
     """
     names = poly_mpoly.context().names()[1:]
+    tolerances = dict(tolerances or {})
+    values = {**{q: (lo + hi) / 2 for q, (lo, hi) in tolerances.items() if q not in values and q in names},
+              **values}
     if parameter is not None and parameter not in names:
         raise AnalysisError("E405", f"the tuning parameter '{parameter}' does not appear in the polynomial",
                             where=f"parameter {parameter}")
@@ -271,9 +279,15 @@ def analyse_polynomial(poly_mpoly, parameter: str | None, values: Mapping[str, f
         ok = None if nominal is None else _meets_decay(analysed, mode, dvalue, sigma, nominal_value)
         dec = Decay(float(sigma), mode, note, drange, ok)
     marg = margins(rng, nominal_value) if (rng is not None and nominal_value is not None) else None
+    robust = None
+    if tolerances and parameter is not None:
+        from core.analysis.robust import robust_range
+        robust = robust_range(poly_mpoly, parameter, tolerances, values)
+    elif tolerances:
+        warnings.append(Notice("tolerances are given but no tuning parameter: no robust range", "note"))
     return Report(polynomial=shown or mpoly_text(poly_mpoly), analysed=analysed, parameter=parameter,
                   values=dict(values), routh=routh, stable_range=rng, nominal=nominal, decay=dec,
-                  margins=marg, warnings=warnings)
+                  margins=marg, warnings=warnings, robust_range=robust)
 
 
 def _shifted_stable(poly: ParametricPolynomial, sigma: fmpq, value) -> bool:
@@ -314,9 +328,18 @@ def _degenerate_nominal(poly: ParametricPolynomial, value, values: Mapping[str, 
 
 
 def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, object] | None = None,
-                     decay: float = 0.0, decay_mode: str = "sigma") -> Report:
-    """Analyse a typed characteristic polynomial; ``at`` maps parameter names to values."""
-    declared = set(at or ()) | ({parameter} if parameter else set())  # names with a role count as declared
+                     decay: float = 0.0, decay_mode: str = "sigma",
+                     tolerances: Mapping[str, tuple] | None = None) -> Report:
+    """Analyse a typed characteristic polynomial; ``at`` maps parameter names to values;
+    ``tolerances`` (optional) maps parameter names to (lo, hi) and adds the robust range.
+
+    >>> r = check_polynomial("0.1*s^3 + s^2 + s + K", "K", tolerances={"T": (1, 2)})
+    Traceback (most recent call last):
+    core.errors.AnalysisError: E422 at tolerance T: 'T' is not a parameter of the loop
+    """
+    from core.analysis.robust import check_tolerances
+
+    declared = set(at or ()) | set(tolerances or ()) | ({parameter} if parameter else set())
     expr = parse_polynomial(text, where="polynomial", declared=declared)
     names = sorted(expression_parameters(text))
     values = _exact_values(at)
@@ -324,15 +347,20 @@ def check_polynomial(text: str, parameter: str | None = None, at: Mapping[str, o
     if unknown:
         raise AnalysisError("E405", f"parameter {', '.join(unknown)} does not appear in the polynomial",
                             where=f"parameter {unknown[0]}")
+    tol = check_tolerances(tolerances or {}, parameter, set(names))
     poly = to_mpoly(expr, mpoly_context(names))
-    report = analyse_polynomial(poly, parameter, values, (decay_mode, decay))
+    report = analyse_polynomial(poly, parameter, values, (decay_mode, decay), tolerances=tol)
     report.source = "typed polynomial"
     return report
 
 
 def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None = None,
-                  values: Mapping[str, object] | None = None) -> Report:
+                  values: Mapping[str, object] | None = None,
+                  tolerances: Mapping[str, tuple] | None = None) -> Report:
     """Analyse a project (a Diagram or a path to a project file).
+
+    The robust range is computed from the parameters' tolerances in the project, each replaced by
+    the one in ``tolerances`` (optional, {name: (lo, hi)}) when given there; E420-E422 for a bad one.
 
     ``values`` (optional) overrides parameters' nominal values exactly: ints, Fractions, fmpq or
     decimal/fraction text such as ``"1/3"`` or ``"0.33333333333333333334"`` (never through a float).
@@ -368,7 +396,8 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
     _check_block_denominators(project, exact, kept)
     report = analyse_polynomial(red.characteristic, parameter,
                                 {k: v for k, v in exact.items() if k in used},
-                                decay or (settings.decay_mode, settings.decay_value))
+                                decay or (settings.decay_mode, settings.decay_value),
+                                tolerances=_project_tolerances(project, tolerances))
     report.source = source or project.name
     report.reduction = red
     report.left_out = list(red.left_out)
@@ -393,6 +422,15 @@ def check_project(project: Diagram | str | Path, decay: tuple[str, float] | None
                                           "cancels out of the input-output transfer function but is still in "
                                           "the loop", "hidden_mode"))
     return report
+
+
+def _project_tolerances(project: Diagram, given: Mapping[str, tuple] | None) -> dict[str, tuple[fmpq, fmpq]]:
+    """The project's tolerances with the given ones put in, exact and checked."""
+    from core.analysis.robust import check_tolerances
+
+    merged: dict[str, tuple] = {p.name: p.tolerance for p in project.parameters.values() if p.tolerance is not None}
+    merged.update(given or {})
+    return check_tolerances(merged, project.tuning_parameter, set(project.parameters))
 
 
 def _override_values(project: Diagram, values: Mapping[str, object] | None) -> dict[str, fmpq]:

@@ -21,7 +21,8 @@ Version 1 wrote the decay requirement as ``analysis.decay`` (sigma, 1/s); versio
 ``decay_mode`` + ``decay_value``. Version 3 names the tuning parameter ``tuning_parameter`` (was
 ``sweep``), a block's polynomials ``numerator`` and ``denominator`` (were ``num``/``den``) and gives a
 summing junction one entry per input, ``"inputs": [{"polarity": "add"}, {"polarity": "subtract"}]``
-(was a sign string). Optional fields in all versions: node ``label``/``flipped``, wire
+(was a sign string). Version 4 adds a parameter's optional ``tolerance``, ``{"low": 0.08, "high": 0.12}``
+(older files have none and load unchanged). Optional fields in all versions: node ``label``/``flipped``, wire
 ``bends``, top-level ``notes`` and ``view`` (window state; dropped when it is not a JSON object of
 plain values, since it never changes meaning).
 
@@ -35,7 +36,7 @@ plain values, since it never changes meaning).
 True
 >>> loads_project('{"format": "loopwright-project", "version": 99, "nodes": []}', "x")
 Traceback (most recent call last):
-core.errors.ProjectFileError: E203 at x: made by a newer Loopwright (version 99); this one reads up to 3
+core.errors.ProjectFileError: E203 at x: made by a newer Loopwright (version 99); this one reads up to 4
 """
 from __future__ import annotations
 
@@ -60,7 +61,7 @@ from core.model.requirements import Requirements
 
 FORMAT = "loopwright-project"
 RECOVERY_FORMAT = "loopwright-recovery"
-CURRENT_VERSION = 3
+CURRENT_VERSION = 4
 SUFFIX = ".loop.json"
 MAX_FILE_BYTES = 10 * 1024 * 1024
 MAX_NODES = 5000
@@ -108,6 +109,7 @@ class ParameterSpec:
     nominal: float
     minimum: float
     maximum: float
+    tolerance: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -188,7 +190,17 @@ def _migrate_node_2_to_3(node: dict, where: str) -> dict:
     return out
 
 
-MIGRATIONS: dict[int, Callable[[dict, str], dict]] = {1: migrate_1_to_2, 2: migrate_2_to_3}
+def migrate_3_to_4(data: dict, where: str) -> dict:
+    """Version 3 -> 4: parameters may carry a ``tolerance``; a version-3 file has none, so only the
+    version changes.
+
+    >>> migrate_3_to_4({"version": 3, "parameters": [{"name": "K"}]}, "x")
+    {'version': 4, 'parameters': [{'name': 'K'}]}
+    """
+    return {**data, "version": 4}
+
+
+MIGRATIONS: dict[int, Callable[[dict, str], dict]] = {1: migrate_1_to_2, 2: migrate_2_to_3, 3: migrate_3_to_4}
 
 
 def migrate(data: dict, where: str) -> dict:
@@ -426,9 +438,23 @@ def _parameter_spec(obj, source: str, index: int) -> ParameterSpec:
     place = f"{source}, parameter {index + 1}"
     if isinstance(obj, dict) and isinstance(obj.get("name"), str):
         place = f"{source}, parameter {obj['name'][:64]}"
-    f = _Fields(obj, place, "a parameter", ("name", "nominal", "min", "max"))
+    f = _Fields(obj, place, "a parameter", ("name", "nominal", "min", "max", "tolerance"))
     return ParameterSpec(f.text("name", required=True, limit=64), f.number("nominal", 1.0, smallest=SMALLEST_VALUE),
-                         f.number("min", 0.0, smallest=SMALLEST_VALUE), f.number("max", 10.0, smallest=SMALLEST_VALUE))
+                         f.number("min", 0.0, smallest=SMALLEST_VALUE), f.number("max", 10.0, smallest=SMALLEST_VALUE),
+                         _tolerance_spec(obj.get("tolerance"), place))
+
+
+def _tolerance_spec(obj, place: str) -> tuple[float, float] | None:
+    """A parameter's optional ``tolerance`` object ``{"low": LO, "high": HI}`` (null or absent: none)."""
+    if obj is None:
+        return None
+    where = f"{place}, tolerance"
+    f = _Fields(obj, where, "'tolerance'", ("low", "high"))
+    low, high = (f.number(k, required=True, smallest=SMALLEST_VALUE) for k in ("low", "high"))
+    if not low < high:
+        raise ProjectFileError("E205", f"the tolerance {low:g} .. {high:g} is empty or inverted: 'low' must be "
+                                       "below 'high'", where=where)
+    return low, high
 
 
 def _plain_view(value, depth: int = 0) -> bool:
@@ -513,7 +539,7 @@ def diagram_from_spec(spec: ProjectSpec, source: str = "<memory>") -> Diagram:
         if p.name in d.parameters:
             raise ProjectFileError("E207", f"the parameter '{p.name}' is defined twice", where=place)
         try:
-            d.set_parameter(Parameter(p.name, p.nominal, p.minimum, p.maximum))
+            d.set_parameter(Parameter(p.name, p.nominal, p.minimum, p.maximum, p.tolerance))
         except LoopwrightError as exc:
             raise _model_error(exc, place, source) from exc
     for n in spec.nodes:
@@ -627,8 +653,7 @@ def project_to_dict(diagram: Diagram) -> dict:
     out = {"format": FORMAT, "version": CURRENT_VERSION, "name": diagram.name}
     if diagram.notes:
         out["notes"] = diagram.notes
-    out["parameters"] = [{"name": p.name, "nominal": _plain_number(p.nominal), "min": _plain_number(p.minimum),
-                          "max": _plain_number(p.maximum)} for p in diagram.parameters.values()]
+    out["parameters"] = [_parameter_dict(p) for p in diagram.parameters.values()]
     out["tuning_parameter"] = diagram.tuning_parameter
     out["nodes"], out["wires"] = nodes, wires
     a = diagram.analysis
@@ -639,6 +664,14 @@ def project_to_dict(diagram: Diagram) -> dict:
     if diagram.view and _plain_view(diagram.view):
         out["view"] = diagram.view
     return out
+
+
+def _parameter_dict(p: Parameter) -> dict:
+    item: dict[str, object] = {"name": p.name, "nominal": _plain_number(p.nominal), "min": _plain_number(p.minimum),
+                               "max": _plain_number(p.maximum)}
+    if p.tolerance is not None:
+        item["tolerance"] = {"low": _plain_number(p.tolerance[0]), "high": _plain_number(p.tolerance[1])}
+    return item
 
 
 def dumps_project(diagram: Diagram) -> str:

@@ -49,6 +49,18 @@ def _is_finite_real(value) -> bool:
         return False
 
 
+def _checked_tolerance(tolerance, where: str) -> tuple[float, float] | None:
+    """A tolerance as a (lo, hi) float pair with lo < hi, or E306."""
+    if tolerance is None:
+        return None
+    if not isinstance(tolerance, (list, tuple)) or len(tolerance) != 2 or not all(map(_is_finite_real, tolerance)):
+        raise ModelError("E306", "a tolerance is two finite numbers (lo, hi)", where=where)
+    lo, hi = float(tolerance[0]), float(tolerance[1])
+    if not lo < hi:
+        raise ModelError("E306", f"the tolerance {lo:g} .. {hi:g} is empty or inverted: give lo < hi", where=where)
+    return lo, hi
+
+
 def _checked_bends(bends, where: str) -> list[tuple[float, float]]:
     """Waypoints as (x, y) float pairs, or E302 naming the first bad one."""
     out = []
@@ -107,12 +119,14 @@ class Wire:
 
 @dataclass
 class Parameter:
-    """A named parameter with its nominal value and the range the tuning slider covers."""
+    """A named parameter with its nominal value, the range the tuning slider covers and, optionally,
+    a tolerance: the interval (lo, hi) its true value lies in (the robust range checks every value)."""
 
     name: str
     nominal: float = 1.0
     minimum: float = 0.0
     maximum: float = 10.0
+    tolerance: tuple[float, float] | None = field(default=None, repr=False)  # compared, not in the repr
 
 
 @dataclass
@@ -338,9 +352,12 @@ class Diagram:
             raise ModelError("E304", "nominal, min and max must be finite numbers", where=where)
         if not p.minimum < p.maximum:
             raise ModelError("E304", "min must be below max", where=where)
+        tolerance = _checked_tolerance(p.tolerance, where)
+        if tolerance is not None and p.name == self.tuning_parameter:
+            raise ModelError("E307", f"the tuning parameter '{p.name}' cannot carry a tolerance", where=where)
         old = self.parameters.get(p.name)
         self.parameters[p.name] = replace(p, nominal=float(p.nominal), minimum=float(p.minimum),
-                                          maximum=float(p.maximum))
+                                          maximum=float(p.maximum), tolerance=tolerance)
         self._emit("parameters_changed", p.name)
         return old
 
@@ -359,6 +376,9 @@ class Diagram:
         """Choose the tuning parameter (None for none); return the previous choice."""
         if name is not None and (not isinstance(name, str) or name not in self.parameters):
             raise ModelError("E304", f"there is no parameter '{name}' to tune", where=f"parameter {name}")
+        if name is not None and self.parameters[name].tolerance is not None:
+            raise ModelError("E307", f"'{name}' carries a tolerance, so it cannot be the tuning parameter; "
+                             "clear its tolerance first", where=f"parameter {name}")
         old, self.tuning_parameter = self.tuning_parameter, name
         self._emit("settings_changed", "tuning_parameter")
         return old

@@ -117,6 +117,29 @@ def requirements_lines(outcome: RequirementsOutcome, parameter: str | None) -> l
     return out
 
 
+ROBUST_WORDS = {"exact": "exact", "edge-theorem": "exact, edge theorem", "kharitonov": "exact, Kharitonov",
+                "sampled": "ESTIMATED by sampling, not exact"}
+
+
+def robust_lines(name: str | None, robust: dict | None, width: int = SCREEN_LINE) -> list[str]:
+    """The robust-range section: intervals, method and why, each end with its worst case."""
+    if robust is None:
+        return []
+    tolerances = ", ".join(f"{q} in [{lo}, {hi}]" for q, (lo, hi) in robust["tolerances"].items())
+    out = ["", f"Robust range (every {tolerances or 'toleranced value'}; {ROBUST_WORDS[robust['method']]}):"]
+    if robust["intervals"]:
+        out.append(f"  stable for {name} in: " + " U ".join(_interval(iv) for iv in robust["approx_intervals"]))
+    else:
+        out.append(f"  stable for no value of {name} over the whole tolerance")
+    out.append(f"  method: {abbreviate(robust['reason'], 4 * width)}")
+    for e in robust["endpoints"]:
+        worst = ("every toleranced value" if e["every_value"] else
+                 ", ".join(f"{q} = {e['worst_case_exact'].get(q, f'{v:.6g}')}" for q, v in sorted(e["worst_case"].items())))
+        out.append(f"  {name} = {abbreviate(e['exact'], width)} (~{e['approx']}): worst case {worst}")
+    out += [f"  note: {note}" for note in robust["notes"]]
+    return out
+
+
 def report_text(report: Report, outcome: RequirementsOutcome | None = None, width: int = SCREEN_LINE) -> str:
     """A readable report: headline, polynomial, Routh array, nominal verdict, stable range, margins,
     decay, requirements (``outcome``, from :func:`core.present.verdicts.requirements_outcome`)."""
@@ -166,6 +189,7 @@ def report_text(report: Report, outcome: RequirementsOutcome | None = None, widt
                    "singular": "the polynomial vanishes identically"}.get(e["kind"], e["kind"])
             out.append(f"  {d['parameter']} = {abbreviate(e['exact'], width)} (~{e['approx']}): {how}")
         out += margins_lines(d["parameter"], d["margins"])
+    out += robust_lines(d["parameter"], d.get("robust_range"), width)
     dec = d["decay"]
     if dec:
         out.append("")
