@@ -21,7 +21,7 @@ from core.errors import ExpressionError, LoopwrightError, ModelError, UsageError
 PROGRAM = "loopwright-check"
 # the options that take a value; a value starting with '-' (``--poly -s^2-1``) is kept as the value
 VALUE_OPTIONS = ("--poly", "--param", "--at", "--decay", "--time-to-half", "--settling",
-                 "--min-damping", "--max-overshoot", "--min-gain-margin", "--tolerance")
+                 "--min-damping", "--max-overshoot", "--min-gain-margin", "--tolerance", "--plane")
 FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--help")
 DECAY_OPTIONS = {"--decay": ("sigma", "a decay rate", "1/s"), "--time-to-half": ("half_time", "a time to half", "s"),
                  "--settling": ("settling", "a settling time", "s")}
@@ -56,6 +56,9 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--tolerance", metavar="NAME=LO..HI", action="append", default=[],
                        help="a parameter's tolerance, exact (T=0.08..0.12; repeatable; with a project it "
                             "replaces the file's): adds the robust range of the tuning parameter")
+    check.add_argument("--plane", metavar="X=LO..HI,Y=LO..HI",
+                       help="the stability plane of two parameters (ranges optional for a project: "
+                            "from its parameter table)")
     check.add_argument("--json", action="store_true", help="print the report as JSON")
     check.add_argument("--fail-unstable", action="store_true", help="exit 1 when the nominal loop is not stable")
     check.add_argument("--fail-requirements", action="store_true",
@@ -202,6 +205,7 @@ def run(args) -> int:
     """Analyse as the parsed arguments say; print the report; return the exit status."""
     from core.analysis.report import check_polynomial
     from core.model.requirements import Requirements
+    from core.present import plane_option
     from core.present.verdicts import requirements_outcome, search_span
 
     at = _parse_at(args.at)
@@ -209,12 +213,16 @@ def run(args) -> int:
     decay = _decay(args)
     if (args.poly is None) == (args.project is None):
         raise UsageError("E501", "give either a project file or --poly TEXT", where="command line")
+    axes = plane_option.read_plane_option(args.plane, args.poly is not None, exact_value) if args.plane is not None else None
     if args.poly is not None:
         requirements = _requirements(args, Requirements())
         mode, value = decay or ("sigma", 0.0)
-        report = check_polynomial(args.poly, parameter=args.param, at=at, decay=value, decay_mode=mode,
+        values, notes = plane_option.values_for_polynomial(args.poly, axes, at) if axes is not None else (at, [])
+        report = check_polynomial(args.poly, parameter=args.param, at=values, decay=value, decay_mode=mode,
                                   tolerances=tolerances)
+        report.warnings += notes
         outcome = requirements_outcome(report, requirements, span=search_span(report))
+        plane = plane_option.plane_of_polynomial(args.poly, axes, report.values) if axes is not None else None
     else:
         if args.param:
             raise UsageError("E501", "--param goes with --poly; a project names its tuning parameter",
@@ -222,21 +230,25 @@ def run(args) -> int:
         project, report = _check_project_with_values(args.project, at, decay, tolerances)
         requirements = _requirements(args, project.requirements)
         outcome = requirements_outcome(report, requirements, project, span=_span(project, report))
-    _emit(_output(report, outcome, args.json))
+        plane = plane_option.plane_of_project(project, report, axes) if axes is not None else None
+    _emit(_output(report, outcome, args.json, plane))
     return 1 if (args.fail_unstable and not _stable_enough(report)) or (
         args.fail_requirements and not _requirements_pass(outcome)) else 0
 
 
-def _output(report, outcome, as_json: bool) -> str:
+def _output(report, outcome, as_json: bool, plane=None) -> str:
+    from core.present.plane_text import with_plane_section
     from core.present.report_json import json_text
     from core.present.report_text import report_text
     from core.present.verdicts import headline
 
     if not as_json:
-        return report_text(report, outcome)
+        text = report_text(report, outcome)
+        return text if plane is None else with_plane_section(text, plane)
     data = report.to_dict()
     data["headline"] = headline(report, outcome)
     data["requirements"] = outcome.to_dict() if outcome is not None else None
+    data["plane"] = plane.to_dict() if plane is not None else None
     return json_text(data)
 
 

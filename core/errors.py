@@ -61,6 +61,9 @@ CATALOGUE: dict[str, str] = {
     "E420": "tolerance empty, inverted or not finite (analysis)",
     "E421": "tolerance given for the tuning parameter",
     "E422": "tolerance given for a name that is not a parameter",
+    "E430": "stability plane: the same parameter on both axes",
+    "E431": "stability plane: an axis range is empty or inverted",
+    "E432": "stability plane: an axis is not a parameter",
     # command line
     "E501": "command-line arguments invalid",
 }
