@@ -39,6 +39,7 @@ from app.inspector import Inspector
 from app.palette import Palette
 from app.panels import PoleMap, PolynomialPanel, RangePanel, RouthPanel, attach, prepare_for_panels
 from app.panels.common import colour
+from app.panels.plane_panel import PlanePanel
 from app.panels.requirements_panel import RequirementsPanel
 from app.panels.step_panel import StepPanel
 from app.parameters_panel import ParametersPanel
@@ -88,12 +89,14 @@ class MainWindow(QMainWindow):
         self.pole_map = PoleMap(self)
         self.step_panel = StepPanel(self)
         self.requirements_panel = RequirementsPanel(self)
+        self.plane_panel = PlanePanel(self)
         self.analysis_panels = [self.polynomial_panel, self.routh_panel, self.range_panel, self.pole_map,
-                                self.step_panel, self.requirements_panel]
+                                self.step_panel, self.requirements_panel, self.plane_panel]
         for panel in self.analysis_panels:
             panel.setAutoFillBackground(True)  # opaque: a panel repainted never repaints its dock and the window
         self.stale_docks = {"polynomial": self.polynomial_panel, "routh": self.routh_panel, "range": self.range_panel,
-                            "poles": self.pole_map, "step": self.step_panel, "requirements": self.requirements_panel}
+                            "poles": self.pole_map, "step": self.step_panel, "requirements": self.requirements_panel,
+                            "plane": self.plane_panel}
         self._build_status_bar()
         self.stop_button.clicked.connect(lambda: self.controller.cancel())
         self.set_document(Diagram())
@@ -149,6 +152,7 @@ class MainWindow(QMainWindow):
         self.splitDockWidget(routh, stable, Qt.Orientation.Horizontal)
         self.tabifyDockWidget(stable, self._dock("step", StepPanel.TITLE, self.step_panel, bottom))
         self.tabifyDockWidget(stable, self._dock("requirements", RequirementsPanel.TITLE, self.requirements_panel, bottom))
+        self.tabifyDockWidget(stable, self._dock("plane", PlanePanel.TITLE, self.plane_panel, bottom))
         stable.raise_()
         self._arrange_docks()
 
@@ -335,6 +339,7 @@ class MainWindow(QMainWindow):
         self.inspector.set_document(diagram, self.signals, self.undo_stack)
         self.parameters.set_document(diagram, self.signals, self.undo_stack)
         self.requirements_panel.set_document(diagram, self.signals, self.undo_stack)
+        self.plane_panel.set_document(diagram, self.signals, self.undo_stack)
         self.signals.settingsChanged.connect(self._on_settings_changed)
         self.controller = AnalysisController(diagram, self.signals, self, prepare=prepare_for_panels)
         commit_nominals(self.controller, diagram, self.undo_stack)

@@ -25,12 +25,13 @@ import numpy as np
 from flint import arb, arb_poly
 
 from core.algebra.polynomial import ParametricPolynomial, to_float, to_fmpq
+from core.analysis.plane import Plane, stability_plane
 from core.analysis.poles import certified_roots, expand_multiplicity, path_sensitivity, pole_paths
 from core.analysis.report import Report, check_project
 from core.analysis.requirements import TimeDomain, prepare
 from core.analysis.routh import RouthArray, is_hurwitz, routh_counts
 from core.analysis.time_response import StepResponse, step_response
-from core.errors import LoopwrightError, Notice
+from core.errors import AnalysisError, LoopwrightError, Notice
 from core.io.project_file import project_from_dict
 from core.model.diagram import Diagram
 from core.model.requirements import Requirements
@@ -129,6 +130,8 @@ class AnalysisResult:
     zero_table: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
     time_domain: TimeDomain | None = None  # step transfer functions, requirements, joint range
     requirements: Requirements = field(default_factory=Requirements)  # the diagram's, as analysed
+    plane: Plane | None = None  # the stability plane of the diagram's plane axes, when chosen
+    plane_error: str | None = None  # why there is no plane although axes are chosen
     steps: dict[str, StepResponse] = field(default_factory=dict)
     step_errors: dict[str, LoopwrightError] = field(default_factory=dict)
     display: dict[str, object] = field(default_factory=dict)  # texts a caller readies on its worker thread
@@ -304,6 +307,7 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
             report.warnings.append(Notice(result.float_warning, "numerically_sensitive"))
         result.time_domain = _time_domain(diagram, report, tuning)
         _nominal_steps(result)
+        _plane(result, diagram, report)
     except LoopwrightError as exc:
         result.report, result.error = None, exc
     except Exception as exc:
@@ -312,6 +316,29 @@ def analyse_snapshot(project: dict, generation: int) -> AnalysisResult:
         traceback.print_exc()
     result.elapsed_ms = (time.perf_counter() - start) * 1000.0
     return result
+
+
+PLANE_RESOLUTION = 60  # the window's plane grid (PLANE_RESOLUTION x PLANE_RESOLUTION exact labels)
+
+
+def _plane(result: AnalysisResult, diagram: Diagram, report: Report) -> None:
+    """The stability plane of the diagram's two plane axes over their min..max (each other
+    parameter at its nominal value); an error becomes ``plane_error``, the rest of the result stays."""
+    x, y = diagram.analysis.plane_x, diagram.analysis.plane_y
+    if x is None or y is None:
+        return
+    try:
+        ranges = []
+        for name in (x, y):
+            param = diagram.parameters.get(name)
+            if param is None or name not in report.values:
+                raise AnalysisError("E432", f"'{name}' is not a parameter of this loop", where=f"plane {name}")
+            ranges.append((to_fmpq(param.minimum), to_fmpq(param.maximum)))
+        assert report.reduction is not None  # a project's report always has its reduction
+        result.plane = stability_plane(report.reduction.characteristic, x, y, report.values, ranges[0], ranges[1],
+                                       PLANE_RESOLUTION)
+    except LoopwrightError as exc:
+        result.plane_error = str(exc)
 
 
 def _time_domain(diagram: Diagram, report: Report, tuning: TuningRange | None) -> TimeDomain | None:

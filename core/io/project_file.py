@@ -126,6 +126,7 @@ class ProjectSpec:
     analysis_output: str | None
     decay_mode: str
     decay_value: float
+    plane: tuple[str, str] | None
     view: dict
     requirements: Requirements
 
@@ -475,6 +476,15 @@ TOP_FIELDS = ("format", "version", "name", "notes", "parameters", "tuning_parame
 REQUIREMENT_FIELDS = ("min_damping", "max_overshoot", "min_gain_margin", "gain_margin_unit")
 
 
+def _plane_spec(analysis, where: str) -> tuple[str, str] | None:
+    """``analysis.plane`` = {"x": name, "y": name} (optional) as a pair of names."""
+    plane = analysis.get("plane") if isinstance(analysis, dict) else None
+    if plane is None:
+        return None
+    fields = _Fields(plane, f"{where}, plane", "'plane'", ("x", "y"))
+    return fields.text("x", required=True, limit=64), fields.text("y", required=True, limit=64)
+
+
 def _requirements_spec(obj, source: str) -> Requirements:
     """The optional ``requirements`` object (each entry optional; null or absent = not set)."""
     place = f"{source}, requirements"
@@ -505,7 +515,7 @@ def parse_spec(data, source: str = "<memory>") -> ProjectSpec:
     params = tuple(_parameter_spec(o, source, i)
                    for i, o in enumerate(top.items("parameters", MAX_PARAMETERS)))
     analysis = _Fields(data.get("analysis", {}), f"{source}, analysis", "'analysis'",
-                       ("input", "output", "decay_mode", "decay_value"))
+                       ("input", "output", "decay_mode", "decay_value", "plane"))
     view = data.get("view", {})
     return ProjectSpec(
         name=top.text("name", DEFAULT_NAME), notes=top.text("notes", limit=MAX_TEXT),
@@ -514,6 +524,7 @@ def parse_spec(data, source: str = "<memory>") -> ProjectSpec:
         analysis_input=analysis.text("input", None, nullable=True, limit=64),
         analysis_output=analysis.text("output", None, nullable=True, limit=64),
         decay_mode=analysis.text("decay_mode", "sigma"), decay_value=analysis.decay_value("decay_value"),
+        plane=_plane_spec(data.get("analysis", {}), f"{source}, analysis"),
         view=view if isinstance(view, dict) and _plain_view(view) else {},
         requirements=_requirements_spec(data.get("requirements", {}), source))
 
@@ -570,7 +581,8 @@ def diagram_from_spec(spec: ProjectSpec, source: str = "<memory>") -> Diagram:
         raise _model_error(exc, f"{source}, tuning_parameter", source) from exc
     try:
         d.set_analysis(input=spec.analysis_input, output=spec.analysis_output,
-                       decay_mode=spec.decay_mode, decay_value=spec.decay_value)
+                       decay_mode=spec.decay_mode, decay_value=spec.decay_value,
+                       plane_x=spec.plane[0] if spec.plane else None, plane_y=spec.plane[1] if spec.plane else None)
     except ModelError as exc:
         raise _model_error(exc, f"{source}, analysis", source) from exc
     d.set_requirements(spec.requirements)
@@ -657,8 +669,11 @@ def project_to_dict(diagram: Diagram) -> dict:
     out["tuning_parameter"] = diagram.tuning_parameter
     out["nodes"], out["wires"] = nodes, wires
     a = diagram.analysis
-    out["analysis"] = {"input": a.input, "output": a.output, "decay_mode": a.decay_mode,
-                       "decay_value": _plain_number(a.decay_value)}
+    analysis: dict[str, object] = {"input": a.input, "output": a.output, "decay_mode": a.decay_mode,
+                                   "decay_value": _plain_number(a.decay_value)}
+    if a.plane_x is not None and a.plane_y is not None:
+        analysis["plane"] = {"x": a.plane_x, "y": a.plane_y}
+    out["analysis"] = analysis
     if not diagram.requirements.is_empty:
         out["requirements"] = diagram.requirements.to_dict()
     if diagram.view and _plain_view(diagram.view):

@@ -131,7 +131,8 @@ class Parameter:
 
 @dataclass
 class AnalysisSettings:
-    """Which signal is the input and the output, and the decay requirement.
+    """Which signal is the input and the output, the decay requirement, and the stability plane's
+    axes (two parameter names, or None: no plane).
 
     ``decay_mode`` says how ``decay_value`` is read: ``sigma`` (1/s, directly), ``half_time``
     (time to half amplitude T, sigma = ln 2 / T) or ``settling`` (2 % settling time Ts,
@@ -142,6 +143,8 @@ class AnalysisSettings:
     output: str | None = None
     decay_mode: str = "sigma"
     decay_value: float = 0.0
+    plane_x: str | None = None
+    plane_y: str | None = None
 
 
 @dataclass
@@ -384,8 +387,9 @@ class Diagram:
         return old
 
     def set_analysis(self, **changes) -> dict:
-        """Change analysis settings (input, output, decay_mode, decay_value); return old values."""
-        unknown = set(changes) - {"input", "output", "decay_mode", "decay_value"}
+        """Change analysis settings (input, output, decay_mode, decay_value, plane_x, plane_y);
+        return old values."""
+        unknown = set(changes) - {"input", "output", "decay_mode", "decay_value", "plane_x", "plane_y"}
         if unknown:
             raise ModelError("E302", f"no analysis setting {', '.join(sorted(unknown))}", where="analysis")
         for key in ("input", "output"):
@@ -399,6 +403,14 @@ class Diagram:
             v = changes["decay_value"]
             if not _is_finite_real(v) or v < 0:
                 raise ModelError("E304", "the decay requirement must be a number >= 0", where="analysis")
+        for key in ("plane_x", "plane_y"):
+            v = changes.get(key)
+            if v is not None and (not isinstance(v, str) or not 0 < len(v) <= 64):
+                raise ModelError("E302", "a plane axis is a parameter name", where=f"analysis {key}")
+        x, y = (changes.get(k, getattr(self.analysis, k)) for k in ("plane_x", "plane_y"))
+        if x is not None and x == y:
+            raise ModelError("E302", f"the plane needs two different parameters, got '{x}' twice",
+                             where="analysis plane")
         old = {k: getattr(self.analysis, k) for k in changes}
         for k, v in changes.items():
             setattr(self.analysis, k, float(v) if k == "decay_value" else v)
