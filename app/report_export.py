@@ -83,8 +83,8 @@ def report_inputs(window, sources: dict[str, str] | None = None,
     if result.report is not None:
         plots = plot_panels(window)
         for panel in window.analysis_panels:
-            if panel.TITLE in OWN_SECTIONS:
-                continue  # the page builds these sections itself
+            if panel.TITLE in OWN_SECTIONS or getattr(panel, "empty", False):
+                continue  # the page builds these sections itself, or the panel has nothing to show
             key = _key(panel) if panel in plots else None
             make = getattr(panel, "report_html", None)
             body = make() if callable(make) else ""

@@ -7,6 +7,7 @@ panel only draws it. The axes are the diagram's analysis settings ``plane_x`` / 
 """
 from __future__ import annotations
 
+import html
 import math
 from dataclasses import replace
 
@@ -206,6 +207,29 @@ class PlanePanel(QWidget):
             return
         self._draw_plane(plane)
         self._draw_nominal()
+
+    @property
+    def empty(self) -> bool:
+        """No plane to show (no axes chosen, or it could not be computed)."""
+        return getattr(self._result, "plane", None) is None
+
+    def report_html(self) -> str:
+        """The plane's exact facts for the report: regions with their counts and points, boundaries."""
+        plane = getattr(self._result, "plane", None)
+        if plane is None:
+            return ""
+        rows = "".join(f"<tr><td>{'stable' if r.stable else f'{r.rhp} in the right half plane'}</td>"
+                       f"<td>{html.escape(', '.join(f'{k} = {v}' for k, v in r.point.items()))}</td>"
+                       f"<td>{100 * r.share:.0f} %</td></tr>" for r in plane.regions)
+        bounds = "".join(f"<li>{html.escape(BOUNDARY_STYLES.get(kind, BOUNDARY_STYLES['singular'])[0])}: "
+                         f"{html.escape('; '.join(f'{f} = 0' for f in factors))}</li>"
+                         for kind, factors in plane.boundaries.items())
+        complete = "" if plane.regions_complete else (
+            "<p>Regions thinner than one grid column may be missing from this list (none is mislabelled).</p>")
+        return (f"<p>{html.escape(plane.x)} from {plane.x_range[0]} to {plane.x_range[1]}, "
+                f"{html.escape(plane.y)} from {plane.y_range[0]} to {plane.y_range[1]}; counts exact at "
+                f"{len(plane.xs)} x {len(plane.ys)} points.</p><table><tr><th>Region</th><th>Exact point inside</th>"
+                f"<th>Share (grid)</th></tr>{rows}</table><p>Boundaries (exact):</p><ul>{bounds}</ul>{complete}")
 
     def set_current_value(self, value: float) -> None:
         """The tuning parameter's current value moves the marker along its axis."""

@@ -339,6 +339,9 @@ def _plane(result: AnalysisResult, diagram: Diagram, report: Report) -> None:
                                        PLANE_RESOLUTION)
     except LoopwrightError as exc:
         result.plane_error = str(exc)
+    except Exception as exc:  # a bug in the plane must not take the rest of the analysis with it
+        traceback.print_exc()
+        result.plane_error = f"the stability plane failed (internal error: {type(exc).__name__}); please report it"
 
 
 def _time_domain(diagram: Diagram, report: Report, tuning: TuningRange | None) -> TimeDomain | None:

@@ -71,3 +71,11 @@ def test_choosing_an_axis_is_undoable(window, pi_path, analysed):
     assert window.controller.result.plane is None and "Choose two parameters" in panel.caption.text()
     window.undo_stack.undo()
     assert window.diagram.analysis.plane_y == "Ki"
+
+
+def test_the_report_carries_the_plane_with_its_exact_regions(window, pi_path, analysed, tmp_path):
+    from app.report_export import export_report
+    assert window.files.open(pi_path, ask=False)
+    analysed(window)
+    html = export_report(window, tmp_path / "pi.html").read_text(encoding="utf-8")
+    assert "Stability plane" in html and "Exact point inside" in html and "Kp = 43/6" in html
