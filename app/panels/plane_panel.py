@@ -124,8 +124,10 @@ class PlanePanel(QWidget):
         self.plot.addItem(self.image)
         self.arcs: list[pg.PlotDataItem] = []
         self.legend = item.addLegend(offset=(8, 8), labelTextSize="8pt")
-        self.nominal = pg.ScatterPlotItem(symbol="+", size=16)
+        self.nominal = pg.TargetItem(movable=True, size=14)  # dragged: both nominal values, one undo step
         self.nominal.setZValue(10)
+        self.nominal.setVisible(False)
+        self.nominal.sigPositionChangeFinished.connect(self._dropped)
         self.plot.addItem(self.nominal)
         self.labels: list[pg.TextItem] = []
         self.plot.scene().sigMouseClicked.connect(self._clicked)
@@ -138,6 +140,7 @@ class PlanePanel(QWidget):
             self.plot.getAxis(axis).setPen(pg.mkPen(colour("axis")))
             self.plot.getAxis(axis).setTextPen(pg.mkPen(text))
         self.nominal.setPen(pg.mkPen(colour("marker"), width=2.2))
+        self.nominal.setBrush(pg.mkBrush(None))
 
     def changeEvent(self, event) -> None:
         if is_palette_change(event) and hasattr(self, "nominal"):
@@ -263,21 +266,35 @@ class PlanePanel(QWidget):
         item.getViewBox().setRange(xRange=(x0, x1), yRange=(y0, y1), padding=0)
         stable_share = sum(r.share for r in plane.regions if r.stable)
         self.caption.setText(f"Stable (shaded) on {100 * stable_share:.0f} % of the rectangle · counts exact at "
-                             f"{len(plane.xs)} × {len(plane.ys)} points · click to set {plane.x} and {plane.y}")
+                             f"{len(plane.xs)} × {len(plane.ys)} points · click, or drag the marker, to set {plane.x} and {plane.y}")
 
     def _draw_nominal(self, current: float | None = None) -> None:
         plane = getattr(self._result, "plane", None) if self._result is not None else None
         if plane is None or self.diagram is None:
-            self.nominal.setData([], [])
+            self.nominal.setVisible(False)
             return
         px, py = (self.diagram.parameters.get(n) for n in (plane.x, plane.y))
         if px is None or py is None:
-            self.nominal.setData([], [])
+            self.nominal.setVisible(False)
             return
         x, y = px.nominal, py.nominal
         if current is not None and self.diagram.tuning_parameter in (plane.x, plane.y):
             x, y = (current, y) if self.diagram.tuning_parameter == plane.x else (x, current)
-        self.nominal.setData([x], [y])
+        self.nominal.blockSignals(True)
+        self.nominal.setPos(x, y)
+        self.nominal.blockSignals(False)
+        self.nominal.setVisible(True)
+
+    def nominal_point(self) -> tuple[float, float] | None:
+        """Where the nominal marker is drawn (None when hidden)."""
+        if not self.nominal.isVisible():
+            return None
+        pos = self.nominal.pos()
+        return pos.x(), pos.y()
+
+    def _dropped(self, _item) -> None:
+        pos = self.nominal.pos()
+        self.set_point(pos.x(), pos.y())
 
     def _clicked(self, event) -> None:
         plane = getattr(self._result, "plane", None) if self._result is not None else None
@@ -295,7 +312,8 @@ class PlanePanel(QWidget):
         new = [replace(p, nominal=nice_value(v, p.maximum - p.minimum))
                for p, v in zip(params, (x, y), strict=True)]
         if not all(p.minimum <= q.nominal <= p.maximum for p, q in zip(params, new, strict=True)):
-            return  # outside the rectangle
+            self._draw_nominal()  # outside the rectangle: the marker goes back
+            return
         self.undo_stack.beginMacro(f"set {plane.x} = {number(new[0].nominal)}, {plane.y} = {number(new[1].nominal)}")
         try:
             for p in new:

@@ -79,3 +79,18 @@ def test_the_report_carries_the_plane_with_its_exact_regions(window, pi_path, an
     analysed(window)
     html = export_report(window, tmp_path / "pi.html").read_text(encoding="utf-8")
     assert "Stability plane" in html and "Exact point inside" in html and "Kp = 43/6" in html
+
+
+def test_dragging_the_marker_sets_both_values_once(window, pi_path, analysed):
+    assert window.files.open(pi_path, ask=False)
+    analysed(window)
+    panel = window.plane_panel
+    assert panel.nominal_point() == (2.0, 1.0)
+    before = window.undo_stack.count()
+    panel.nominal.setPos(8.0, 20.0)
+    panel.nominal.sigPositionChangeFinished.emit(panel.nominal)  # what the end of a drag emits
+    assert window.undo_stack.count() == before + 1
+    assert (window.diagram.parameters["Kp"].nominal, window.diagram.parameters["Ki"].nominal) == (8.0, 20.0)
+    panel.nominal.setPos(50.0, 20.0)  # dropped outside the rectangle: nothing changes, the marker returns
+    panel.nominal.sigPositionChangeFinished.emit(panel.nominal)
+    assert window.undo_stack.count() == before + 1 and panel.nominal_point() == (8.0, 20.0)
