@@ -131,6 +131,7 @@ class PlanePanel(QWidget):
         self.plot.addItem(self.nominal)
         self.labels: list[pg.TextItem] = []
         self.plot.scene().sigMouseClicked.connect(self._clicked)
+        self.plot.scene().sigMouseMoved.connect(self._hovered)
         self._apply_theme()
 
     def _apply_theme(self) -> None:
@@ -266,7 +267,8 @@ class PlanePanel(QWidget):
         item.getViewBox().setRange(xRange=(x0, x1), yRange=(y0, y1), padding=0)
         stable_share = sum(r.share for r in plane.regions if r.stable)
         self.caption.setText(f"Stable (shaded) on {100 * stable_share:.0f} % of the rectangle · counts exact at "
-                             f"{len(plane.xs)} × {len(plane.ys)} points · click, or drag the marker, to set {plane.x} and {plane.y}")
+                             f"{len(plane.xs)} × {len(plane.ys)} points · click, or drag the marker, to set "
+                             f"{plane.x} and {plane.y}; hover a boundary for its frequency")
 
     def _draw_nominal(self, current: float | None = None) -> None:
         plane = getattr(self._result, "plane", None) if self._result is not None else None
@@ -295,6 +297,30 @@ class PlanePanel(QWidget):
     def _dropped(self, _item) -> None:
         pos = self.nominal.pos()
         self.set_point(pos.x(), pos.y())
+
+    def boundary_tip(self, x: float, y: float) -> str:
+        """What the boundary nearest to (x, y) is, with the crossing frequency there (within 2 % of
+        the rectangle; empty when no boundary is that near)."""
+        plane = getattr(self._result, "plane", None) if self._result is not None else None
+        if plane is None:
+            return ""
+        sx = float(plane.x_range[1] - plane.x_range[0]) or 1.0
+        sy = float(plane.y_range[1] - plane.y_range[0]) or 1.0
+        best, tip = 0.02, ""
+        for arc in plane.arcs:
+            for k, (px, py) in enumerate(arc.points):
+                d = math.hypot((px - x) / sx, (py - y) / sy)
+                if d < best:
+                    best = d
+                    tip = BOUNDARY_STYLES.get(arc.kind, BOUNDARY_STYLES["singular"])[0]
+                    if arc.omega is not None and k < len(arc.omega) and arc.omega[k] is not None:
+                        tip += f" at s = ±j{number(arc.omega[k], 4)} rad/s"
+                    tip += f" ({plane.x} = {number(px, 4)}, {plane.y} = {number(py, 4)})"
+        return tip
+
+    def _hovered(self, pos) -> None:
+        point = self.plot.getPlotItem().getViewBox().mapSceneToView(pos)
+        self.plot.setToolTip(self.boundary_tip(point.x(), point.y()))
 
     def _clicked(self, event) -> None:
         plane = getattr(self._result, "plane", None) if self._result is not None else None

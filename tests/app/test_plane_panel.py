@@ -94,3 +94,14 @@ def test_dragging_the_marker_sets_both_values_once(window, pi_path, analysed):
     panel.nominal.setPos(50.0, 20.0)  # dropped outside the rectangle: nothing changes, the marker returns
     panel.nominal.sigPositionChangeFinished.emit(panel.nominal)
     assert window.undo_stack.count() == before + 1 and panel.nominal_point() == (8.0, 20.0)
+
+
+def test_hovering_a_crossing_boundary_tells_its_frequency(window, pi_path, analysed):
+    # Reference (by hand): on 4 (3 + Kp) = Ki the pair sits at s = ±j sqrt(3 + Kp); at Kp = 6, ±j3.
+    assert window.files.open(pi_path, ask=False)
+    analysed(window)
+    tip = window.plane_panel.boundary_tip(6.0, 36.0)
+    assert tip.startswith("pair on the imaginary axis at s = ±j")
+    omega = float(tip.split("±j")[1].split(" rad/s")[0])
+    assert abs(omega - 3.0) < 0.1
+    assert window.plane_panel.boundary_tip(15.0, 5.0) == ""  # far from every boundary
