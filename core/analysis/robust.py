@@ -48,6 +48,7 @@ from core.analysis.stable_range import (
     _key,
     _points_start,
     _sign_at,
+    interval_fields,
     stable_range,
 )
 from core.analysis.stable_range import _simplest_between as simplest_between
@@ -112,12 +113,7 @@ class RobustRange:
         return {
             "method": self.method, "exact": self.exact, "reason": self.reason,
             "tolerances": {q: [str(lo), str(hi)] for q, (lo, hi) in self.tolerances.items()},
-            "intervals": [[None if lo is None else lo.value, None if hi is None else hi.value]
-                          for lo, hi in self.intervals],
-            "approx_intervals": [[None if lo is None else lo.approx, None if hi is None else hi.approx]
-                                 for lo, hi in self.intervals],
-            "exact_intervals": [[None if lo is None else lo.text(name), None if hi is None else hi.text(name)]
-                                for lo, hi in self.intervals],
+            **interval_fields(self.intervals, name),
             "endpoints": [e.to_dict() for e in self.endpoints],
             "never_stable": not self.intervals, "samples": self.samples, "notes": self.notes,
         }

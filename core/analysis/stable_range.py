@@ -187,14 +187,8 @@ class StableRange:
     candidates: list[Boundary] = field(default_factory=list)
 
     def to_dict(self) -> dict:
-        name = self.parameter or "k"
         return {
-            "intervals": [[None if lo is None else lo.value, None if hi is None else hi.value]
-                          for lo, hi in self.intervals],
-            "approx_intervals": [[None if lo is None else lo.approx, None if hi is None else hi.approx]
-                                 for lo, hi in self.intervals],
-            "exact_intervals": [[None if lo is None else lo.text(name), None if hi is None else hi.text(name)]
-                                for lo, hi in self.intervals],
+            **interval_fields(self.intervals, self.parameter or "k"),
             "endpoints": [e.to_dict() for e in self.endpoints],
             "stable_everywhere": self.stable_everywhere,
             "never_stable": self.never_stable,
@@ -204,6 +198,15 @@ class StableRange:
         """Exact membership test for a rational value."""
         v = to_fmpq(value)
         return any((lo is None or _less(lo, v)) and (hi is None or _less_rev(v, hi)) for lo, hi in self.intervals)
+
+
+def interval_fields(intervals: list[tuple[Boundary | None, Boundary | None]], name: str) -> dict:
+    """The JSON fields of a union of intervals (None: unbounded): ``intervals`` (floats, infinite
+    beyond their range), ``approx_intervals`` (twelve digits) and ``exact_intervals``."""
+    def ends(text) -> list[list]:
+        return [[None if lo is None else text(lo), None if hi is None else text(hi)] for lo, hi in intervals]
+    return {"intervals": ends(lambda b: b.value), "approx_intervals": ends(lambda b: b.approx),
+            "exact_intervals": ends(lambda b: b.text(name))}
 
 
 def _less(b: Boundary, v: fmpq) -> bool:
