@@ -123,7 +123,8 @@ class PlanePanel(QWidget):
         self.image.setZValue(-20)
         self.plot.addItem(self.image)
         self.arcs: list[pg.PlotDataItem] = []
-        self.legend = item.addLegend(offset=(8, 8), labelTextSize="8pt")
+        self.legend = item.addLegend(offset=(-8, -8), labelTextSize="8pt")  # bottom right
+        self.hint = ""
         self.nominal = pg.TargetItem(movable=True, size=14)  # dragged: both nominal values, one undo step
         self.nominal.setZValue(10)
         self.nominal.setVisible(False)
@@ -267,8 +268,10 @@ class PlanePanel(QWidget):
         item.getViewBox().setRange(xRange=(x0, x1), yRange=(y0, y1), padding=0)
         stable_share = sum(r.share for r in plane.regions if r.stable)
         self.caption.setText(f"Stable (shaded) on {100 * stable_share:.0f} % of the rectangle · counts exact at "
-                             f"{len(plane.xs)} × {len(plane.ys)} points · click, or drag the marker, to set "
-                             f"{plane.x} and {plane.y}; hover a boundary for its frequency")
+                             f"{len(plane.xs)} × {len(plane.ys)} points")
+        self.hint = (f"Click, or drag the marker, to set {plane.x} and {plane.y} (one undo step); "
+                     "hover a boundary for its crossing frequency")
+        self.plot.setToolTip(self.hint)
 
     def _draw_nominal(self, current: float | None = None) -> None:
         plane = getattr(self._result, "plane", None) if self._result is not None else None
@@ -320,7 +323,7 @@ class PlanePanel(QWidget):
 
     def _hovered(self, pos) -> None:
         point = self.plot.getPlotItem().getViewBox().mapSceneToView(pos)
-        self.plot.setToolTip(self.boundary_tip(point.x(), point.y()))
+        self.plot.setToolTip(self.boundary_tip(point.x(), point.y()) or self.hint)
 
     def _clicked(self, event) -> None:
         plane = getattr(self._result, "plane", None) if self._result is not None else None
