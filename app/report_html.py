@@ -30,6 +30,7 @@ from core.algebra.polynomial import to_fmpq
 from core.analysis.report import CAUTION
 from core.errors import notice_kind
 from core.model.diagram import Diagram
+from core.present.report_text import distance_phrase
 
 ROLE_NAMES = {"gain": "Gain", "controller": "Controller", "actuator": "Actuator", "plant": "Plant",
               "sensor": "Sensor", "other": "Other"}
@@ -303,14 +304,14 @@ def _margins_html(report) -> str:
         return (f"<h3>Margins</h3><p id='margins'>At the nominal {name} = {_num(number(md['nominal']))} the loop "
                 "is not stable: no margins.</p>")
     rows = []
-    for side, factor, db, dist, edge in (("may rise", "rise_factor", "rise_db", "rise_distance", "high"),
-                                         ("may fall", "fall_factor", "fall_db", "fall_distance", "low")):
+    for side, factor, db, edge in (("may rise", "rise_factor", "rise_db", "high"),
+                                         ("may fall", "fall_factor", "fall_db", "low")):
         if md[edge] is None:
             rows.append([f"{name} {side}", "without limit", "", ""])
             continue
         rows.append([f"{name} {side}", _num(f"×{number(md[factor], 4)}") if md[factor] is not None else "",
                      _num(f"{number(md[db], 3)} dB") if md[db] is not None else "",
-                     _num(f"by {number(md[dist], 6)} to {number(md[edge], 6)}")])
+                     _num(distance_phrase(md, side.split()[1]).replace("-", MINUS))])
     return (f"<h3>Margins at the nominal {name} = {_num(number(md['nominal']))}</h3>"
             + _grid("margins", ["", "Factor", "Factor in dB", "Distance"], rows))
 

@@ -33,6 +33,7 @@ from app.panels.common import (
     number_css,
 )
 from app.theme import figure_font, label_font
+from core.present.report_text import distance_phrase
 
 HOW_LOST = {
     "origin": "a real pole passes through s = 0",
@@ -430,15 +431,15 @@ class RangePanel(QWidget):
             return (f"<p style='margin:6px 0 2px 0'><b>Margins at nominal</b> ({name} = "
                     f"<span class='num'>{number(md['nominal'])}</span>): none, the nominal value is not stable.</p>")
         rows = []
-        for side, factor, db, dist, edge in (("may rise", "rise_factor", "rise_db", "rise_distance", "high"),
-                                             ("may fall", "fall_factor", "fall_db", "fall_distance", "low")):
+        for side, factor, db, edge in (("may rise", "rise_factor", "rise_db", "high"),
+                                             ("may fall", "fall_factor", "fall_db", "low")):
             if md[edge] is None:
                 rows.append(f"<tr><td>{side}</td><td colspan='3'>without limit</td></tr>")
                 continue
             ratio = (f"×{number(md[factor], 4)}" if md[factor] is not None else "")
             dbs = f"{number(md[db], 3)} dB" if md[db] is not None else ""
             rows.append(f"<tr><td>{side}</td><td class='num'>{ratio}</td><td class='num'>{dbs}</td>"
-                        f"<td class='num muted'>by {number(md[dist], 6)} to {number(md[edge], 6)}</td></tr>")
+                        f"<td class='num muted'>{distance_phrase(md, side.split()[1]).replace('-', MINUS)}</td></tr>")
         return (f"<p style='margin:6px 0 2px 0'><b>Margins at nominal</b> {name} = "
                 f"<span class='num'>{number(md['nominal'])}</span></p><table>{''.join(rows)}</table>")
 

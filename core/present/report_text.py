@@ -61,6 +61,18 @@ def routh_table(report: Report, width: int | None = None) -> list[str]:
     return lines
 
 
+def distance_phrase(m: dict, side: str) -> str:
+    """``to 0 (a change of -2)``: where the parameter may go on ``side`` ("rise" or "fall") and how
+    far that is, worded so that it never reads as a factor (one wording for text, panel and report).
+
+    >>> distance_phrase({"low": 0.0, "low_text": "0", "fall_distance": 2.0}, "fall")
+    'to 0 (a change of -2)'
+    """
+    limit = "high" if side == "rise" else "low"
+    end = m.get(f"{limit}_text") or f"{m[limit]:.12g}"
+    return f"to {end} (a change of {'+' if side == 'rise' else '-'}{_big(m[f'{side}_distance'])})"
+
+
 def margins_lines(name: str, m: dict | None) -> list[str]:
     """How far the nominal value may move before instability, as factors (and dB) and distances."""
     if not m:
@@ -68,15 +80,15 @@ def margins_lines(name: str, m: dict | None) -> list[str]:
     if not m["stable"]:
         return [f"  the nominal {name} = {m['nominal']:.6g} is outside every stable interval"]
     lines = []
-    for side, word, limit in (("rise", "rise", "high"), ("fall", "fall", "low")):
+    for side in ("rise", "fall"):
         factor, db, dist = m[f"{side}_factor"], m[f"{side}_db"], m[f"{side}_distance"]
-        end = m.get(f"{limit}_text") or (None if m[limit] is None else f"{m[limit]:.12g}")
         if factor is not None:
-            lines.append(f"  {name} may {word} by a factor {_big(factor)} ({_big(db, 3)} dB) to {end}")
+            lines.append(f"  {name} may {side} by a factor {_big(factor)} ({_big(db, 3)} dB), "
+                         f"{distance_phrase(m, side)}")
         elif dist is not None:
-            lines.append(f"  {name} may {word} by {_big(dist)} to {end}")
+            lines.append(f"  {name} may {side} {distance_phrase(m, side)}")
         else:
-            lines.append(f"  {name} may {word} without limit")
+            lines.append(f"  {name} may {side} without limit")
     return lines
 
 
