@@ -29,7 +29,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from app.panels.common import MINUS, MessageLabel, colour, is_palette_change, number, number_css
+from app.panels.common import MINUS, MessageLabel, Readout, colour, is_palette_change, number, number_css
 from app.panels.routh_values import FloatEntries
 from app.theme import figure_font
 from core.algebra.polynomial import decimal_text, to_fmpq
@@ -152,6 +152,23 @@ def _in_eps(entry: RationalFunction, value: fmpq) -> RationalFunction:
     return RationalFunction(reduce(entry.num), den)
 
 
+def sign_summary(signs: list[int | None], powers: list[int]) -> str:
+    """One line on the first column's signs: how many changes and between which rows.
+
+    >>> sign_summary([1, 1, -1, 1], [3, 2, 1, 0])
+    'First column: 2 sign changes (s² → s¹, s¹ → s⁰)'
+    >>> sign_summary([1, 1, 1], [2, 1, 0]), sign_summary([1, None], [1, 0])
+    ('First column: no sign change', 'First column: a sign not decided here (?)')
+    """
+    if any(s is None or s == 0 for s in signs):
+        return "First column: a sign not decided here (?)" if None in signs else "First column: a zero entry"
+    pairs = [f"{power_label(powers[i])} → {power_label(powers[i + 1])}" for i in range(len(signs) - 1)
+             if signs[i] * signs[i + 1] < 0]
+    if not pairs:
+        return "First column: no sign change"
+    return f"First column: {len(pairs)} sign change{'s' if len(pairs) > 1 else ''} ({', '.join(pairs)})"
+
+
 def evaluate_entry(entry: RationalFunction, array: RouthArray, value) -> EntryValue:
     """The entry at tuning value ``value`` (exact); functions of ε are kept and signed as ε → 0+.
 
@@ -245,6 +262,9 @@ class RouthPanel(QWidget):
         self.message = MessageLabel(self)
         self.caption = QLabel(self)
         self.caption.setWordWrap(True)
+        self.summary = QLabel(self)  # the first column's sign changes, always in view above the table
+        self.summary.setFont(figure_font(9))
+        summary = Readout(self.summary, lines=1)  # a slider frame never relayouts the panel
         self.table = QTableWidget(self)
         self.table.setFont(figure_font(9))
         self.table.setWordWrap(True)
@@ -270,6 +290,7 @@ class RouthPanel(QWidget):
         layout.setContentsMargins(4, 4, 4, 4)
         layout.addWidget(self.message)
         layout.addLayout(bar)
+        layout.addWidget(summary)
         layout.addWidget(self.table)
         layout.addWidget(self.notes)
         layout.addStretch(1)
@@ -374,6 +395,7 @@ class RouthPanel(QWidget):
             table.setRowCount(0)
             table.setColumnCount(0)
             self.caption.setText("")
+            self.summary.setText("")
             self.notes.setText("")
             return
         width = self._width()
@@ -527,8 +549,12 @@ class RouthPanel(QWidget):
                         table.setItem(i + 1, column, item)
                     _set_text(item, ev.text if ev else "", ev.exact if ev else "")
         signs = [row[0].sign for row in self._values]
-        self.change_rows = {i for i in range(len(signs) - 1)
-                            if signs[i] is not None and signs[i + 1] is not None and signs[i] * signs[i + 1] < 0}
+        changes = {i for i in range(len(signs) - 1)
+                   if signs[i] is not None and signs[i + 1] is not None and signs[i] * signs[i + 1] < 0}
+        if changes and changes != self.change_rows:  # the first change scrolled into view
+            table.scrollToItem(table.item(min(changes) + 2, 0) or table.item(min(changes) + 1, 0))
+        self.change_rows = changes
+        self.summary.setText(sign_summary(signs, arr.powers))
         sign_col = self._sign_column()
         for i, s in enumerate(signs):
             item = table.item(i + 1, sign_col)

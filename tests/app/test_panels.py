@@ -298,3 +298,15 @@ def test_panels_follow_a_switch_to_the_dark_palette(loop, qtbot):
     finally:
         app.setPalette(before)
         QApplication.processEvents()
+
+
+def test_routh_sign_summary_stays_in_view_and_names_the_changes(loop, qtbot):
+    # Reference (by hand, Routh): s^3 + 3s^2 + 2s + K at K = 8 has first column 1, 3, -2/3, 8:
+    # two sign changes, s^2 -> s^1 and s^1 -> s^0 (two roots in the right half plane, numpy agrees).
+    d, ctl, panels = loop
+    routh = panels["routh"]
+    assert routh.summary.text() == "First column: no sign change"  # K = 2
+    ctl.set_current_value(8.0)
+    qtbot.waitUntil(lambda: "2 sign changes" in routh.summary.text(), timeout=5000)
+    assert routh.summary.text() == "First column: 2 sign changes (s² → s¹, s¹ → s⁰)"
+    assert sum(r.real > 0 for r in np.roots(third_order(8.0))) == 2
