@@ -13,7 +13,7 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QPalette
-from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSlider, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QDoubleSpinBox, QHBoxLayout, QLabel, QSlider, QToolButton, QVBoxLayout, QWidget
 
 from app.panels.common import MessageLabel, Readout, colour, complex_number, is_palette_change, number
 from app.theme import figure_font
@@ -99,10 +99,16 @@ class PoleMap(QWidget):
         self.slider.valueChanged.connect(self._slider_moved)
         self.slider.sliderReleased.connect(self._commit)
         self.spin.valueChanged.connect(self._spin_changed)
+        self.reset_view = QToolButton(self)
+        self.reset_view.setText("Reset view")
+        self.reset_view.setToolTip("Back to the view of the analysis (drag to pan, wheel to zoom)")
+        self.reset_view.clicked.connect(self._reset_view)
+        self._home = None
         row = QHBoxLayout()
         row.addWidget(self.name_label)
         row.addWidget(self.slider, 1)
         row.addWidget(self.spin)
+        row.addWidget(self.reset_view)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         layout.addWidget(self.message)
@@ -132,7 +138,9 @@ class PoleMap(QWidget):
         self.paths = pg.PlotDataItem([], [], connect="finite")
         self.zeros = pg.ScatterPlotItem(symbol="o", size=11, brush=pg.mkBrush(None))
         self.poles = pg.ScatterPlotItem(symbol="x", size=12, hoverable=True, hoverSize=17, tip=self._tip)
-        for it in (self.paths, self.zeros, self.poles):
+        self.crossings = pg.ScatterPlotItem(symbol="d", size=10)  # where a pair crosses the axis, at the range ends
+        self.crossing_labels: list[pg.TextItem] = []
+        for it in (self.paths, self.crossings, self.zeros, self.poles):
             plot.addItem(it)
         self._apply_theme()
         item.getViewBox().sigXRangeChanged.connect(self._cover_right_half_plane)
@@ -152,6 +160,8 @@ class PoleMap(QWidget):
         self.real_axis.setPen(pg.mkPen(colour("axis"), width=0.8))
         self.paths.setPen(pg.mkPen(colour("path"), width=1))
         self.zeros.setPen(pg.mkPen(colour("zero"), width=1.8))
+        self.crossings.setPen(pg.mkPen(colour("unstable"), width=1.4))
+        self.crossings.setBrush(pg.mkBrush(colour("unstable")))
         self.poles.setPen(pg.mkPen(colour("pole"), width=1.4))
         self.poles.setBrush(pg.mkBrush(colour("pole")))
 
@@ -179,12 +189,16 @@ class PoleMap(QWidget):
             self._value = tuning.nominal
         self._set_controls_enabled(tuning is not None and report is not None)
         if report is None:
-            for it in (self.paths, self.poles, self.zeros):
+            for it in (self.paths, self.poles, self.zeros, self.crossings):
                 it.setData([], [])
+            for label in self.crossing_labels:
+                self.plot.removeItem(label)
+            self.crossing_labels = []
             self.caption.setText("")
             return
         x, y = path_curve(result.paths)
         self.paths.setData(x, y)
+        self._mark_crossings(report)
         sigma = report.decay.sigma if report.decay is not None else None
         self.decay_line.setVisible(sigma is not None)
         self.forbidden.setVisible(sigma is not None)
@@ -203,9 +217,34 @@ class PoleMap(QWidget):
             self._updating = False
         value = self._value if tuning is not None else None
         poles, zeros = result.poles_at(value), result.zeros_at(value)
-        xr, yr = view_box(poles, zeros, result.paths, sigma)
-        self.plot.getPlotItem().getViewBox().setRange(xRange=xr, yRange=yr, padding=0)
+        self._home = view_box(poles, zeros, result.paths, sigma)
+        self._reset_view()
         self._draw_at(value)
+
+    def _reset_view(self) -> None:
+        if self._home is not None:
+            xr, yr = self._home
+            self.plot.getPlotItem().getViewBox().setRange(xRange=xr, yRange=yr, padding=0)
+
+    def _mark_crossings(self, report) -> None:
+        """A diamond at ±jω where a complex pair crosses the imaginary axis at a stable-range end,
+        labelled with the parameter value there."""
+        for label in self.crossing_labels:
+            self.plot.removeItem(label)
+        self.crossing_labels = []
+        ends = [] if report.stable_range is None else [
+            e for e in report.stable_range.endpoints if e.kind == "crossing" and e.omega and math.isfinite(e.omega)]
+        self.crossings.setData([0.0] * 2 * len(ends), [s * e.omega for e in ends for s in (1, -1)])
+        for e in ends:
+            value = number(e.value, 5) if math.isfinite(e.value) else e.approx
+            label = pg.TextItem(f"{report.parameter} = {value}", anchor=(1.05, 0.5), color=colour("unstable"))  # left of it
+            label.setPos(0.0, e.omega)
+            self.plot.addItem(label, ignoreBounds=True)
+            self.crossing_labels.append(label)
+
+    def plotted_crossings(self) -> list[tuple[float, str]]:
+        """(ω, label) of each marked crossing (upper half plane)."""
+        return [(label.pos().y(), label.toPlainText()) for label in self.crossing_labels]
 
     def set_current_value(self, value: float) -> None:
         """Move the poles (and the slider) to the tuning parameter's current value."""

@@ -310,3 +310,10 @@ def test_routh_sign_summary_stays_in_view_and_names_the_changes(loop, qtbot):
     qtbot.waitUntil(lambda: "2 sign changes" in routh.summary.text(), timeout=5000)
     assert routh.summary.text() == "First column: 2 sign changes (s² → s¹, s¹ → s⁰)"
     assert sum(r.real > 0 for r in np.roots(third_order(8.0))) == 2
+
+
+def test_pole_map_marks_where_the_pair_crosses_the_axis(loop):
+    # Reference (by hand, Routh): s^3 + 3s^2 + 2s + K loses stability at K = 6 with s = ±j sqrt(2).
+    _d, _ctl, panels = loop
+    (omega, text), = panels["map"].plotted_crossings()
+    assert abs(omega - 2 ** 0.5) < 1e-9 and text == "K = 6"
