@@ -52,10 +52,33 @@ def _finite_box(points: np.ndarray) -> tuple[float, float, float, float] | None:
     return float(pts.real.min()), float(pts.real.max()), float(pts.imag.min()), float(pts.imag.max())
 
 
-def view_box(poles: np.ndarray, zeros: np.ndarray, paths: np.ndarray, sigma: float | None):
-    """x and y ranges showing the poles, zeros, imaginary axis and decay line, and the paths
-    as far as 3 times that extent (paths may run off to infinity where the order drops)."""
-    core_pts = np.concatenate([poles, zeros, np.array([0j, complex(-(sigma or 0.0), 0.0)])])
+FAR_FACTOR = 6.0  # a pole or zero this many times farther than the dominant ones is left outside the view
+
+
+def dominant(points: np.ndarray, crossings: list[float], sigma: float | None) -> np.ndarray:
+    """The points within FAR_FACTOR times the size of what matters most: the slowest pole, the
+    crossing frequencies and the decay rate (poles at -500 and -200 must not squash a pair at ±4j).
+
+    >>> dominant(np.array([-500, -200, -1 + 4j, -1 - 4j]), [44.0], None).tolist()
+    [(-200+0j), (-1+4j), (-1-4j)]
+    """
+    finite = points[np.isfinite(points)]
+    if finite.size == 0:
+        return finite
+    slowest = finite[np.argmax(finite.real)]
+    ref = max([abs(slowest), *crossings, sigma or 0.0, 1e-12])
+    return finite[np.abs(finite) <= FAR_FACTOR * ref]
+
+
+def view_box(poles: np.ndarray, zeros: np.ndarray, paths: np.ndarray, sigma: float | None,
+             crossings: list[float] | None = None):
+    """x and y ranges showing the dominant poles and zeros (:func:`dominant`), the imaginary axis,
+    the decay line and the axis crossings, and the paths as far as 3 times that extent (paths may
+    run off to infinity where the order drops)."""
+    crossings = crossings or []
+    near = dominant(np.concatenate([poles, zeros]), crossings, sigma)
+    core_pts = np.concatenate([near, np.array([0j, complex(-(sigma or 0.0), 0.0)]),
+                               np.array([1j * w for w in crossings] + [-1j * w for w in crossings])])
     x0, x1, y0, y1 = _finite_box(core_pts)
     size = max(x1 - x0, y1 - y0, 1.0)
     cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
@@ -138,9 +161,10 @@ class PoleMap(QWidget):
         self.paths = pg.PlotDataItem([], [], connect="finite")
         self.zeros = pg.ScatterPlotItem(symbol="o", size=11, brush=pg.mkBrush(None))
         self.poles = pg.ScatterPlotItem(symbol="x", size=12, hoverable=True, hoverSize=17, tip=self._tip)
+        self.far = pg.ScatterPlotItem(symbol="t3", size=11)  # poles outside the view, pinned to its edge
         self.crossings = pg.ScatterPlotItem(symbol="d", size=10)  # where a pair crosses the axis, at the range ends
         self.crossing_labels: list[pg.TextItem] = []
-        for it in (self.paths, self.crossings, self.zeros, self.poles):
+        for it in (self.paths, self.crossings, self.far, self.zeros, self.poles):
             plot.addItem(it)
         self._apply_theme()
         item.getViewBox().sigXRangeChanged.connect(self._cover_right_half_plane)
@@ -161,6 +185,8 @@ class PoleMap(QWidget):
         self.paths.setPen(pg.mkPen(colour("path"), width=1))
         self.zeros.setPen(pg.mkPen(colour("zero"), width=1.8))
         self.crossings.setPen(pg.mkPen(colour("unstable"), width=1.4))
+        self.far.setPen(pg.mkPen(colour("pole"), width=1.2))
+        self.far.setBrush(pg.mkBrush(None))
         self.crossings.setBrush(pg.mkBrush(colour("unstable")))
         self.poles.setPen(pg.mkPen(colour("pole"), width=1.4))
         self.poles.setBrush(pg.mkBrush(colour("pole")))
@@ -217,9 +243,24 @@ class PoleMap(QWidget):
             self._updating = False
         value = self._value if tuning is not None else None
         poles, zeros = result.poles_at(value), result.zeros_at(value)
-        self._home = view_box(poles, zeros, result.paths, sigma)
+        crossings = [y for y, _ in self.plotted_crossings()]
+        self._home = view_box(poles, zeros, result.paths, sigma, crossings)
         self._reset_view()
         self._draw_at(value)
+
+    def _outside_home(self, poles: np.ndarray) -> str:
+        """``2 poles (far left)`` for the poles outside the analysis' view; empty when none."""
+        if self._home is None or poles.size == 0:
+            self.far.setData([], [])
+            return ""
+        (x0, x1), (y0, y1) = self._home
+        out = poles[(poles.real < x0) | (poles.real > x1) | (poles.imag < y0) | (poles.imag > y1)]
+        inset = 0.015 * (x1 - x0)
+        self.far.setData(np.clip(out.real, x0 + inset, x1 - inset), np.clip(out.imag, y0, y1))
+        if out.size == 0:
+            return ""
+        where = ", ".join(complex_number(z, 4) for z in out[np.argsort(out.real)][:3])
+        return f"{out.size} pole{'s' if out.size > 1 else ''} ({where}{' …' if out.size > 3 else ''})"
 
     def _reset_view(self) -> None:
         if self._home is not None:
@@ -271,6 +312,9 @@ class PoleMap(QWidget):
         zeros = result.zeros_at(value) if result.zero_table.size else self._nominal_zeros()
         self.zeros.setData(zeros.real, zeros.imag)
         caption = self._caption(poles, value)
+        far = self._outside_home(poles)
+        if far:
+            caption += f" · {far} outside the view (Reset view, or zoom out)"
         if beyond:
             caption += f" · not drawn, beyond the float range: {', '.join(beyond[:3])}{' …' if len(beyond) > 3 else ''}"
         self.caption.setText(caption)

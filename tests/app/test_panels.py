@@ -317,3 +317,19 @@ def test_pole_map_marks_where_the_pair_crosses_the_axis(loop):
     _d, _ctl, panels = loop
     (omega, text), = panels["map"].plotted_crossings()
     assert abs(omega - 2 ** 0.5) < 1e-9 and text == "K = 6"
+
+
+def test_pole_map_zooms_to_the_dominant_poles_and_names_the_far_ones(qtbot):
+    # K / ((s+500)(s+2)(s+3)): at K = 1 the poles are near -500, -3 and -2 (numpy reference below);
+    # the view keeps the slow pair and the crossing, the pole near -500 is pinned to the edge and named.
+    d = unity_loop(num="K", den="(s+500)*(s+2)*(s+3)", nominal=1.0)
+    ctl = AnalysisController(d, ModelSignals(d))
+    pole_map = PoleMap()
+    qtbot.addWidget(pole_map)
+    attach(pole_map, ctl)
+    assert ctl.wait_for_idle(20000) and ctl.result.ok
+    far = min(np.roots([1, 505, 2506, 3001]).real)  # (s+500)(s+2)(s+3) + 1, expanded by hand
+    (x0, _x1), _ = pole_map._home
+    assert far < x0 < -3
+    assert "1 pole (" in pole_map.caption.text() and "outside the view" in pole_map.caption.text()
+    assert np.allclose(sorted_roots(pole_map.plotted_poles()), sorted_roots(np.roots([1, 505, 2506, 3001])))
