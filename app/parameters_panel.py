@@ -33,16 +33,12 @@ from app.theme import figure_font
 from core.algebra.expression import expression_parameters
 from core.algebra.numbers import read_value
 from core.errors import ExpressionError, LoopwrightError
-from core.model.diagram import Diagram, Parameter
+from core.model.diagram import DECAY_WORDS, Diagram, Parameter
 
 COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tolerance", "Tune")
 FIELDS = {1: "nominal", 2: "minimum", 3: "maximum"}
 TOLERANCE_COLUMN, TUNE_COLUMN = 4, 5
-DECAY_MODES = (
-    ("sigma", "Minimum decay rate σ", "1/s", ""),
-    ("half_time", "Time to half amplitude", "s", "σ = ln 2 / T"),
-    ("settling", "2 % settling time", "s", "rule of thumb: σ ≈ 4 / Ts"),
-)
+DECAY_MODES = tuple((mode, w.name[:1].upper() + w.name[1:], w.unit, w.rule) for mode, w in DECAY_WORDS.items())
 MISSING_COLOUR = QColor("#c62828")
 ERROR_STYLE = "color: #c62828; font-size: 8.5pt;"
 

@@ -29,13 +29,11 @@ from app.panels.routh_panel import entry_display, evaluate_entry, power_label
 from core.algebra.polynomial import to_fmpq
 from core.analysis.report import CAUTION
 from core.errors import notice_kind
-from core.model.diagram import Diagram
+from core.model.diagram import DECAY_WORDS, Diagram
 from core.present.report_text import distance_phrase
 
 ROLE_NAMES = {"gain": "Gain", "controller": "Controller", "actuator": "Actuator", "plant": "Plant",
               "sensor": "Sensor", "other": "Other"}
-DECAY_MODE_NAMES = {"sigma": "minimum decay rate σ", "half_time": "time to half amplitude",
-                    "settling": "2 % settling time"}
 STYLE = """
 body { font-family: 'DejaVu Sans', sans-serif; font-size: 9.5pt; color: #1b1f24; }
 h1 { font-size: 17pt; margin: 0 0 4px 0; }
@@ -174,7 +172,7 @@ def diagram_html(inputs: ReportInputs) -> str:
     a = d.analysis
     settings = [f"input {esc(a.input or '—')}, output {esc(a.output or '—')}"]
     if a.decay_value:
-        settings.append(f"decay requirement: {DECAY_MODE_NAMES.get(a.decay_mode, esc(a.decay_mode))} "
+        settings.append(f"decay requirement: {DECAY_WORDS[a.decay_mode].name if a.decay_mode in DECAY_WORDS else esc(a.decay_mode)} "
                         f"{_num(number(a.decay_value))}" + (" 1/s" if a.decay_mode == "sigma" else " s"))
     out.append(f"<p id='settings'>Analysed from {'; '.join(settings)}.</p>")
     return "".join(out)

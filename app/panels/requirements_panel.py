@@ -19,11 +19,9 @@ from app.panels.common import MINUS, MessageLabel, Readout, colour, number, numb
 from app.theme import figure_font, label_font
 from core.analysis.requirements import Verdict, evaluate, intervals_text
 from core.errors import LoopwrightError
-from core.model.diagram import Diagram
+from core.model.diagram import DECAY_WORDS, Diagram
 from core.model.requirements import Requirements
 
-DECAY_LABELS = {"sigma": ("Decay rate σ ≥", "1/s"), "half_time": ("Time to half amplitude ≤", "s"),
-                "settling": ("Settling time 2 % ≤", "s")}
 ROWS = ("decay", "damping", "overshoot", "gain margin")
 EXACT_PARTS = ("stable", "decay", "gain margin")
 GAIN_MARGIN_TIP = ("Gain margin: the factor by which the tuning parameter may rise before the loop "
@@ -174,7 +172,8 @@ class RequirementsPanel(QWidget):
         req = d.requirements if d is not None else Requirements()
         mode = d.analysis.decay_mode if d is not None else "sigma"
         decay = d.analysis.decay_value if d is not None else 0.0
-        label, unit = DECAY_LABELS[mode]
+        words = DECAY_WORDS[mode]
+        label, unit = words.label[:1].upper() + words.label[1:], words.unit
         self.labels["decay"].setText(label)
         self.units["decay"].setText(unit)
         for key, value in (("decay", decay or None), ("damping", req.min_damping),

@@ -35,6 +35,7 @@ import numpy as np
 
 from core.algebra.polynomial import to_float, to_fmpq
 from core.errors import LoopwrightError
+from core.model.diagram import DECAY_WORDS
 from core.model.requirements import Requirements
 
 if TYPE_CHECKING:  # scipy loads on first use only
@@ -105,9 +106,9 @@ def _decay_verdict(report, poles: np.ndarray, value: float | None) -> Verdict:
     if dec.mode == "sigma":
         return Verdict("decay", dec.sigma, sigma_actual, passed,
                        None if sigma_actual is None else sigma_actual - dec.sigma, True,
-                       "decay rate σ ≥", "1/s", dec.note)
+                       DECAY_WORDS["sigma"].label, "1/s", dec.note)
     scale = math.log(2) if dec.mode == "half_time" else 4.0
-    label = "time to half amplitude ≤" if dec.mode == "half_time" else "settling time (2 %, from σ) ≤"
+    label = DECAY_WORDS[dec.mode].label
     required = scale / dec.sigma
     actual = scale / sigma_actual if sigma_actual is not None and sigma_actual > 0 else None
     return Verdict("decay", required, actual, passed, None if actual is None else required - actual, True,

@@ -29,6 +29,28 @@ from core.model.requirements import Requirements
 NODE_KINDS = ("input", "output", "sum", "branch", "block")
 ROLES = ("gain", "controller", "actuator", "plant", "sensor", "other")
 DECAY_MODES = ("sigma", "half_time", "settling")
+
+
+@dataclass(frozen=True)
+class DecayWords:
+    """How one decay mode is named to people (one wording for panels, verdicts and the report)."""
+
+    name: str        # what the number is
+    unit: str
+    comparator: str  # how the requirement compares: the actual value must be >= or <= it
+    rule: str        # how sigma follows from it, shown beside the field ("" for sigma itself)
+
+    @property
+    def label(self) -> str:
+        """``decay rate σ ≥``: the requirement as a label."""
+        return f"{self.name} {self.comparator}"
+
+
+DECAY_WORDS = {
+    "sigma": DecayWords("decay rate σ", "1/s", "≥", ""),
+    "half_time": DecayWords("time to half amplitude", "s", "≤", "σ = ln 2 / T"),
+    "settling": DecayWords("settling time (2 %, from σ)", "s", "≤", "rule of thumb: σ ≈ 4 / Ts"),
+}
 MIN_SUM_PORTS, MAX_SUM_PORTS = 2, 4
 ID_PATTERN = re.compile(r"[A-Za-z_][A-Za-z0-9_]{0,63}")  # used with fullmatch: "$" would allow a final newline
 PARAMETER_PATTERN = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,63}")

@@ -303,7 +303,7 @@ def test_panels_follow_a_switch_to_the_dark_palette(loop, qtbot):
 def test_routh_sign_summary_stays_in_view_and_names_the_changes(loop, qtbot):
     # Reference (by hand, Routh): s^3 + 3s^2 + 2s + K at K = 8 has first column 1, 3, -2/3, 8:
     # two sign changes, s^2 -> s^1 and s^1 -> s^0 (two roots in the right half plane, numpy agrees).
-    d, ctl, panels = loop
+    _d, ctl, panels = loop
     routh = panels["routh"]
     assert routh.summary.text() == "First column: no sign change"  # K = 2
     ctl.set_current_value(8.0)
