@@ -296,10 +296,26 @@ def _check_project_with_values(path: str, at: dict[str, object], decay, toleranc
     return project, report
 
 
+def with_command(argv: Sequence[str]) -> list[str]:
+    """The arguments with the ``check`` command put first when it was left out (the first argument
+    is an option or a path), so that ``loopwright-check PROJECT`` works like ``loopwright-check
+    check PROJECT``; any other first word is left for argparse to refuse by name.
+
+    >>> with_command(["p.loop.json", "--json"]), with_command(["--poly", "s+1"]), with_command(["frob"])
+    (['check', 'p.loop.json', '--json'], ['check', '--poly', 's+1'], ['frob'])
+    """
+    argv = list(argv)
+    if not argv or argv[0] in ("check", "-h", "--help"):
+        return argv
+    first = argv[0]
+    looks_like_check = first.startswith("-") or first.endswith(".json") or "/" in first or "\\" in first
+    return ["check", *argv] if looks_like_check else argv  # another word: argparse names the commands
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point; never lets a traceback reach the user."""
     try:
-        args = build_parser().parse_args(keep_dash_values(sys.argv[1:] if argv is None else argv))
+        args = build_parser().parse_args(keep_dash_values(with_command(sys.argv[1:] if argv is None else argv)))
         return run(args)
     except LoopwrightError as err:
         print(f"{PROGRAM}: {err}", file=sys.stderr)

@@ -239,3 +239,12 @@ def test_text_abbreviates_long_entries_and_json_keeps_them(capsys):
     assert all(len(c.strip()) <= SCREEN_LINE for c in cells)
     for entry in long:
         assert any(c.strip().startswith(entry[:10]) and f"({len(entry)} chars)" in c for c in cells)
+
+
+def test_the_check_command_word_may_be_left_out(capsys):
+    from core.cli import main
+    project = str(ROOT / "resources" / "examples" / "conveyor_speed.loop.json")
+    assert main([project, "--json"]) == 0
+    short = capsys.readouterr().out
+    assert main(["check", project, "--json"]) == 0
+    assert capsys.readouterr().out == short
