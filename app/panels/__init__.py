@@ -8,8 +8,8 @@ from PySide6.QtCore import QEvent, QObject
 from app.panels.pole_map import PoleMap
 from app.panels.polynomial_panel import HTML_KEY, PolynomialPanel, polynomial_html
 from app.panels.range_panel import RangePanel
+from app.panels.requirements_panel import OUTCOME_KEY, reference_step
 from app.panels.routh_panel import RouthPanel, ready_cells
-from core.errors import LoopwrightError
 from core.present.verdicts import headline, outcome_from_parts, robust_at_nominal
 
 __all__ = ["PoleMap", "PolynomialPanel", "RangePanel", "RouthPanel", "attach", "prepare_for_panels"]
@@ -33,13 +33,10 @@ def ready_headline(result) -> None:
     """``result.display["headline"]``: stability at the nominal values AND the requirements' verdict
     (the command line's own words); ``result.display["requirements_met"]``: True, False or None."""
     report, td = result.report, result.time_domain
-    step = None
-    if td is not None and result.requirements.max_overshoot is not None and td.reference in td.transfers:
-        try:
-            step = result.step_at(td.reference, result.tuning_range.nominal if result.tuning_range else None)
-        except LoopwrightError:
-            step = None
-    outcome = outcome_from_parts(report, result.requirements, step, td.joint if td is not None else None)
+    nominal = result.tuning_range.nominal if result.tuning_range is not None and report.parameter else None
+    outcome = outcome_from_parts(report, result.requirements, reference_step(result, nominal),
+                                 td.joint if td is not None else None)
+    result.display[OUTCOME_KEY] = outcome
     result.display["headline"] = headline(report, outcome)
     result.display["requirements_met"] = None if outcome is None else outcome.all_met
     result.display["robust"] = robust_at_nominal(report)

@@ -23,10 +23,23 @@ from core.model.diagram import DECAY_WORDS, Diagram
 from core.model.requirements import Requirements
 
 ROWS = ("decay", "damping", "overshoot", "gain margin")
+OUTCOME_KEY = "requirements_outcome"  # result.display key: the verdicts at the nominal value, readied on the worker
 EXACT_PARTS = ("stable", "decay", "gain margin")
 GAIN_MARGIN_TIP = ("Gain margin: the factor by which the tuning parameter may rise before the loop "
                    "loses stability (the stable range's rise factor). When the tuning parameter is "
                    "not a gain, this is a parameter margin in the same sense.")
+
+
+def reference_step(result, value: float | None):
+    """The step response from the reference input at ``value`` when an overshoot is required (the
+    analysis' own at the nominal value); None otherwise, or when it cannot be simulated."""
+    td = result.time_domain
+    if td is None or result.requirements.max_overshoot is None or td.reference not in td.transfers:
+        return None
+    try:
+        return result.step_at(td.reference, value)
+    except LoopwrightError:
+        return None
 
 
 def read_optional(text: str) -> float | None:
@@ -245,13 +258,12 @@ class RequirementsPanel(QWidget):
         else:
             report = result.report
             value = self._value if report.parameter is not None else None
-            step = None
-            if td.requirements.max_overshoot is not None and td.reference in td.transfers:
-                try:
-                    step = result.step_at(td.reference, value)  # the analysis' own at the nominal value
-                except LoopwrightError:
-                    step = None
-            self.verdicts = evaluate(td.requirements, report, step, value)
+            nominal = result.tuning_range.nominal if result.tuning_range is not None and report.parameter else None
+            ready = result.display.get(OUTCOME_KEY)
+            if ready is not None and value == nominal:  # judged on the worker with the headline
+                self.verdicts = ready.verdicts
+            else:
+                self.verdicts = evaluate(td.requirements, report, reference_step(result, value), value)
         by_name = {v.name: v for v in self.verdicts}
         for key in ROWS:
             verdict = by_name.get(key)
