@@ -25,13 +25,13 @@ import numpy as np
 from flint import arb, arb_poly
 
 from core.algebra.polynomial import ParametricPolynomial, to_float, to_fmpq
-from core.analysis.plane import Plane, stability_plane
+from core.analysis.plane import Plane, plane_of_project
 from core.analysis.poles import certified_roots, expand_multiplicity, path_sensitivity, pole_paths
 from core.analysis.report import Report, check_project
 from core.analysis.requirements import TimeDomain, prepare
 from core.analysis.routh import RouthArray, is_hurwitz, routh_counts
 from core.analysis.time_response import StepResponse, step_response
-from core.errors import AnalysisError, LoopwrightError, Notice
+from core.errors import LoopwrightError, Notice
 from core.io.project_file import project_from_dict
 from core.model.diagram import Diagram
 from core.model.requirements import Requirements
@@ -328,15 +328,7 @@ def _plane(result: AnalysisResult, diagram: Diagram, report: Report) -> None:
     if x is None or y is None:
         return
     try:
-        ranges = []
-        for name in (x, y):
-            param = diagram.parameters.get(name)
-            if param is None or name not in report.values:
-                raise AnalysisError("E432", f"'{name}' is not a parameter of this loop", where=f"plane {name}")
-            ranges.append((to_fmpq(param.minimum), to_fmpq(param.maximum)))
-        assert report.reduction is not None  # a project's report always has its reduction
-        result.plane = stability_plane(report.reduction.characteristic, x, y, report.values, ranges[0], ranges[1],
-                                       PLANE_RESOLUTION)
+        result.plane = plane_of_project(diagram, report, x, y, resolution=PLANE_RESOLUTION)
     except LoopwrightError as exc:
         result.plane_error = str(exc)
     except Exception as exc:  # a bug in the plane must not take the rest of the analysis with it

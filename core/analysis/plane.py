@@ -52,7 +52,7 @@ from itertools import pairwise
 import numpy as np
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx, fmpq_poly
 
-from core.algebra.polynomial import ParametricPolynomial, S, mpoly_text, primitive_scale, to_float
+from core.algebra.polynomial import ParametricPolynomial, S, mpoly_text, primitive_scale, to_float, to_fmpq
 from core.analysis.routh import routh_counts
 from core.analysis.stable_range import (
     Boundary,
@@ -549,6 +549,24 @@ def stability_plane(poly: fmpq_mpoly, x: str, y: str, values: Mapping[str, fmpq]
         slices=slices, xs=[to_float(v) for v in xs], ys=[to_float(v) for v in ys],
         grid=[list(row) for row in zip(*grid_columns)],
         nominal={n: str(values[n]) for n in (x, y) if n in values})
+
+
+def plane_of_project(project, report, x: str, y: str, x_range: tuple[fmpq, fmpq] | None = None,
+                     y_range: tuple[fmpq, fmpq] | None = None, resolution: int = 100,
+                     where: str = "plane") -> Plane:
+    """The plane of an analysed project: its characteristic polynomial, every other parameter at
+    the value the report used, a missing range from the parameter table's min..max (E432 for an
+    axis that is not a parameter of the project; E430/E431 as :func:`stability_plane`)."""
+    ranges = []
+    for name, rng in ((x, x_range), (y, y_range)):
+        param = project.parameters.get(name)
+        if param is None:
+            raise AnalysisError("E432", f"the project has no parameter '{name[:40]}' "
+                                f"(it has {', '.join(sorted(project.parameters)) or 'none'})",
+                                where=f"{where} {name[:40]}")
+        ranges.append(rng or (to_fmpq(param.minimum), to_fmpq(param.maximum)))  # the decimals the table shows
+    assert report.reduction is not None  # a project's report always has its reduction
+    return stability_plane(report.reduction.characteristic, x, y, report.values, ranges[0], ranges[1], resolution)
 
 
 def _slices(x, y, x_range, y_range, bivariate, flat) -> list[PlaneSlice]:

@@ -16,10 +16,10 @@ from __future__ import annotations
 import re
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from fractions import Fraction
 
 from flint import fmpq
 
+from core.analysis import plane
 from core.analysis.plane import Plane, short_text, stability_plane
 from core.analysis.stable_range import _simplest_between
 from core.errors import AnalysisError, UsageError
@@ -109,19 +109,4 @@ def plane_of_project(project, report, axes: PlaneAxes) -> Plane:
     """The plane of an analysed project: its characteristic polynomial, every other parameter at
     the value the report used, missing ranges from the parameter table (E432 for an axis that is
     not a parameter of the project)."""
-    ranges = []
-    for name, rng in ((axes.x, axes.x_range), (axes.y, axes.y_range)):
-        param = project.parameters.get(name)
-        if param is None:
-            raise AnalysisError("E432", f"the project has no parameter '{name[:40]}' "
-                                f"(it has {', '.join(sorted(project.parameters)) or 'none'})",
-                                where=f"{WHERE} {name[:40]}")
-        ranges.append(rng or _checked_range(name, _decimal(param.minimum), _decimal(param.maximum)))
-    poly = report.reduction.characteristic
-    return stability_plane(poly, axes.x, axes.y, report.values, ranges[0], ranges[1], RESOLUTION)
-
-
-def _decimal(value: float) -> fmpq:
-    """A table value as the decimal it shows (0.1 is 1/10)."""
-    exact = Fraction(repr(float(value)))
-    return fmpq(exact.numerator, exact.denominator)
+    return plane.plane_of_project(project, report, axes.x, axes.y, axes.x_range, axes.y_range, RESOLUTION, WHERE)
