@@ -4,6 +4,7 @@ Ranges may be left out for a project (``--plane Kp,Ki``: each axis's min and max
 parameter table); with ``--poly`` they are required. Values are exact (``1/3``, ``2.5``, ``1e-3``);
 the decimal separator is a point.
 
+>>> from fractions import Fraction
 >>> def exact(text, where):
 ...     value = Fraction(text)
 ...     return fmpq(value.numerator, value.denominator)
