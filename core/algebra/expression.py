@@ -193,7 +193,7 @@ def _tokenize(text: str, where: str | None, delays: bool = False) -> list[_Token
                                                  and text[i + 1].isdigit())):
             m = _NUMBER.match(text, i)
             assert m is not None  # a digit or '.digit' always starts a number
-            _check_number_end(text, m, where, column)
+            _check_number_end(text, m, where, column, delays)
             tokens.append(_Token("num", m.group(0), column, _number_value(m, where, column)))
             i = m.end()
         elif ch.isascii() and (ch.isalpha() or ch == "_"):
@@ -239,12 +239,14 @@ def _superscript_power(text: str, start: int, tokens: list[_Token], where: str |
     return end
 
 
-def _check_number_end(text: str, match: re.Match, where: str | None, column: int) -> None:
+def _check_number_end(text: str, match: re.Match, where: str | None, column: int, delays: bool = False) -> None:
     """E112 for a number run into a name that starts with e (``1e3e3``, ``2e``): it reads as a
-    malformed exponent, not as a product."""
+    malformed exponent, not as a product (when delays are read, ``2exp(-s)`` is a product)."""
     end = match.end()
     if end < len(text) and text[end] in "eE":
         rest = _NAME.match(text, end)
+        if delays and rest is not None and rest.group(0) == DELAY_FUNCTION:
+            return
         shown = text[match.start():rest.end() if rest else end + 1][:30]
         has_exponent = match.group(4) is not None or match.group(7) is not None
         problem = "it has two exponents (write 1e6, not 1e3e3)" if has_exponent else \

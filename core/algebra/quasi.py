@@ -120,7 +120,7 @@ class QuasiPolynomial:
             if delay.is_zero:
                 piece = body
             else:
-                factor = f"exp(-{_delay_factor(delay)}*s)"
+                factor = "exp(-s)" if delay == Delay.of(fmpq(1)) else f"exp(-{_delay_factor(delay)}*s)"
                 piece = factor if body == "1" else f"-{factor}" if body == "-1" else \
                     f"{body}*{factor}" if len(poly) == 1 else f"({body})*{factor}"
             if piece == "0":
@@ -135,6 +135,7 @@ class QuasiPolynomial:
 
 
 def _delay_factor(delay: Delay) -> str:
+    """The delay as written before ``*s`` (``exp(-s)`` for a delay of one)."""
     text = delay.text()
     return text if len(delay.parts) + (delay.constant != 0) == 1 and "*" not in text else f"({text})"
 

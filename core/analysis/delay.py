@@ -50,6 +50,8 @@ __all__ = [
     "Parts",
     "crossings",
     "gain_range",
+    "rightmost_roots",
+    "RootSet",
     "delay_range",
     "DelayRange",
     "Candidate",
@@ -742,3 +744,103 @@ def _switch_events(found: list[Crossing], rhp0: int) -> tuple[list[tuple[arb, Cr
             if d1.overlaps(d2):
                 raise AnalysisError("E446", "two crossings at the same delay cannot be told apart", where="delay loop")
         return events, notes
+
+
+# -- rightmost roots ---------------------------------------------------------------------------
+@dataclass
+class RootSet:
+    """Roots of a quasi-polynomial found right of ``complete_right_of`` (a real part): ``validated``
+    when their number equals the certified argument-principle count of that region (so none there
+    is missing), each refined by Newton's method inside a rectangle holding exactly one root."""
+
+    roots: list[complex]
+    complete_right_of: float | None
+    counted: int
+    validated: bool
+
+    def to_dict(self) -> dict:
+        return {"roots": [[z.real, z.imag] for z in self.roots], "complete_right_of": self.complete_right_of,
+                "counted": self.counted, "validated": self.validated}
+
+
+ROOT_SPLIT = 0.4637  # rectangles are cut off-centre: a cut through the middle would meet real roots
+
+
+def rightmost_roots(parts: Parts, wanted: int = 10, budget_s: float = 2.0) -> RootSet:
+    """At least ``wanted`` rightmost roots (fewer when the time budget runs out: then not
+    validated): the region Re s >= sigma, |s| < R(sigma) is widened leftwards until it holds
+    ``wanted`` roots by the argument principle, then cut into rectangles with one root each."""
+    import time
+
+    deadline = time.perf_counter() + budget_s
+    ev = Evaluator(parts)
+    sigma = -1.0
+    found: list[complex] = []
+    counted = 0
+    region: tuple[float, float, float, float] | None = None
+    while time.perf_counter() < deadline:
+        r = to_float(parts_bound(parts, fmpq(*sigma.as_integer_ratio()))) * (1 + 1e-9) + 1e-9
+        if not math.isfinite(r) or r > 1e6:
+            break
+        region = (sigma, r, -r, r)
+        try:
+            counted = _count(ev, region)
+        except AnalysisError:
+            sigma *= 1.0137
+            continue
+        if counted >= wanted:
+            break
+        sigma *= 2
+    if region is None:
+        return RootSet([], None, 0, False)
+    found = _isolate(ev, region, counted, deadline)
+    found.sort(key=lambda z: (-z.real, -z.imag))
+    return RootSet(found, region[0], counted, len(found) == counted)
+
+
+def _count(ev: Evaluator, rect: tuple[float, float, float, float]) -> int:
+    x0, x1, y0, y1 = rect
+    return winding(ev, [complex(x0, y0), complex(x1, y0), complex(x1, y1), complex(x0, y1)])
+
+
+def _isolate(ev: Evaluator, rect: tuple[float, float, float, float], inside: int, deadline: float) -> list[complex]:
+    import time
+
+    out: list[complex] = []
+    stack = [(rect, inside)]
+    while stack and time.perf_counter() < deadline:
+        (x0, x1, y0, y1), n = stack.pop()
+        if n == 0:
+            continue
+        if n == 1:
+            z = _newton(ev, complex((x0 + x1) / 2, (y0 + y1) / 2))
+            if z is not None and x0 <= z.real <= x1 and y0 <= z.imag <= y1:
+                out.append(z)
+                continue
+        for cut in (ROOT_SPLIT, 0.5 - 0.0731, 0.5 + 0.0593):
+            if x1 - x0 >= y1 - y0:
+                xm = x0 + cut * (x1 - x0)
+                halves = ((x0, xm, y0, y1), (xm, x1, y0, y1))
+            else:
+                ym = y0 + cut * (y1 - y0)
+                halves = ((x0, x1, y0, ym), (x0, x1, ym, y1))
+            try:
+                first = _count(ev, halves[0])
+            except AnalysisError:
+                continue
+            stack += [(halves[0], first), (halves[1], n - first)]
+            break
+    return out
+
+
+def _newton(ev: Evaluator, z: complex, steps: int = 60) -> complex | None:
+    with ctx.workprec(PREC):
+        for _ in range(steps):
+            s = acb(z.real, z.imag)
+            step = complex(ev.value(s) / ev.derivative(s))
+            z -= step
+            if not (math.isfinite(z.real) and math.isfinite(z.imag)):
+                return None
+            if abs(step) <= 1e-14 * max(1.0, abs(z)):
+                return z
+    return None

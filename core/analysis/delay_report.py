@@ -32,6 +32,7 @@ from core.analysis.delay import (
     gain_range,
     normal_parts,
     rhp_count,
+    rightmost_roots,
 )
 from core.analysis.routh import is_hurwitz
 from core.analysis.stable_range import stable_range
@@ -217,6 +218,11 @@ def _judge_nominal(report: DelayReport, parts: Parts) -> None:
         report.warnings.append(Notice(f"nominal loop: {err.message}: not stable", "note"))
         return
     report.nominal_stable = report.nominal_rhp == 0
+    roots = rightmost_roots(parts)
+    report.rightmost = roots.to_dict()
+    if not roots.validated:
+        report.warnings.append(Notice(f"rightmost roots: {len(roots.roots)} found of {roots.counted} counted "
+                                      "(time budget): not validated", "note"))
     if len(parts) == 2:
         report.margin = delay_margin(parts)
         report.crossings = report.margin.crossings
@@ -237,8 +243,8 @@ def pade_polynomial(quasi: QuasiPolynomial, order: int) -> fmpq_mpoly:
     parameters and the delay parameters.
 
     >>> from core.algebra.polynomial import mpoly_text
-    >>> mpoly_text(pade_polynomial(parse_quasi_polynomial("s + exp(-2*s)"), 1))
-    's^2 + 2'
+    >>> mpoly_text(pade_polynomial(parse_quasi_polynomial("s + exp(-2*s)"), 1))  # s(1 + s) + (1 - s)
+    's^2 + 1'
     """
     names = set(quasi.parameters)
     ctx = mpoly_context(names)
