@@ -465,19 +465,37 @@ class _Parser:
         """The delay inside exp(- ... ): a number or one parameter, times s, in either order."""
         first = self._advance()
         if first.kind == "name" and first.text == S:
-            if self.tok.kind == "*":
-                self._advance()
-                return self._delay_value(self._advance())
+            if self.tok.kind in ("*", "/"):
+                divide = self._advance().kind == "/"
+                tok = self._advance()
+                value = self._delay_value(tok)
+                if divide:
+                    return self._delay_ratio(Delay.of(fmpq(1)), value, tok)
+                if self.tok.kind == "/" and not value.parts:
+                    self._advance()
+                    tok = self._advance()
+                    return self._delay_ratio(value, self._delay_value(tok), tok)
+                return value
             if self.tok.kind in ("name", "num") and self.tok.text != S:
                 return self._delay_value(self._advance())
             return Delay.of(fmpq(1))
         amount = self._delay_value(first)
+        if first.kind == "num" and self.tok.kind == "/":
+            self._advance()
+            tok = self._advance()
+            amount = self._delay_ratio(amount, self._delay_value(tok), tok)
         if self.tok.kind == "*":
             self._advance()
         after = self._advance()
         if not (after.kind == "name" and after.text == S):
             self._malformed(after)
         return amount
+
+    def _delay_ratio(self, amount: Delay, divisor: Delay, tok: _Token) -> Delay:
+        """A number over a number (``3/10*s``, ``s/2``)."""
+        if amount.parts or divisor.parts or divisor.constant == 0:
+            self._malformed(tok)
+        return Delay.of(amount.constant / divisor.constant)
 
     def _delay_value(self, tok: _Token) -> Delay:
         if tok.kind == "num":
@@ -871,15 +889,15 @@ def to_mpoly(expr: sympy.Expr, ctx: fmpq_mpoly_ctx) -> fmpq_mpoly:
 def parse_quasi_polynomial(text: str, where: str | None = None,
                            declared: Collection[str] | None = None) -> QuasiPolynomial:
     """Text that must be a quasi-polynomial: a polynomial in s and parameters whose terms may carry
-    delay factors ``exp(-0.5*s)``, ``exp(-tau*s)`` or ``exp(-s*tau)`` (a non-negative number or one
-    parameter, times s, negated; products and powers of them add their delays). Anything else under
+    delay factors ``exp(-0.5*s)``, ``exp(-3/10*s)``, ``exp(-tau*s)`` or ``exp(-s*tau)`` (a non-negative
+    number, a ratio of two, or one parameter, times s, negated; products and powers add their delays). Anything else under
     exp is E441 with its column, a positive exponent E440, a delay factor in a divisor, an exponent
     or a coefficient list E444. Without exp this reads exactly what :func:`parse_polynomial` reads.
 
     >>> parse_quasi_polynomial("s^2 + 3*s + K*exp(-0.1*s)").text()
     's^2 + 3*s + K*exp(-1/10*s)'
     >>> parse_quasi_polynomial("s + exp(-L s)^2 exp(-0.5 s)").text()
-    's + exp(-(2*L + 1/2)*s)'
+    's + exp(-1/2*s)*exp(-L*s)^2'
     >>> parse_quasi_polynomial("s + exp(-s^2)")
     Traceback (most recent call last):
     ...

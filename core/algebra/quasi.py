@@ -120,7 +120,7 @@ class QuasiPolynomial:
             if delay.is_zero:
                 piece = body
             else:
-                factor = "exp(-s)" if delay == Delay.of(fmpq(1)) else f"exp(-{_delay_factor(delay)}*s)"
+                factor = _delay_factors(delay)
                 piece = factor if body == "1" else f"-{factor}" if body == "-1" else \
                     f"{body}*{factor}" if len(poly) == 1 else f"({body})*{factor}"
             if piece == "0":
@@ -134,10 +134,14 @@ class QuasiPolynomial:
                 "terms": [{"delay": d.text(), "polynomial": mpoly_text(p)} for d, p in self.terms]}
 
 
-def _delay_factor(delay: Delay) -> str:
-    """The delay as written before ``*s`` (``exp(-s)`` for a delay of one)."""
-    text = delay.text()
-    return text if len(delay.parts) + (delay.constant != 0) == 1 and "*" not in text else f"({text})"
+def _delay_factors(delay: Delay) -> str:
+    """The delay as typed factors: ``exp(-1/2*s)*exp(-L*s)^2`` (``exp(-s)`` for a delay of one)."""
+    factors = []
+    if delay.constant != 0:
+        factors.append("exp(-s)" if delay.constant == 1 else f"exp(-{delay.constant}*s)")
+    for name, k in delay.parts:
+        factors.append(f"exp(-{name}*s)" + (f"^{k}" if k != 1 else ""))
+    return "*".join(factors)
 
 
 def _into(poly: fmpq_mpoly, ctx) -> fmpq_mpoly:

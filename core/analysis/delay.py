@@ -774,23 +774,29 @@ def rightmost_roots(parts: Parts, wanted: int = 10, budget_s: float = 2.0) -> Ro
 
     deadline = time.perf_counter() + budget_s
     ev = Evaluator(parts)
-    sigma = -1.0
-    found: list[complex] = []
+    sigma, short_of = -1.0, 0.0  # short_of: a real part whose region holds too few roots
+    too_many: float | None = None  # one whose region holds more than three times the wanted number
     counted = 0
     region: tuple[float, float, float, float] | None = None
-    while time.perf_counter() < deadline:
+    for _ in range(60):
+        if time.perf_counter() > deadline:
+            break
         r = to_float(parts_bound(parts, fmpq(*sigma.as_integer_ratio()))) * (1 + 1e-9) + 1e-9
         if not math.isfinite(r) or r > 1e6:
             break
-        region = (sigma, r, -r, r)
         try:
-            counted = _count(ev, region)
+            n = _count(ev, (sigma, r, -r, r))
         except AnalysisError:
             sigma *= 1.0137
             continue
-        if counted >= wanted:
+        region, counted = (sigma, r, -r, r), n
+        if n < wanted:
+            short_of = sigma
+        elif n <= 3 * wanted or short_of - sigma < 1e-3 * abs(sigma):
             break
-        sigma *= 2
+        else:
+            too_many = sigma
+        sigma = 2 * sigma if too_many is None else (short_of + too_many) / 2
     if region is None:
         return RootSet([], None, 0, False)
     found = _isolate(ev, region, counted, deadline)
