@@ -307,3 +307,24 @@ def test_a_negative_delay_value_is_refused_by_the_analysis():
     with pytest.raises(AnalysisError) as err:
         check_quasi_polynomial("s + 1 + exp(-tau*s)", None, {"tau": -1})
     assert err.value.code == "E440"
+
+
+# -- the bench row's loop ---------------------------------------------------------------------------
+def test_bench_delay_row_loop_against_pade_and_runs_once():
+    # the exact engine on the order-8 Padé loop is the reference for the certified range
+    from bench import delay_row
+    from core.algebra.polynomial import ParametricPolynomial
+    from core.analysis.delay_report import pade_polynomial
+    from core.analysis.stable_range import stable_range
+
+    certified = delay_row.timed_range()()
+    a, b = delay_row.delay_loop()
+    text = " + ".join(f"({c})*s^{len(a[0][1]) - 1 - i}" for i, c in enumerate(a[0][1])) + " + K*(" + \
+        " + ".join(f"({c})*s^{len(b[1][1]) - 1 - i}" for i, c in enumerate(b[1][1])) + f")*exp(-{b[1][0]}*s)"
+    pade = stable_range(ParametricPolynomial.from_mpoly(pade_polynomial(parse_quasi_polynomial(text), 8), "K"))
+    ours = certified.to_dict()["intervals"]
+    theirs = pade.to_dict()["intervals"]
+    assert len(ours) == len(theirs)
+    for (lo, hi), (plo, phi) in zip(ours, theirs):
+        assert lo == pytest.approx(plo, rel=1e-9) and hi == pytest.approx(phi, rel=1e-7)
+    assert delay_row.timed_margin()().stable
