@@ -31,7 +31,15 @@ def main(argv: list[str] | None = None) -> int:
         print(f"bench: unknown row {', '.join(unknown)} (choose from {', '.join(ROWS)})", file=sys.stderr)
         return 2
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    from bench import app_row, delay_row, plane_row, pole_paths_row, reduction_row, robust_row, stable_range_row
+    from bench import (
+        app_row,
+        delay_row,
+        plane_row,
+        pole_paths_row,
+        reduction_row,
+        robust_row,
+        stable_range_row,
+    )
     from bench.table import format_table, machine
     runners = {"1": stable_range_row.run, "2": reduction_row.run, "3": pole_paths_row.run, "4": app_row.run,
                "robust": robust_row.run, "plane": plane_row.run, "delay": delay_row.run}

@@ -8,6 +8,7 @@ starts for the roots themselves.
 from __future__ import annotations
 
 import cmath
+import itertools
 import json
 import math
 
@@ -232,7 +233,7 @@ def test_stability_switches_against_root_counts():
     intervals = report.stable_range.to_dict()["intervals"]
     assert len(intervals) >= 2 and intervals[0][0] == 0.0 and intervals[-1][1] is not None
     # reference: the right-half-plane roots found by mpmath at a point inside each interval and gap
-    points = [(lo + hi) / 2 for lo, hi in intervals] + [(a[1] + b[0]) / 2 for a, b in zip(intervals, intervals[1:])]
+    points = [(lo + hi) / 2 for lo, hi in intervals] + [(a[1] + b[0]) / 2 for a, b in itertools.pairwise(intervals)]
     for tau in points:
         q = fmpq(*float(tau).as_integer_ratio())
         parts = normal_parts([(fmpq(0), [fmpq(1), fmpq(1, 10), fmpq(1)]), (q, [fmpq(1, 2)])])
@@ -248,7 +249,7 @@ def test_pade_ranges_converge_to_the_certified_range():
     errors = [abs(p.range["intervals"][0][1] - certified) for p in report.pade]
     assert errors[-1] < 1e-8 * certified
     # each order closer than the one before, until the floats of the ends cannot tell them apart
-    assert all(b < a for a, b in zip(errors, errors[1:]) if a > 1e-12 * certified)
+    assert all(b < a for a, b in itertools.pairwise(errors) if a > 1e-12 * certified)
 
 
 def test_low_pade_order_with_a_wrong_verdict_is_flagged():

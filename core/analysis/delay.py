@@ -33,6 +33,7 @@ What is exact and what is certified:
 from __future__ import annotations
 
 import cmath
+import itertools
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -45,20 +46,20 @@ from core.analysis.stable_range import real_values
 from core.errors import AnalysisError
 
 __all__ = [
+    "Candidate",
     "Crossing",
     "DelayMargin",
-    "Parts",
-    "crossings",
-    "gain_range",
-    "rightmost_roots",
-    "RootSet",
-    "delay_range",
     "DelayRange",
-    "Candidate",
+    "Parts",
+    "RootSet",
+    "crossings",
     "delay_margin",
+    "delay_range",
+    "gain_range",
     "magnitude_bound",
     "normal_parts",
     "rhp_count",
+    "rightmost_roots",
     "single_delay_loop",
 ]
 
@@ -154,13 +155,13 @@ def magnitude_bound(lead: fmpq, lower: Sequence[fmpq]) -> fmpq:
     raise AssertionError("Fujiwara's bound failed")  # pragma: no cover - it is a proven bound
 
 
-def parts_bound(parts: Parts, sigma: fmpq = fmpq(0)) -> fmpq:
+def parts_bound(parts: Parts, sigma: fmpq | None = None) -> fmpq:
     """R with no root of Q in {Re s >= sigma, |s| >= R} (sigma <= 0): there |e^(-s tau)| <=
     e^(-sigma tau), bounded above by a rational."""
     n = len(parts[0][1]) - 1
     lower = [fmpq(0)] * n
     for tau, coeffs in parts:
-        factor = fmpq(1) if sigma == 0 or tau == 0 else _upper_exp(-sigma * tau)
+        factor = fmpq(1) if sigma is None or sigma == 0 or tau == 0 else _upper_exp(-sigma * tau)
         d = len(coeffs) - 1
         for k, c in enumerate(coeffs):
             power = d - k
@@ -221,9 +222,9 @@ def winding(ev: Evaluator, corners: Sequence[complex]) -> int:
     total = 0.0
     pieces = 0
     with ctx.workprec(PREC):
-        for start, end in zip(corners, list(corners[1:]) + [corners[0]]):
+        for start, end in zip(corners, [*list(corners[1:]), corners[0]]):
             stack = [(0.0, 1.0, 0)]
-            values = {}
+            values: dict[float, acb] = {}
             while stack:
                 t0, t1, depth = stack.pop()
                 pieces += 1
@@ -374,7 +375,7 @@ def _crossings_below(c: Crossing, tau: arb) -> int:
     m_real = (tau * c.omega - c.theta) / (2 * arb.pi())
     if m_real < 0:
         return 0
-    floor_lo, floor_hi = int(math.floor(float(m_real.lower()))), int(math.floor(float(m_real.upper())))
+    floor_lo, floor_hi = math.floor(float(m_real.lower())), math.floor(float(m_real.upper()))
     if floor_lo != floor_hi or m_real.contains(floor_lo):
         raise AnalysisError("E446", f"a root lies on the imaginary axis near ω = {float(c.omega.mid()):.6g}",
                             where="delay loop")
@@ -666,9 +667,9 @@ def _crossing_candidates(a: Parts, b: Parts, limit: float, notes: list[str]) -> 
             vb = eb.value(s)
             if not _excludes_zero(vb):
                 continue
-            k = -(ea.value(s) / vb).real
-            if abs(float(k.mid())) <= limit:
-                out.append(Candidate(k, "crossing", w))
+            gain = -(ea.value(s) / vb).real
+            if abs(float(gain.mid())) <= limit:
+                out.append(Candidate(gain, "crossing", w))
     return out
 
 
@@ -676,7 +677,7 @@ def _crossing_candidates(a: Parts, b: Parts, limit: float, notes: list[str]) -> 
 MAX_SWITCH_EVENTS = 2_000
 
 
-def delay_range(p0: Sequence[fmpq], p1: Sequence[fmpq], parameter: str, scale: fmpq = fmpq(1)) -> DelayRange:
+def delay_range(p0: Sequence[fmpq], p1: Sequence[fmpq], parameter: str, scale: fmpq | None = None) -> DelayRange:
     """The stable set of tau >= 0 for P_0(s) + P_1(s) e^(-s scale tau), certified: every stability
     switch up to the value beyond which the crossings into the right half plane provably outnumber
     the ones out of it for good (the count's lower bound c0 + 2 sum_dir ... grows linearly there),
@@ -698,7 +699,7 @@ def delay_range(p0: Sequence[fmpq], p1: Sequence[fmpq], parameter: str, scale: f
     switches = []
     with ctx.workprec(PREC):
         for delay, crossing in events:
-            tau = delay / arb(scale)
+            tau = delay / arb(scale if scale is not None else fmpq(1))
             candidate = Candidate(tau, "crossing", crossing.omega)
             before = count
             count += 2 * crossing.direction
@@ -729,7 +730,7 @@ def _switch_events(found: list[Crossing], rhp0: int) -> tuple[list[tuple[arb, Cr
             offset = two_pi * (len(down) - rhp0 / 2) + sum(float(c.theta.mid()) for c in up) \
                 - sum(float(c.theta.mid()) for c in down)
             bound = max(0.0, offset / slope) * (1 + 1e-6) + 1e-9
-        events = []
+        events: list[tuple[arb, Crossing]] = []
         for c in found:
             period = two_pi / float(c.omega.mid())
             first = float(c.theta.mid()) / float(c.omega.mid())
@@ -740,7 +741,7 @@ def _switch_events(found: list[Crossing], rhp0: int) -> tuple[list[tuple[arb, Cr
         if bound == math.inf or len(events) >= MAX_SWITCH_EVENTS:
             notes.append(f"switches searched over the first {len(events)} crossing events only")
         events.sort(key=lambda e: float(e[0].mid()))
-        for (d1, _), (d2, _) in zip(events, events[1:]):
+        for (d1, _), (d2, _) in itertools.pairwise(events):
             if d1.overlaps(d2):
                 raise AnalysisError("E446", "two crossings at the same delay cannot be told apart", where="delay loop")
         return events, notes

@@ -72,7 +72,7 @@ class DelayReport:
     margin: DelayMargin | None
     crossings: list[Crossing]
     pade: list[PadeCheck]
-    rightmost: list | None = None
+    rightmost: dict | None = None
     warnings: list[str] = field(default_factory=list)
     source: str = "typed quasi-polynomial"
 
@@ -168,8 +168,7 @@ def _gain_tuned(text: str, quasi: QuasiPolynomial, parameter: str | None, values
         warnings += [Notice(n, "note") for n in rng.notes]
     report = DelayReport(text, quasi, parameter, values, rng, None, None, None, [], [], warnings=warnings)
     if parameter is None or nominal is not None:
-        parts = combine(a, b, nominal) if parameter is not None else a
-        _judge_nominal(report, parts)
+        _judge_nominal(report, a if nominal is None else combine(a, b, nominal))
     report.pade = _pade_checks(quasi, parameter, values, report.nominal_stable, rng)
     return report
 
@@ -298,8 +297,8 @@ def _pade_checks(quasi: QuasiPolynomial, parameter: str | None, values: Mapping[
         data = exact.to_dict()
         if rng is not None and rng.window[0] == 0:  # a delay: only tau >= 0 counts
             data = _clipped(data)
-        stable = None if nominal is None else exact.contains(nominal)
-        out.append(PadeCheck(order, data, stable, None if stable is None or certified is None else stable == certified))
+        verdict = None if nominal is None else exact.contains(nominal)
+        out.append(PadeCheck(order, data, verdict, None if verdict is None or certified is None else verdict == certified))
     return out
 
 
