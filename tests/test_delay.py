@@ -156,6 +156,26 @@ def test_delay_margin_against_a_dense_grid(p0, p1, tau):
     assert found == pytest.approx(sorted(crossings_ref), rel=1e-9)
 
 
+def test_delay_margin_with_two_delays_against_a_dense_grid():
+    # Q = s^2 + 2s + 2 + e^(-s/2) + (7/5) s e^(-3s/2), extra delay on both delayed terms; reference as
+    # above: |B(jω)/P0(jω)| = 1 bracketed on a numpy grid, brentq, phase margin / crossover
+    parts = normal_parts([(fmpq(0), [fmpq(1), fmpq(2), fmpq(2)]), (fmpq(1, 2), [fmpq(1)]),
+                          (fmpq(3, 2), [fmpq(7, 5), fmpq(0)])])
+
+    def ratio(w):
+        b = np.exp(-0.5j * w) + 1.4j * w * np.exp(-1.5j * w)
+        return b / ((1j * w) ** 2 + 2j * w + 2)
+    grid = np.linspace(1e-6, 50, 200_001)
+    gain = np.abs(ratio(grid)) - 1
+    ref = [brentq(lambda w: abs(ratio(w)) - 1, grid[i], grid[i + 1], xtol=1e-15)
+           for i in np.nonzero(np.sign(gain[:-1]) != np.sign(gain[1:]))[0]]
+    margins = [((cmath.phase(ratio(w)) + math.pi) % (2 * math.pi)) / w for w in ref]
+    margin = delay_margin(parts)
+    assert margin.stable and len(ref) == len(margin.crossings) == 2
+    assert sorted(float(c.omega.mid()) for c in margin.crossings) == pytest.approx(sorted(ref), rel=1e-9)
+    assert float(margin.value.mid()) == pytest.approx(min(margins), rel=1e-9)
+
+
 # -- root counts and rightmost roots against mpmath ------------------------------------------------
 def _mpmath_roots(parts, box, starts=18):
     """Distinct roots found by mpmath.findroot from a grid of starts in ``box`` (x0, x1, y0, y1)."""

@@ -22,6 +22,13 @@ What is exact and what is certified:
   interval bisection with a derivative (monotonicity) test and a sign change, so none is missed;
   every interval between candidates is decided by a certified count at a rational point inside it.
   Certified on the window |K| <= M (reported); M grows until the outermost intervals are unstable.
+* The delay margin (the largest extra delay added to every delayed part): the least theta / ω over
+  the frequencies where |P_0(jω)| = |B(jω)|, B the delayed parts together; exact roots of W for one
+  delayed part, certified interval bisection on (0, R] for several.
+* The delay as tuning parameter (one delayed part): every crossing event tau_m in increasing order,
+  up to the value past which the destabilising crossings provably outnumber the others for good.
+* Rightmost roots: the argument principle on rectangles (each holding one root) plus Newton's
+  method, validated when as many roots are found as the region's certified count.
 * Endpoints, crossing frequencies and delay margins are balls of relative width at most 1e-9
   (frequencies are refined to 1e-13 relative first).
 
@@ -299,10 +306,11 @@ def magnitude_difference(p0: Sequence[fmpq], p1: Sequence[fmpq]) -> fmpq_poly:
 
 def crossings(p0: Sequence[fmpq], delayed: Parts) -> list[Crossing]:
     """Every crossing of P_0(s) + e^(-s delta) B(s), delta >= 0 the extra delay, B = sum of the
-    delayed parts at their delays. One delayed part: from the exact roots of W; several: E445."""
+    delayed parts at their delays. One delayed part: from the exact roots of W; several: the zeros
+    of |P_0(jω)|^2 - |B(jω)|^2 on (0, R] by certified interval bisection (:func:`real_zeros`), R the
+    magnitude bound beyond which |P_0(jω)| exceeds the sum of the delayed parts' magnitudes."""
     if len(delayed) != 1:
-        raise AnalysisError("E445", "crossings and delay margins are computed for loops with one delay",
-                            where="delay loop")
+        return _interval_crossings(p0, delayed)
     tau, p1 = delayed[0]
     w = magnitude_difference(p0, p1)
     if w.is_zero():
@@ -320,10 +328,36 @@ def crossings(p0: Sequence[fmpq], delayed: Parts) -> list[Crossing]:
     return out
 
 
+def _interval_crossings(p0: Sequence[fmpq], delayed: Parts) -> list[Crossing]:
+    ev0, evb = Evaluator([(fmpq(0), list(p0))]), Evaluator(delayed)
+    at_zero = sum((c[-1] for _, c in delayed if c), fmpq(0))
+    if p0 and p0[-1] ** 2 == at_zero ** 2:
+        raise AnalysisError("E446", "|P_0| = |B| at zero frequency: crossings of a loop with several delays "
+                            "are not searched then", where="delay loop")
+    r = to_float(parts_bound(normal_parts([(fmpq(0), list(p0)), *delayed]))) * (1 + 1e-9) + 1e-9
+
+    def f(w: arb) -> arb:
+        s = acb(0, w)
+        v0, vb = ev0.value(s), evb.value(s)
+        return v0.real ** 2 + v0.imag ** 2 - vb.real ** 2 - vb.imag ** 2
+
+    def df(w: arb) -> arb:
+        s = acb(0, w)
+        j = acb(0, 1)
+        return 2 * ((ev0.value(s).conjugate() * j * ev0.derivative(s)).real
+                    - (evb.value(s).conjugate() * j * evb.derivative(s)).real)
+    return [_crossing_at(w, ev0, evb) for w in real_zeros(f, df, 0.0, r)]
+
+
 def _crossing(b, ev0: Evaluator, ev1: Evaluator) -> Crossing:
     with ctx.workprec(PREC):
         x = b.narrowed(abs(b.lo) * fmpq(1, 10 ** 14) if b.lo != 0 else fmpq(1, 10 ** 30)).ball
-        omega = x.sqrt()
+        return _crossing_at(x.sqrt(), ev0, ev1)
+
+
+def _crossing_at(omega: arb, ev0: Evaluator, ev1: Evaluator) -> Crossing:
+    """The crossing at the frequency ball ``omega``: theta = pi - arg(P_0/B) and the direction."""
+    with ctx.workprec(PREC):
         s = acb(0, omega)
         v0, v1 = ev0.value(s), ev1.value(s)
         theta = arb.pi() - (v0 / v1).arg()

@@ -222,11 +222,15 @@ def _judge_nominal(report: DelayReport, parts: Parts) -> None:
     if not roots.validated:
         report.warnings.append(Notice(f"rightmost roots: {len(roots.roots)} found of {roots.counted} counted "
                                       "(time budget): not validated", "note"))
-    if len(parts) == 2:
-        report.margin = delay_margin(parts)
-        report.crossings = report.margin.crossings
-    elif len(parts) > 2:
-        report.warnings.append(Notice("delay margin and crossings are computed for loops with one delay", "note"))
+    if len(parts) >= 2:
+        try:
+            report.margin = delay_margin(parts)
+        except AnalysisError as err:
+            if err.code != "E446":
+                raise
+            report.warnings.append(Notice(f"delay margin not computed: {err.message}", "note"))
+        else:
+            report.crossings = report.margin.crossings
 
 
 # -- Padé cross-checks ----------------------------------------------------------------------------
