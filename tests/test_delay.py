@@ -349,3 +349,10 @@ def test_bench_delay_row_loop_against_pade_and_runs_once():
     for (lo, hi), (plo, phi) in zip(ours, theirs):
         assert lo == pytest.approx(plo, rel=1e-9) and hi == pytest.approx(phi, rel=1e-7)
     assert delay_row.timed_margin()().stable
+
+
+@pytest.mark.parametrize("value", [float("inf"), float("nan")])
+def test_a_non_finite_delay_value_is_refused(value):
+    with pytest.raises(AnalysisError) as err:
+        check_quasi_polynomial("s + 1 + exp(-tau*s)", None, {"tau": value})
+    assert err.value.code == "E440"

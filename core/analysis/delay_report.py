@@ -103,9 +103,9 @@ def check_quasi_polynomial(text: str, parameter: str | None = None,
     """Analyse a typed quasi-polynomial (see the module notes). E443 for a delay parameter without a
     value, E404 for another parameter without one, E405 for a name that is not in the text, E440 for
     a negative delay value, E445 for a tuning parameter the delay analysis does not take."""
-    values = {name: _exact(name, v) for name, v in (at or {}).items()}
-    declared = set(values) | ({parameter} if parameter else set())
+    declared = set(at or ()) | ({parameter} if parameter else set())
     quasi = parse_quasi_polynomial(text, where="polynomial", declared=declared)
+    values = {name: _exact(name, v, name in quasi.delay_parameters) for name, v in (at or {}).items()}
     names = set(quasi.parameters)
     unknown = sorted((set(values) | ({parameter} if parameter else set())) - names)
     if unknown:
@@ -123,13 +123,15 @@ def check_quasi_polynomial(text: str, parameter: str | None = None,
     return _gain_tuned(text, quasi, parameter, values)
 
 
-def _exact(name: str, value) -> fmpq:
+def _exact(name: str, value, is_delay: bool) -> fmpq:
+    """A value, exact; E440 for a delay (E404 for another parameter) that is not a finite number."""
     try:
         if isinstance(value, float) and not math.isfinite(value):
             raise ValueError
         return to_fmpq(value)
     except (TypeError, ValueError, ZeroDivisionError):
-        raise AnalysisError("E404", f"value {value!r} of parameter '{name}' is not a finite number",
+        code, what = ("E440", "delay") if is_delay else ("E404", "parameter")
+        raise AnalysisError(code, f"value {value!r} of {what} '{name}' is not a finite number",
                             where=f"parameter {name}") from None
 
 
