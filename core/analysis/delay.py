@@ -801,7 +801,7 @@ class RootSet:
 ROOT_SPLIT = 0.4637  # rectangles are cut off-centre: a cut through the middle would meet real roots
 
 
-def rightmost_roots(parts: Parts, wanted: int = 10, budget_s: float = 2.0) -> RootSet:
+def rightmost_roots(parts: Parts, wanted: int = 10, budget_s: float = 1.0) -> RootSet:
     """At least ``wanted`` rightmost roots (fewer when the time budget runs out: then not
     validated): the region Re s >= sigma, |s| < R(sigma) is widened leftwards until it holds
     ``wanted`` roots by the argument principle, then cut into rectangles with one root each."""
@@ -834,7 +834,10 @@ def rightmost_roots(parts: Parts, wanted: int = 10, budget_s: float = 2.0) -> Ro
         sigma = 2 * sigma if too_many is None else (short_of + too_many) / 2
     if region is None:
         return RootSet([], None, 0, False)
-    found = _isolate(ev, region, counted, deadline)
+    found = _newton_sweep(ev, region, counted, deadline)
+    if len(found) != counted:
+        subdivided = _isolate(ev, region, counted, deadline)
+        found = subdivided if len(subdivided) > len(found) else found
     found.sort(key=lambda z: (-z.real, -z.imag))
     return RootSet(found, region[0], counted, len(found) == counted)
 
@@ -842,6 +845,38 @@ def rightmost_roots(parts: Parts, wanted: int = 10, budget_s: float = 2.0) -> Ro
 def _count(ev: Evaluator, rect: tuple[float, float, float, float]) -> int:
     x0, x1, y0, y1 = rect
     return winding(ev, [complex(x0, y0), complex(x1, y0), complex(x1, y1), complex(x0, y1)])
+
+
+def _newton_sweep(ev: Evaluator, rect: tuple[float, float, float, float], counted: int,
+                  deadline: float) -> list[complex]:
+    """Newton's method from a grid of starts; each distinct root kept only when a small square
+    around it (disjoint from the others') holds exactly one root by the argument principle. When
+    as many are kept as the region holds, none is missing; otherwise the caller subdivides."""
+    import time
+
+    x0, x1, y0, y1 = rect
+    roots: list[complex] = []
+    for columns, rows in ((12, 24), (24, 96)):  # a finer grid when the coarse one misses some
+        for i in range(columns):
+            for j in range(rows):
+                if time.perf_counter() > deadline or len(roots) >= counted:
+                    break
+                z = _newton(ev, complex(x0 + (i + 0.5) * (x1 - x0) / columns, y0 + (j + 0.5) * (y1 - y0) / rows))
+                if z is None or not (x0 < z.real < x1 and y0 < z.imag < y1):
+                    continue
+                if any(abs(z - w) <= 1e-9 * max(1.0, abs(z)) for w in roots):
+                    continue
+                roots.append(z)
+    kept = []
+    for z in roots:
+        gap = min((abs(z - w) for w in roots if w is not z), default=1.0)
+        half = min(1e-6 * max(1.0, abs(z)), gap / 3, z.real - x0, x1 - z.real, z.imag - y0, y1 - z.imag)
+        try:
+            if _count(ev, (z.real - half, z.real + half, z.imag - half * 0.9137, z.imag + half * 1.0731)) == 1:
+                kept.append(z)
+        except AnalysisError:
+            continue
+    return kept
 
 
 def _isolate(ev: Evaluator, rect: tuple[float, float, float, float], inside: int, deadline: float) -> list[complex]:
