@@ -33,7 +33,7 @@ import math
 from dataclasses import dataclass, field
 from itertools import pairwise
 
-from flint import arb, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
+from flint import arb, ctx, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
 
 from core.algebra.polynomial import ParametricPolynomial, poly_text, to_float, to_fmpq
 from core.analysis.poles import certified_roots
@@ -90,9 +90,39 @@ class Boundary:
 
     @property
     def approx(self) -> str:
-        """Twelve significant digits, also beyond the float range (``-1.25000000000e+601``)."""
+        """Twelve significant digits, also beyond the float range (``-1.25e+601``); see ``approx_text``."""
+        return self.approx_text(12)
+
+    def approx_text(self, digits: int) -> str:
+        """The value in ``digits`` significant figures, with more where fewer would look exact but
+        are not (3 + 1e-20 reads ``3.00000000000000000001``, never ``3``), up to 48.
+
+        >>> Boundary.of_rational(fmpz_poly([0, 1]), fmpq(3) + fmpq(1, 10 ** 20)).approx_text(6)
+        '3.00000000000000000001'
+        >>> Boundary.of_rational(fmpz_poly([0, 1]), fmpq(1, 3)).approx_text(6)
+        '0.333333'
+        """
+        text = self._digits_text(digits)
+        while digits < 48 and _falsely_exact(text, digits, self.rational):
+            digits *= 2
+            text = self._digits_text(digits)
+        return text
+
+    def _digits_text(self, digits: int) -> str:
         v = self.value
-        return f"{v:.12g}" if math.isfinite(v) else self.ball.str(12, radius=False)
+        narrow = self.rational is not None or self.hi - self.lo <= abs(to_fmpq(v)) / fmpq(10) ** (digits + 2)
+        if digits <= 15 and math.isfinite(v) and v != 0 and narrow:
+            return f"{v:.{digits}g}"
+        with ctx.workprec(4 * digits + 64):
+            if self.rational is not None:
+                ball = arb(self.rational)
+            else:
+                scale = abs(self.lo) if self.lo != 0 else abs(self.hi)
+                b = self.narrowed(scale / fmpq(10) ** (digits + 3))
+                ball = arb((b.lo + b.hi) / 2, (b.hi - b.lo) / 2)
+            head, _, power = ball.str(digits, radius=False).partition("e")
+        head = head.rstrip("0").rstrip(".") if "." in head else head
+        return f"{head}e{int(power):+d}" if power else head
 
     def sign_minus(self, v: fmpq) -> int:
         """Exact sign of (value - v) for a rational v (never 0 for an irrational value)."""
@@ -124,7 +154,16 @@ class Boundary:
         if self.rational is not None:
             return str(self.rational)
         poly = poly_text([fmpq(self.factor[i]) for i in range(self.factor.degree(), -1, -1)], name)
-        return f"root of {poly} near {self.value:.{DIGITS}g}"
+        return f"root of {poly} near {self.approx_text(DIGITS)}"
+
+
+def _falsely_exact(text: str, digits: int, rational: fmpq | None) -> bool:
+    """True when ``text`` shows fewer than ``digits`` figures, as an exact decimal would, yet
+    differs from the value (always so for an irrational one)."""
+    mantissa = text.lstrip("-").partition("e")[0].replace(".", "").lstrip("0")
+    if len(mantissa) >= digits:
+        return False
+    return rational is None or to_fmpq(text) != rational
 
 
 def _sign_at(f: fmpz_poly, v: fmpq) -> int:
