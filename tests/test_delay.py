@@ -356,3 +356,26 @@ def test_a_non_finite_delay_value_is_refused(value):
     with pytest.raises(AnalysisError) as err:
         check_quasi_polynomial("s + 1 + exp(-tau*s)", None, {"tau": value})
     assert err.value.code == "E440"
+
+
+@pytest.mark.parametrize("text", ["s^2 + K*s + exp(-s)", "s*(s+1) + K*(s+0.5)*exp(-0.2*s)",
+                                  "s^3 + 2*s^2 + 2*s + K*exp(-0.1*s) + 0.5*exp(-0.3*s)"])
+def test_gain_anywhere_below_the_top_degree_against_pade_order_8(text):
+    # reference: the exact engine on the order-8 Padé loop (its ends agree to about 1e-9 at these
+    # small products of frequency and delay)
+    report = check_quasi_polynomial(text, "K", {"K": 1})
+    ours = report.stable_range.to_dict()["intervals"]
+    pade = report.pade[-1].range["intervals"]
+    assert len(ours) == len(pade)
+    for pair, ref in zip(ours, pade):
+        for end, ref_end in zip(pair, ref):
+            assert (end is None) == (ref_end is None)
+            if end is not None:
+                assert end == pytest.approx(ref_end, rel=1e-7, abs=1e-12)
+
+
+def test_text_closes_the_interval_only_at_a_zero_delay(capsys):
+    main(["--poly", "s*(s+1) + K*(s+0.5)*exp(-0.2*s)", "--param", "K"])
+    assert "Stable range of K (certified): (0, " in capsys.readouterr().out
+    main(["--poly", "s + 1 + 2*exp(-tau*s)", "--param", "tau"])
+    assert "Stable range of tau (certified): [0, " in capsys.readouterr().out

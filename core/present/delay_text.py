@@ -17,8 +17,9 @@ KIND_WORDS = {"origin": "a real root through s = 0", "crossing": "a pair on the 
               "zero_delay": "no delay"}
 
 
-def _interval(lo, hi) -> str:
-    left = "[" if lo == "0" and hi is not None else "("
+def _interval(lo, hi, closed_at_zero: bool = False) -> str:
+    """``(a, b)``; ``[0, b)`` when the lower end is a delay of zero (a delay below it does not exist)."""
+    left = "[" if closed_at_zero else "("
     return f"{left}{'-inf' if lo is None else lo}, {'inf' if hi is None else hi})"
 
 
@@ -29,7 +30,8 @@ def delay_report_text(report: DelayReport) -> str:
     out = [f"Quasi-polynomial: {report.quasi.text()}"]
     rng = d["stable_range"]
     if rng is not None:
-        shown = ", ".join(_interval(lo, hi) for lo, hi in rng["approx_intervals"]) or "none"
+        closed = [lo is not None and lo.kind == "zero_delay" for lo, _ in report.stable_range.intervals]
+        shown = ", ".join(_interval(lo, hi, c) for (lo, hi), c in zip(rng["approx_intervals"], closed)) or "none"
         out.append(f"Stable range of {report.parameter} (certified): {shown}")
         for end in rng["endpoints"]:
             where = f" at ω = {end['omega']:.6g} rad/s" if end["omega"] is not None else ""
@@ -54,7 +56,8 @@ def delay_report_text(report: DelayReport) -> str:
         out.append("Padé cross-check (rational loops, exact):")
         for p in d["pade_check"]:
             shown = "" if p["approx_intervals"] is None else \
-                " " + (", ".join(_interval(lo, hi) for lo, hi in p["approx_intervals"]) or "none")
+                " " + (", ".join(_interval(lo, hi, report.stable_range is not None and report.stable_range.window[0] == 0
+                                           and lo == "0") for lo, hi in p["approx_intervals"]) or "none")
             flag = "" if p["agrees"] is not False else "  <- WRONG verdict at the nominal value"
             out.append(f"  order {p['order']}:{shown}{flag}")
     if d["rightmost_roots"]:
