@@ -29,7 +29,7 @@ def delay_report_text(report: DelayReport) -> str:
     d = report.to_dict()
     out = [f"Quasi-polynomial: {report.quasi.text()}"]
     rng = d["stable_range"]
-    if rng is not None:
+    if rng is not None and report.stable_range is not None:
         closed = [lo is not None and lo.kind == "zero_delay" for lo, _ in report.stable_range.intervals]
         shown = ", ".join(_interval(lo, hi, c) for (lo, hi), c in zip(rng["approx_intervals"], closed)) or "none"
         out.append(f"Stable range of {report.parameter} (certified): {shown}")
