@@ -64,6 +64,13 @@ CATALOGUE: dict[str, str] = {
     "E430": "stability plane: the same parameter on both axes",
     "E431": "stability plane: an axis range is empty or inverted",
     "E432": "stability plane: an axis is not a parameter",
+    "E440": "delay negative or not finite",
+    "E441": "delay factor malformed",
+    "E442": "loop of neutral or advanced type (a delayed term of full degree)",
+    "E443": "delay parameter has no value",
+    "E444": "delay factor where only a polynomial can stand",
+    "E445": "delay loop: analysis not available as asked",
+    "E446": "delay loop: certified search unresolved (a root on or too near the imaginary axis)",
     # command line
     "E501": "command-line arguments invalid",
 }
