@@ -258,7 +258,7 @@ def _has_delay(text: str) -> bool:
 def _run_delay(args, at) -> int:
     """A quasi-polynomial: the certified delay analysis (core.analysis.delay_report)."""
     from core.analysis.delay_report import check_quasi_polynomial
-    from core.present.delay_text import delay_report_text
+    from core.present.delay_text import delay_headline, delay_report_text
     from core.present.report_json import json_text
 
     for name in DELAY_OPTIONS_REFUSED:
@@ -266,7 +266,8 @@ def _run_delay(args, at) -> int:
             option = "--" + name.replace("_", "-")
             raise UsageError("E445", f"{option} is not available for a loop with dead time", where=option)
     report = check_quasi_polynomial(args.poly, parameter=args.param, at=at)
-    _emit(json_text(report.to_dict()) if args.json else delay_report_text(report))
+    _emit(json_text({**report.to_dict(), "headline": delay_headline(report)}) if args.json
+          else delay_report_text(report))
     return 1 if args.fail_unstable and not _delay_stable_enough(report) else 0
 
 

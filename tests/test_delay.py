@@ -379,3 +379,21 @@ def test_text_closes_the_interval_only_at_a_zero_delay(capsys):
     assert "Stable range of K (certified): (0, " in capsys.readouterr().out
     main(["--poly", "s + 1 + 2*exp(-tau*s)", "--param", "tau"])
     assert "Stable range of tau (certified): [0, " in capsys.readouterr().out
+
+
+def test_the_headline_states_the_certified_verdict_and_the_delay_margin():
+    """s + 1 + K e^(-s) at K = 2: the pair crosses at omega = sqrt(K^2 - 1) = sqrt 3 when the
+    extra delay reaches (pi - atan sqrt 3)/sqrt 3 - 1 (phase condition, derived by hand)."""
+    import json
+    import math
+
+    from core.cli import main as cli_main
+    expected = (math.pi - math.atan(math.sqrt(3))) / math.sqrt(3) - 1
+    import contextlib
+    import io
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        assert cli_main(["check", "--poly", "s + 1 + K*exp(-s)", "--param", "K", "--at", "K=2", "--json"]) == 0
+    data = json.loads(out.getvalue())
+    assert data["headline"].startswith("STABLE at K = 2 (certified); delay margin ")
+    assert float(data["headline"].split("margin ")[1].split()[0]) == pytest.approx(expected, rel=1e-9)

@@ -2,7 +2,7 @@
 
 >>> from core.analysis.delay_report import check_quasi_polynomial
 >>> text = delay_report_text(check_quasi_polynomial("s + 1 + K*exp(-s)", "K", {"K": 1}))
->>> print("\\n".join(text.splitlines()[:4]))
+>>> print("\\n".join(text.splitlines()[1:5]))
 Quasi-polynomial: s + 1 + K*exp(-s)
 Stable range of K (certified): (-1, 2.26182633411)
   -1: a real root through s = 0
@@ -23,11 +23,42 @@ def _interval(lo, hi, closed_at_zero: bool = False) -> str:
     return f"{left}{'-inf' if lo is None else lo}, {'inf' if hi is None else hi})"
 
 
-def delay_report_text(report: DelayReport) -> str:
-    """The quasi-polynomial, the certified stable range with each end's cause, the nominal
-    verdict, the delay margin, the Padé cross-checks and the caution."""
+def delay_headline(report: DelayReport) -> str:
+    """One line a hurried reader can act on: the verdict at the given values, certified, with the
+    delay margin; or the stable range when no value of the tuning parameter was given.
+
+    >>> from core.analysis.delay_report import check_quasi_polynomial
+    >>> delay_headline(check_quasi_polynomial("s + 1 + K*exp(-s)", "K", {"K": "1/2"}))  # |K| < 1
+    'STABLE at K = 1/2 (certified); delay margin unbounded'
+    >>> delay_headline(check_quasi_polynomial("s + 1 + K*exp(-s)", "K", {"K": "2"}))  # 2pi/(3 sqrt 3) - 1
+    'STABLE at K = 2 (certified); delay margin 0.209199576156 s'
+    """
     d = report.to_dict()
-    out = [f"Quasi-polynomial: {report.quasi.text()}"]
+    rng = d["stable_range"]
+    ranged = ""
+    if rng is not None and report.stable_range is not None:
+        closed = [lo is not None and lo.kind == "zero_delay" for lo, _ in report.stable_range.intervals]
+        ranged = ", ".join(_interval(lo, hi, c) for (lo, hi), c in zip(rng["approx_intervals"], closed)) or "no value"
+    if d["nominal"] is None:
+        return f"No nominal value of {report.parameter}: stable for {report.parameter} in {ranged} (certified)" \
+            if ranged else "No verdict: give every parameter a value"
+    values = ", ".join(f"{k} = {v}" for k, v in d["nominal"]["exact_values"].items()) or "the given values"
+    if not d["nominal"]["stable"]:
+        rhp = d["nominal"]["rhp"]
+        count = "" if rhp is None else f": {rhp} root{'s' if rhp != 1 else ''} in the right half plane"
+        return f"NOT STABLE at {values} (certified){count}"
+    margin = d["delay_margin"]
+    if margin is None or not margin["stable"]:
+        return f"STABLE at {values} (certified)"
+    extra = "unbounded" if margin["unbounded"] else f"{margin['approx']} s"
+    return f"STABLE at {values} (certified); delay margin {extra}"
+
+
+def delay_report_text(report: DelayReport) -> str:
+    """The headline, the quasi-polynomial, the certified stable range with each end's cause, the
+    nominal verdict, the delay margin, the Padé cross-checks and the caution."""
+    d = report.to_dict()
+    out = [f"Verdict: {delay_headline(report)}", f"Quasi-polynomial: {report.quasi.text()}"]
     rng = d["stable_range"]
     if rng is not None and report.stable_range is not None:
         closed = [lo is not None and lo.kind == "zero_delay" for lo, _ in report.stable_range.intervals]
