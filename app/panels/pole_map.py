@@ -195,8 +195,8 @@ class PoleMap(QWidget):
             plot.addItem(it)
         self._apply_theme()
         item.getViewBox().sigXRangeChanged.connect(self._cover_right_half_plane)
-        item.getViewBox().sigRangeChanged.connect(lambda *_: self._draw_arrows())
-        item.getViewBox().sigResized.connect(lambda *_: self._draw_arrows())  # arrows are in screen angles
+        item.getViewBox().sigRangeChanged.connect(self._view_changed)
+        item.getViewBox().sigResized.connect(self._view_changed)  # arrows are drawn in screen angles
 
     def _apply_theme(self) -> None:
         """Colour every plot item from the current (light or dark) palette."""
@@ -311,6 +311,9 @@ class PoleMap(QWidget):
             label.setPos(0.0, e.omega)
             self.plot.addItem(label, ignoreBounds=True)
             self.crossing_labels.append(label)
+
+    def _view_changed(self, *_args) -> None:
+        self._draw_arrows()
 
     def _draw_arrows(self) -> None:
         """Small arrows along the paths in view, pointing the way the tuning parameter increases."""
