@@ -20,6 +20,7 @@ through one undoable command. The controller itself never edits the model.
 from __future__ import annotations
 
 import ctypes
+import functools
 import itertools
 import math
 import multiprocessing
@@ -33,6 +34,7 @@ from collections.abc import Callable
 import shiboken6
 from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject, QTimer, Signal
 
+from core.algebra.expression import s_degree_bound
 from core.algebra.pickling import register as register_pickling
 from core.analysis.pipeline import AnalysisResult, analyse_snapshot
 from core.io.project_file import project_to_dict
@@ -88,6 +90,25 @@ class _Job:
 
 
 ANALYSIS_IN_PROCESS = True  # analyses run in a worker process once one is ready (see _ProcessJob)
+THREAD_BELOW_S = 0.15  # after an analysis this quick, the next runs on a thread (a process adds ~70 ms)...
+HEAVY_ORDER = 24  # ...unless the blocks' orders add up to this many: then always in a process
+
+
+def loop_order_bound(diagram: Diagram) -> int:
+    """The blocks' orders in s added up, read from their texts without expanding them (a bound on
+    the loop's order: what decides whether an analysis can be long).
+
+    >>> from core.model.diagram import Node
+    >>> d = Diagram(); _ = d.add_node(Node("G", "block", num="K", den="(s+1)^30*(s+2)"))
+    >>> loop_order_bound(d)
+    31
+    """
+    return sum(max(_text_order(n.num), _text_order(n.den)) for n in diagram.nodes.values() if n.kind == "block")
+
+
+@functools.lru_cache(maxsize=4096)
+def _text_order(text: str) -> int:
+    return s_degree_bound(text)
 PRELOAD = ["core.algebra.pickling", "core.analysis.pipeline", "core.analysis.robust", "core.analysis.plane",
            "core.graph.reduction", "core.io.project_file", "scipy.linalg", "app.panels", "app.controller",
            "app.process_warmup"]
@@ -262,6 +283,10 @@ class AnalysisController(QObject):
         self._diagram = diagram
         self._generation = 0
         self._job: _Job | _ProcessJob | None = None
+        self._started = time.perf_counter()
+        self._last_seconds: float | None = None  # how long the last delivered analysis took
+        self._panels: list[weakref.WeakMethod] = []
+        self._unshown: list[weakref.WeakMethod] = []
         self._shown_generation = 0
         self._busy = False
         self._result: AnalysisResult | None = None
@@ -358,11 +383,14 @@ class AnalysisController(QObject):
             self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
             return
         processes = _processes() if ANALYSIS_IN_PROCESS else None
-        if processes is not None and processes.ready:
+        light = (self._last_seconds is not None and self._last_seconds < THREAD_BELOW_S
+                 and loop_order_bound(self._diagram) < HEAVY_ORDER)
+        if processes is not None and processes.ready and not light:
             self._job = _ProcessJob(self._token, project, generation, self._prepare, processes.context)
         else:
             self._job = _Job(self._token, project, generation, self._prepare)
         self._job.start()
+        self._started = time.perf_counter()
 
     def _on_finished(self, result: AnalysisResult) -> None:
         if self._job is not None and self._job.generation == result.generation:
@@ -370,8 +398,29 @@ class AnalysisController(QObject):
         if self._disposed or result.generation != self._generation:
             return  # stale: the newest generation is on the timer or already running
         self._result = result
+        self._last_seconds = time.perf_counter() - self._started
         self._shown_generation = result.generation
         self._adopt_tuning(result)
+        self._unshown = list(self._panels)
+        self._show_next(result)
+
+    def add_panel(self, show: Callable[[AnalysisResult], None]) -> None:
+        """Call ``show(result)`` (a widget's bound method) with every new result, one panel per
+        event-loop pass, before ``resultReady``: a large result's display never holds the GUI
+        thread for all panels at once. ``busy`` lasts until the last panel has shown it."""
+        self._panels.append(weakref.WeakMethod(show))
+
+    def _show_next(self, result: AnalysisResult) -> None:
+        if self._disposed or self._result is not result:
+            return  # a newer result took over
+        while self._unshown:
+            show = self._unshown.pop(0)()
+            if show is None or not shiboken6.isValid(show.__self__):
+                continue
+            show(result)
+            if self._unshown:
+                QTimer.singleShot(0, self, lambda: self._show_next(result))
+                return
         self.resultReady.emit(result)
         self.staleChanged.emit(False)
         if not self._timer.isActive():

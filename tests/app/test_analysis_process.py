@@ -42,11 +42,38 @@ def test_a_result_crosses_processes_unchanged(path):
 
 
 def _process_controller(qtbot, diagram):
+    """A controller whose every analysis runs in a worker process (none counts as light here)."""
     assert controller_module.wait_for_processes(), "worker processes cannot be made here"
+    controller_module.THREAD_BELOW_S = 0.0
     signals = ModelSignals(diagram)
     controller = controller_module.AnalysisController(diagram, signals, prepare=prepare_for_panels)
     assert controller.wait_for_idle(30_000)
     return controller, signals
+
+
+@pytest.fixture(autouse=True)
+def keep_thread_threshold():
+    saved = controller_module.THREAD_BELOW_S
+    yield
+    controller_module.THREAD_BELOW_S = saved
+
+
+def test_a_quick_light_loop_stays_on_a_thread_and_a_heavy_edit_goes_to_a_process(qtbot):
+    diagram = unity_loop(nominal=2.0)
+    assert controller_module.wait_for_processes()
+    signals = ModelSignals(diagram)
+    controller = controller_module.AnalysisController(diagram, signals, prepare=prepare_for_panels)
+    assert controller.wait_for_idle(30_000)
+    diagram.set_parameter(Parameter("K", 5.0, 0.0, 10.0))
+    controller.analyse_now()
+    assert isinstance(controller._job, controller_module._Job)  # the last analysis was quick
+    assert controller.wait_for_idle(30_000)
+    diagram.update_node("G", den="(s+1)^30*(s+2)")  # order 31: this one may be long
+    controller.analyse_now()
+    assert isinstance(controller._job, controller_module._ProcessJob)
+    assert controller.wait_for_idle(60_000) and controller.result.ok
+    controller.dispose()
+    signals.detach()
 
 
 def test_the_window_analyses_in_a_worker_process(qtbot):
