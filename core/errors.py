@@ -64,6 +64,15 @@ CATALOGUE: dict[str, str] = {
     "E430": "stability plane: the same parameter on both axes",
     "E431": "stability plane: an axis range is empty or inverted",
     "E432": "stability plane: an axis is not a parameter",
+    "E450": "sample period not a finite number > 0",
+    "E451": "polynomial variable not s or z",
+    "E452": "a polynomial in z contains s",
+    "E453": "plant has no zero-order-hold equivalent (improper or zero denominator)",
+    "E454": "delay not a whole number of samples in range",
+    "E455": "discrete controller invalid (not causal, zero denominator, or a constant loop)",
+    "E456": "decay requirement in z without a sample period",
+    "E457": "option not available for a polynomial in z",
+    "E458": "z in a denominator of a polynomial in z",
     # command line
     "E501": "command-line arguments invalid",
 }

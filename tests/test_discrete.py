@@ -148,3 +148,137 @@ def test_radius_requirement_is_a_scaled_circle():
     assert ok is True and meets_radius(poly, 5, fmpq(1, 10), fmpq(61, 100)) is False  # e^-0.5 = 0.6065...
     low, high = radius_bounds(5, fmpq(1, 10))
     assert low < to_fmpq(math.exp(-0.5)) * (1 + fmpq(1, 10 ** 14)) and high > low
+
+
+# -- zero-order hold and sampled loops ------------------------------------------------------------------
+from core.analysis.zoh import (  # noqa: E402
+    SampledLoop,
+    fixed_controller,
+    gain_range_curve,
+    largest_stable_period,
+    sampled_stable_range,
+    zoh_equivalent,
+)
+from core.errors import AnalysisError  # noqa: E402
+
+
+def _align(a, b) -> tuple[np.ndarray, np.ndarray]:
+    size = max(len(a), len(b))
+    return np.pad(np.asarray(a, float), (size - len(a), 0)), np.pad(np.asarray(b, float), (size - len(b), 0))
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_zoh_equivalent_matches_scipy_cont2discrete(seed):
+    from scipy.signal import cont2discrete
+    rng = np.random.default_rng(seed)
+    for _ in range(12):
+        n = int(rng.integers(1, 6))
+        poles = -rng.uniform(0.1, 5, n) * rng.choice([1, -1], n, p=[0.8, 0.2])  # some unstable poles too
+        den = [round(float(x), 4) for x in np.poly(poles)]
+        num = [round(float(x), 4) for x in rng.uniform(-2, 2, int(rng.integers(1, n + 2)))]
+        ts = round(float(rng.uniform(0.01, 1)), 3)
+        ref_num, ref_den, _ = cont2discrete((num, den), ts, method="zoh")  # the outside reference
+        hold = zoh_equivalent(num, den, ts)
+        mine_num, ref = _align([float(c) for c in hold.num], np.atleast_1d(np.squeeze(ref_num)))
+        assert np.allclose(mine_num, ref, atol=1e-10, rtol=1e-10)
+        assert np.allclose([float(c) for c in hold.den], ref_den, atol=1e-10, rtol=1e-10)
+        assert hold.error_bound < fmpq(1, 10 ** 60)  # 60 digits and more, as stated
+
+
+def test_zoh_of_an_integrator_is_ts_over_z_minus_one():
+    # 1/s behind a hold: Ts/(z - 1) exactly in the limit of the formula (from memory)
+    hold = zoh_equivalent([1], [1, 0], fmpq(1, 4))
+    assert [float(c) for c in hold.den] == [1.0, -1.0] and float(hold.num[0]) == pytest.approx(0.25, rel=1e-60)
+
+
+def integral_loop(a: fmpq, scaled: bool) -> SampledLoop:
+    """Plant a/(s + a) behind a hold; controller K Ts z/(z - 1) (scaled) or K/(z - 1)."""
+    def controller(ts):
+        num = [fmpq_poly([0, ts]), 0] if scaled else [fmpq_poly([0, 1])]
+        return (ParametricPolynomial.from_coefficients(num, "K"),
+                ParametricPolynomial.from_coefficients([1, -1], "K"))
+    return SampledLoop(controller, [a], [1, a], parameter="K")
+
+
+@pytest.mark.parametrize("a, ts", [(3, fmpq(1, 10)), (fmpq(1, 2), fmpq(3, 2)), (10, fmpq(1, 1000))])
+def test_first_order_plant_with_integral_control_closed_form(a, ts):
+    # Derived here: G(z) = (1 - q)/(z - q) with q = e^(-a Ts). With K Ts z/(z - 1) the characteristic
+    # polynomial is z^2 + (K Ts (1 - q) - 1 - q) z + q; Jury's second-order conditions give
+    # |q| < 1 (always), K Ts (1 - q) > 0 and 2 (1 + q) - K Ts (1 - q) > 0: 0 < K < 2 (1 + q) / (Ts (1 - q)),
+    # lost through z = -1. With K/(z - 1): z^2 - (1 + q) z + q + K (1 - q): 0 < K < 1, the upper end
+    # a pair on the circle at cos(theta) = (1 + q)/2.
+    q = math.exp(-float(a) * float(ts))
+    scaled = sampled_stable_range(integral_loop(fmpq(a), True), ts)
+    [(lo, hi)] = scaled.range.to_dict()["intervals"]
+    assert lo == 0 and hi == pytest.approx(2 * (1 + q) / (float(ts) * (1 - q)), rel=1e-12)
+    assert [e.kind for e in scaled.range.endpoints] == ["z_one", "z_minus_one"] and scaled.certified
+    plain = sampled_stable_range(integral_loop(fmpq(a), False), ts)
+    [(lo, hi)] = plain.range.to_dict()["intervals"]
+    assert lo == 0 and hi == pytest.approx(1.0, rel=1e-12)
+    pair = plain.range.endpoints[1]
+    assert pair.kind == "unit_circle" and pair.angle == pytest.approx(math.acos((1 + q) / 2), rel=1e-9)
+    assert pair.omega == pytest.approx(math.acos((1 + q) / 2) / float(ts), rel=1e-9)
+
+
+def test_digital_range_tends_to_the_continuous_one_as_ts_shrinks():
+    # 1/(s + 1)^3 with gain K: continuous range (-1, 8) (Routh, from memory); sampled with a hold
+    # the lower end stays -1 (G(z = 1) = G(s = 0)) and the upper end rises towards 8
+    gain = fixed_controller(ParametricPolynomial.from_coefficients([fmpq_poly([0, 1])], "K"),
+                            ParametricPolynomial.from_coefficients([1], "K"))
+    loop = SampledLoop(gain, [1], [1, 3, 3, 1], parameter="K")
+    highs = []
+    for ts in (fmpq(1, 2), fmpq(1, 10), fmpq(1, 100), fmpq(1, 1000)):
+        [(lo, hi)] = sampled_stable_range(loop, ts).range.to_dict()["intervals"]
+        assert lo == pytest.approx(-1.0, rel=1e-12)
+        highs.append(hi)
+    assert highs == sorted(highs) and highs[-1] < 8 and highs[-1] == pytest.approx(8, rel=2e-3)
+    first, second = gain_range_curve(loop, [fmpq(1, 2), fmpq(1, 4)])
+    assert first.range.to_dict()["intervals"][0][1] == pytest.approx(highs[0])
+    assert highs[0] < second.range.to_dict()["intervals"][0][1] < highs[1]
+
+
+def test_largest_sample_period_brackets_the_scipy_boundary():
+    # 1/(s + 1)^3, K = 4: the bracket's ends checked with scipy's hold equivalent and numpy.roots
+    from scipy.signal import cont2discrete
+
+    def gain(ts):
+        return ParametricPolynomial.from_coefficients([4]), ParametricPolynomial.from_coefficients([1])
+    search = largest_stable_period(SampledLoop(gain, [1], [1, 3, 3, 1]))
+    assert search.stable is not None and search.unstable is not None
+    assert search.unstable - search.stable <= search.tolerance * search.stable
+
+    def largest_root(ts: float) -> float:
+        num, den, _ = cont2discrete(([1], [1, 3, 3, 1]), ts, method="zoh")
+        num = np.squeeze(num)
+        return float(np.max(np.abs(np.roots(np.polyadd(den, 4 * num)))))
+    assert largest_root(float(search.stable) * 0.999) < 1 < largest_root(float(search.unstable) * 1.001)
+
+
+def test_delay_samples_shrink_the_range():
+    # K/(z - 1) around a/(s + a) with one more sample of delay: z^3 - (1 + q) z^2 + q z + K (1 - q);
+    # checked against numpy.roots at points inside and just outside the computed range
+    loop = integral_loop(fmpq(2), False)
+    delayed = SampledLoop(loop.controller, loop.plant_num, loop.plant_den, computation_delay=True, parameter="K")
+    r = sampled_stable_range(delayed, fmpq(1, 5))
+    [(lo, hi)] = r.range.to_dict()["intervals"]
+    q = math.exp(-0.4)
+    for k, stable in ((hi * 0.99, True), (hi * 1.01, False), (lo + hi / 2, True)):
+        mags = np.abs(np.roots([1, -(1 + q), q, k * (1 - q)]))
+        assert bool(np.all(mags < 1)) == stable
+    assert hi < 1
+
+
+@pytest.mark.parametrize("bad", [0, -1, float("inf"), float("nan")])
+def test_bad_sample_period_is_e450(bad):
+    with pytest.raises(AnalysisError) as err:
+        zoh_equivalent([1], [1, 1], bad)
+    assert err.value.code == "E450"
+
+
+def test_improper_plant_and_bad_delay_have_codes():
+    with pytest.raises(AnalysisError) as err:
+        zoh_equivalent([1, 0, 0], [1, 1], fmpq(1, 10))
+    assert err.value.code == "E453"
+    with pytest.raises(AnalysisError) as err:
+        SampledLoop(integral_loop(fmpq(1), False).controller, [1], [1, 1], delay_samples=-1)
+    assert err.value.code == "E454"
