@@ -282,3 +282,71 @@ def test_improper_plant_and_bad_delay_have_codes():
     with pytest.raises(AnalysisError) as err:
         SampledLoop(integral_loop(fmpq(1), False).controller, [1], [1, 1], delay_samples=-1)
     assert err.value.code == "E454"
+
+
+# -- the command line -------------------------------------------------------------------------------------
+import json  # noqa: E402
+
+from core.cli import main  # noqa: E402
+
+
+def run_cli(capsys, *argv: str) -> tuple[int, str, str]:
+    code = main(["check", *argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_cli_z_polynomial_json_has_the_s_form_and_the_z_keys(capsys):
+    code, out, _ = run_cli(capsys, "--poly", "z^2 + (K - 1)*z + 0.25", "--variable", "z", "--param", "K",
+                           "--sample-period", "0.1", "--at", "K=1", "--json")
+    data = json.loads(out)
+    s_code, s_out, _ = run_cli(capsys, "--poly", "s^2 + s + K", "--param", "K", "--json")
+    s_data = json.loads(s_out)
+    assert code == s_code == 0
+    assert set(s_data["stable_range"]) <= set(data["stable_range"])  # the same form as for s
+    assert set(s_data["stable_range"]["endpoints"][0]) <= set(data["stable_range"]["endpoints"][0])
+    assert data["domain"] == "z" and s_data["domain"] == "s" and data["sample_period"] == 0.1
+    # 1 + a1 + a0 = K + 1/4 > 0 and 1 - a1 + a0 = 9/4 - K > 0 (second-order Jury conditions, from memory)
+    assert data["stable_range"]["exact_intervals"] == [["-1/4", "9/4"]]
+    assert data["stable_range"]["endpoints"][1]["omega"] == pytest.approx(math.pi / 0.1)
+    assert data["jury"]["stable"] is True and len(data["jury"]["rows"]) == 2
+    assert data["w_routh"]["powers"] == [2, 1, 0] and data["max_sample_period"] is None
+    assert data["nominal"]["inside"] == 2 and data["nominal"]["poles"]
+
+
+def test_cli_max_sample_period_for_a_polynomial_in_ts(capsys):
+    # z^2 + (K Ts - 3/2) z + 1/2 at K = 2: 1 - a1 + a0 = 3 - 2 Ts > 0 gives Ts < 3/2 (Jury, from memory)
+    code, out, _ = run_cli(capsys, "--poly", "z^2 + (K*Ts - 1.5)*z + 0.5", "--variable", "z", "--param", "K",
+                           "--at", "K=2", "--sample-period", "0.1", "--json")
+    period = json.loads(out)["max_sample_period"]
+    assert code == 0 and period["exact"] == "3/2" and period["method"].startswith("exact")
+
+
+def test_cli_text_labels_the_w_plane_array_and_the_jury_table(capsys):
+    code, out, _ = run_cli(capsys, "--poly", "z^2 - z + K", "--variable", "z", "--param", "K",
+                           "--sample-period", "2", "--decay", "0.1")
+    assert code == 0
+    assert "w-plane Routh array" in out and "  w^2 |" in out and "Jury table" in out
+    assert "complex pair crosses the unit circle" in out and "|z| < e^(-sigma Ts)" in out
+
+
+def test_cli_fail_unstable_reads_the_z_verdict(capsys):
+    code, _, _ = run_cli(capsys, "--poly", "z^2 - 3", "--variable", "z", "--fail-unstable")
+    assert code == 1
+
+
+@pytest.mark.parametrize("argv, code", [
+    (["--poly", "z^2 + s", "--variable", "z"], "E452"),
+    (["--poly", "z + 1/(z - 1)", "--variable", "z"], "E458"),
+    (["--poly", "z^2 + K", "--variable", "x"], "E451"),
+    (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--sample-period", "0"], "E450"),
+    (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--sample-period", "-0.5"], "E450"),
+    (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--sample-period", "nan"], "E450"),
+    (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--sample-period", "inf"], "E450"),
+    (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--decay", "1"], "E456"),
+    (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--plane", "K=0..1,T=0..1"], "E457"),
+    (["--poly", "s^2 + K", "--param", "K", "--sample-period", "0.1"], "E457"),
+])
+def test_cli_bad_sampled_input_is_a_coded_error(capsys, argv, code):
+    status, out, err = run_cli(capsys, *argv)
+    assert status == 2 and out == "" and err.startswith(f"loopwright-check: {code}")
