@@ -350,3 +350,36 @@ def test_cli_fail_unstable_reads_the_z_verdict(capsys):
 def test_cli_bad_sampled_input_is_a_coded_error(capsys, argv, code):
     status, out, err = run_cli(capsys, *argv)
     assert status == 2 and out == "" and err.startswith(f"loopwright-check: {code}")
+
+
+def test_controller_not_causal_is_e455_and_period_search_needs_the_gain():
+    def ahead(ts):
+        return ParametricPolynomial.from_coefficients([1, 0, 0]), ParametricPolynomial.from_coefficients([1, -1])
+    with pytest.raises(AnalysisError) as err:
+        sampled_stable_range(SampledLoop(ahead, [1], [1, 1]), fmpq(1, 10))
+    assert err.value.code == "E455"
+    with pytest.raises(AnalysisError) as err:
+        largest_stable_period(integral_loop(fmpq(1), True))
+    assert err.value.code == "E404"
+
+
+@pytest.mark.filterwarnings("ignore::scipy.signal.BadCoefficients")  # scipy's near-zero leading numerator term
+def test_bench_sampled_row_calls_agree_with_scipy():
+    # the bench's loop: its K range at Ts = 0.1 against scipy's hold equivalent and numpy.roots
+    from scipy.signal import cont2discrete
+
+    from bench import sampled_row
+    loop = sampled_row.pi_loop()
+    result = sampled_stable_range(loop, sampled_row.SAMPLE_PERIOD)
+    [(lo, hi)] = result.range.to_dict()["intervals"]
+    num, den, _ = cont2discrete(([float(c) for c in loop.plant_num], [float(c) for c in loop.plant_den]), 0.1,
+                                method="zoh")
+    num = np.squeeze(num)
+    pi_num, pi_den = np.array([1.1, -1.0]), np.array([1.0, -1.0])
+
+    def largest(k: float) -> float:
+        return float(np.max(np.abs(np.roots(np.polyadd(np.polymul(pi_den, den), k * np.polymul(pi_num, num))))))
+    assert result.certified and largest(hi * 0.999) < 1 < largest(hi * 1.001)
+    assert lo == 0 and largest((lo + hi) / 2) < 1
+    search = largest_stable_period(loop, nominal=1)
+    assert search.stable is not None and search.unstable is not None

@@ -37,6 +37,7 @@ __all__ = [
     "PeriodSearch",
     "SampledLoop",
     "ZohEquivalent",
+    "certified_stable_at",
     "check_sample_period",
     "fixed_controller",
     "gain_range_curve",
@@ -89,20 +90,11 @@ def zoh_equivalent(num: Sequence, den: Sequence, sample_period) -> ZohEquivalent
     highest power of s first). E453 for an improper plant or a zero denominator, E450 for a bad
     sample period."""
     ts = check_sample_period(sample_period)
-    n_s, d_s = _exact_list(num, "numerator"), _exact_list(den, "denominator")
-    n = len(d_s) - 1
-    if len(n_s) - 1 > n:
-        raise AnalysisError("E453", "the plant is improper (numerator degree above the denominator's): "
-                            "it has no zero-order-hold equivalent", where="plant")
-    lead = d_s[0]
-    d_monic = [c / lead for c in d_s]
-    n_scaled = [fmpq(0)] * (n + 1 - len(n_s)) + [c / lead for c in n_s]
-    direct = n_scaled[0]
-    if n == 0:
+    d_monic, rest, direct = _canonical(num, den)
+    if not rest:
         with ctx.workprec(BALL_PRECISION):
             value = arb(direct)
         return ZohEquivalent([direct], [fmpq(1)], [value], [arb(1)], fmpq(0), ts)
-    rest = [n_scaled[i] - direct * d_monic[i] for i in range(n + 1)][1:]  # degree < n, highest first
     prec = 2 * COEFFICIENT_BITS
     while True:
         num_balls, den_balls = _hold_balls(d_monic, rest, direct, ts, prec)
@@ -116,6 +108,21 @@ def zoh_equivalent(num: Sequence, den: Sequence, sample_period) -> ZohEquivalent
     den_q = [_rounded(b, grid) for b in den_balls]
     err = max(abs(_fmpq_of(b.mid()) - q) + _upper(b.rad()) for b, q in zip(num_balls + den_balls, num_q + den_q))
     return ZohEquivalent(strip_leading_zeros(num_q), den_q, num_balls, den_balls, err, ts)
+
+
+def _canonical(num: Sequence, den: Sequence) -> tuple[list[fmpq], list[fmpq], fmpq]:
+    """(monic denominator, strictly proper numerator below it, direct term), highest power first:
+    the data of the controllable canonical form. E453 for an improper plant or a zero denominator."""
+    n_s, d_s = _exact_list(num, "numerator"), _exact_list(den, "denominator")
+    n = len(d_s) - 1
+    if len(n_s) - 1 > n:
+        raise AnalysisError("E453", "the plant is improper (numerator degree above the denominator's): "
+                            "it has no zero-order-hold equivalent", where="plant")
+    lead = d_s[0]
+    d_monic = [c / lead for c in d_s]
+    n_scaled = [fmpq(0)] * (n + 1 - len(n_s)) + [c / lead for c in n_s]
+    direct = n_scaled[0]
+    return d_monic, [n_scaled[i] - direct * d_monic[i] for i in range(n + 1)][1:], direct
 
 
 def _hold_balls(d_monic: list[fmpq], rest: list[fmpq], direct: fmpq, ts: fmpq,
@@ -219,24 +226,51 @@ class SampledCharacteristic:
     def balls_at(self, value=None) -> list[arb]:
         """Coefficients (highest power first) at a value of the tuning parameter, as balls holding
         the true coefficients."""
-        v = fmpq(0) if value is None else to_fmpq(value)
         with ctx.workprec(BALL_PRECISION):
-            return self._balls(v)
-
-    def _balls(self, v: fmpq) -> list[arb]:
-        nc = arb_poly(list(reversed([arb(c(v)) for c in self.controller_num.coeffs])))
-        dc = arb_poly(list(reversed([arb(c(v)) for c in self.controller_den.coeffs])))
-        ng = arb_poly(list(reversed(self.hold.num_balls)))
-        dg = arb_poly(list(reversed(self.hold.den_balls)))
-        shift = arb_poly([0] * self.delay + [1])
-        total = shift * dc * dg + nc * ng
-        return [total[i] for i in range(self.polynomial.degree, -1, -1)]
+            return _loop_balls(self.controller_num, self.controller_den, self.hold.num_balls,
+                               self.hold.den_balls, self.delay, value, self.polynomial.degree)
 
     def certified_stable(self, value=None) -> bool | None:
         """The Jury verdict on the true coefficients (None: undecided at this precision)."""
         balls = self.balls_at(value)
         with ctx.workprec(BALL_PRECISION):
             return jury_certified(balls)
+
+
+def _loop_balls(nc: ParametricPolynomial, dc: ParametricPolynomial, ng: list[arb], dg: list[arb], delay: int,
+                value, degree: int) -> list[arb]:
+    """z^m D_c D_g + N_c N_g at a value of the tuning parameter, ball coefficients highest first
+    (at the working precision)."""
+    v = fmpq(0) if value is None else to_fmpq(value)
+    nc_b = arb_poly(list(reversed([arb(c(v)) for c in nc.coeffs])))
+    dc_b = arb_poly(list(reversed([arb(c(v)) for c in dc.coeffs])))
+    total = arb_poly([0] * delay + [1]) * dc_b * arb_poly(list(reversed(dg))) + nc_b * arb_poly(list(reversed(ng)))
+    return [total[i] for i in range(degree, -1, -1)]
+
+
+def certified_stable_at(loop: SampledLoop, sample_period, value=None) -> bool | None:
+    """The certified verdict at one sample period, computed with no more precision than it needs:
+    the hold's balls and the Jury conditions at 128 bits, then doubled while undecided (up to
+    :data:`SEARCH_PRECISION`); None when still undecided there."""
+    ts = check_sample_period(sample_period)
+    d_monic, rest, direct = _canonical(loop.plant_num, loop.plant_den)
+    nc, dc = _controller_at(loop, ts)
+    degree = max(dc.degree + len(d_monic) - 1 + loop.delay, nc.degree + len(d_monic) - 1)
+    prec = 128
+    while prec <= SEARCH_PRECISION:
+        if rest:
+            ng, dg = _hold_balls(d_monic, rest, direct, ts, prec)
+        else:
+            ng, dg = [arb(direct)], [arb(1)]
+        with ctx.workprec(prec):
+            verdict = jury_certified(_loop_balls(nc, dc, ng, dg, loop.delay, value, degree))
+        if verdict is not None:
+            return verdict
+        prec *= 2
+    return None
+
+
+SEARCH_PRECISION = 2048
 
 
 def _product(a: Sequence[fmpq_poly], b: Sequence[fmpq_poly]) -> list[fmpq_poly]:
@@ -255,17 +289,24 @@ def _sum(a: list[fmpq_poly], b: list[fmpq_poly]) -> list[fmpq_poly]:
     return [x + y for x, y in zip(a, b)]
 
 
-def sampled_characteristic(loop: SampledLoop, sample_period) -> SampledCharacteristic:
-    """z^m D_c D_g + N_c N_g at one sample period (see the module notes). E455 when it vanishes
-    identically, E453 for a bad plant."""
-    ts = check_sample_period(sample_period)
-    hold = zoh_equivalent(loop.plant_num, loop.plant_den, ts)
+def _controller_at(loop: SampledLoop, ts: fmpq) -> tuple[ParametricPolynomial, ParametricPolynomial]:
+    """The controller's N_c, D_c at one sample period; E455 for a zero denominator or a controller
+    that is not causal."""
     nc, dc = loop.controller(ts)
     if dc.degree < 0:
         raise AnalysisError("E455", "the controller's denominator is zero", where="controller")
     if nc.degree > dc.degree:
         raise AnalysisError("E455", "the controller is not causal (numerator degree in z above the "
                             "denominator's)", where="controller")
+    return nc, dc
+
+
+def sampled_characteristic(loop: SampledLoop, sample_period) -> SampledCharacteristic:
+    """z^m D_c D_g + N_c N_g at one sample period (see the module notes). E455 when it vanishes
+    identically, E453 for a bad plant."""
+    ts = check_sample_period(sample_period)
+    hold = zoh_equivalent(loop.plant_num, loop.plant_den, ts)
+    nc, dc = _controller_at(loop, ts)
     ng = [fmpq_poly([c]) for c in hold.num]
     dg = [fmpq_poly([c]) for c in hold.den]
     shifted_dc = list(dc.coeffs) + [fmpq_poly([])] * loop.delay
@@ -363,6 +404,9 @@ def largest_stable_period(loop: SampledLoop, nominal=None, start=None, growth=SC
                           tolerance=PERIOD_TOLERANCE, limit=None) -> PeriodSearch:
     """Scan the sample period upward from ``start`` (default: a thousandth of the plant's fastest
     time constant) until a certified unstable verdict, then bisect to ``tolerance`` relative."""
+    if loop.parameter is not None and nominal is None:
+        raise AnalysisError("E404", f"the largest sample period needs a value of {loop.parameter}",
+                            where=f"parameter {loop.parameter}")
     start_q = to_fmpq(start) if start is not None else _default_start(loop.plant_num, loop.plant_den)
     limit_q = to_fmpq(limit) if limit is not None else start_q * 10 ** 9
     count = 0
@@ -370,7 +414,7 @@ def largest_stable_period(loop: SampledLoop, nominal=None, start=None, growth=SC
     def verdict(ts: fmpq) -> bool | None:
         nonlocal count
         count += 1
-        return sampled_characteristic(loop, ts).certified_stable(nominal)
+        return certified_stable_at(loop, ts, nominal)
 
     growth_q, tol = to_fmpq(growth), to_fmpq(tolerance)
     first = verdict(start_q)
