@@ -383,3 +383,15 @@ def test_bench_sampled_row_calls_agree_with_scipy():
     assert lo == 0 and largest((lo + hi) / 2) < 1
     search = largest_stable_period(loop, nominal=1)
     assert search.stable is not None and search.unstable is not None
+
+
+def test_cli_sample_period_as_the_tuning_parameter(capsys):
+    # z^2 + (2 Ts - 3/2) z + 1/2: 1 - a1 + a0 = 3 - 2 Ts > 0 and 1 + a1 + a0 = 2 Ts > 0 (Jury, from memory)
+    code, out, _ = run_cli(capsys, "--poly", "z^2 + (2*Ts - 1.5)*z + 0.5", "--variable", "z", "--param", "Ts",
+                           "--sample-period", "0.1", "--json")
+    data = json.loads(out)
+    assert code == 0 and data["stable_range"]["exact_intervals"] == [["0", "3/2"]]
+    assert data["stable_range"]["endpoints"][1]["omega"] == pytest.approx(math.pi / 1.5)  # its own period
+    assert data["max_sample_period"]["exact"] == "3/2"
+    status, _, err = run_cli(capsys, "--poly", "z^2 + (K*Ts - 1.5)*z + 0.5", "--variable", "z", "--param", "K")
+    assert status == 2 and "E404" in err and "--sample-period" in err

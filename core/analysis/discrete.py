@@ -17,9 +17,9 @@ Two exact tests, which always agree:
   (the 2x2 determinants of the row and its reverse, m = deg r^(j)), down to three entries. With
   a_n > 0, P is stable exactly when P(1) > 0, (-1)^n P(-1) > 0, |a_0| < a_n and
   |r^(j)_0| > |r^(j)_last| for each later row (Jury, 1961). Every condition is necessary, so any
-  equality (a root on the circle) reads as not stable. From the fourth row on, each row is divided
-  exactly by the first entry of the row two above (checked, else kept as it is): a positive or
-  negative constant factor changes no condition, and the entries stay of linear size.
+  equality (a root on the circle) reads as not stable. From the fourth stage on (r^(3), ...), each
+  row is divided exactly by the first entry of the stage two above (checked, else kept as it is):
+  a nonzero factor changes no condition, and the entries stay of linear size.
 
 >>> from flint import fmpq_poly
 >>> p = ParametricPolynomial.from_coefficients([1, fmpq_poly([-1, 1]), fmpq(1, 4)], "K")  # z^2 + (K-1) z + 1/4
@@ -223,8 +223,9 @@ class JuryTable:
 
 
 def _reduced(row: list, above) -> list:
-    """The next Jury row r_0 r_k - r_m r_(m-k), divided by ``above`` (the first entry of the row two
-    above) when that division is exact."""
+    """The next Jury row r_0 r_k - r_m r_(m-k), divided by ``above`` (the first entry of the stage two
+    above, from the second stage on) when that division is exact. Safe at every parameter value:
+    where ``above`` vanishes an earlier condition (|first| > |last| of that stage) already fails."""
     m = len(row) - 1
     new = [row[0] * row[k] - row[m] * row[m - k] for k in range(m)]
     if above is not None and above != 0 and all(e % above == 0 for e in new):
@@ -257,13 +258,14 @@ def jury_table(poly: ParametricPolynomial) -> JuryTable:
                   JuryCondition(f"{sign_note}(-1)^{n} P(-1)", "positive", at_minus_one)]
     conditions.append(JuryCondition(f"|a0| < |a{n}|", "dominates", lead, low[0], smaller_first=True))
     rows: list[list[fmpq_poly]] = [low, list(reversed(low))]
-    current, above = low, None
-    while len(current) > 3:
-        nxt = _reduced(current, above)
-        above, current = current[0], nxt
+    stages = [low]
+    while len(stages[-1]) > 3:
+        above = stages[-2][0] if len(stages) >= 3 else None  # never a0: it may be 0 in a stable loop
+        current = _reduced(stages[-1], above)
+        stages.append(current)
         rows += [current, list(reversed(current))]
         m = len(current) - 1
-        conditions.append(JuryCondition(f"row {len(rows) // 2}: |first| > |last| (z^0, z^{m})", "dominates",
+        conditions.append(JuryCondition(f"row {len(rows) - 1}: |first| > |last| (z^0, z^{m})", "dominates",
                                         current[0], current[m]))
     return JuryTable(rows, conditions, poly.parameter, n, lead)
 

@@ -13,8 +13,9 @@ period (exact, since Ts then enters the coefficients as a polynomial).
 from __future__ import annotations
 
 import cmath
+import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
 
@@ -22,6 +23,7 @@ from core.algebra.expression import parse_fraction, to_mpoly
 from core.algebra.polynomial import ParametricPolynomial, primitive_scale, to_fmpq
 from core.analysis.discrete import (
     JuryTable,
+    ZEndpoint,
     bilinear,
     jury_table,
     radius_bounds,
@@ -34,7 +36,7 @@ from core.analysis.discrete import (
 from core.analysis.poles import certified_roots, expand_multiplicity
 from core.analysis.report import CAUTION, decay_sigma, values_text
 from core.analysis.routh import DISPLAY_BITS, RouthArray, routh_array
-from core.analysis.stable_range import Boundary, Margins, StableRange, margins
+from core.analysis.stable_range import Boundary, Endpoint, Margins, StableRange, margins
 from core.errors import AnalysisError, ExpressionError, Notice, notice_kind
 
 __all__ = ["SAMPLE_PERIOD_NAME", "DiscreteNominal", "DiscreteReport", "MaxSamplePeriod", "RadiusRequirement",
@@ -201,7 +203,8 @@ def check_z_polynomial(text: str, parameter: str | None = None, at: Mapping[str,
                             where=f"parameter {parameter}")
     missing = [n for n in names if n != parameter and n not in values]
     if missing:
-        raise AnalysisError("E404", f"parameter {', '.join(missing)} has no value; give one or tune it",
+        hint = " (the sample period: give it with --sample-period)" if SAMPLE_PERIOD_NAME in missing else ""
+        raise AnalysisError("E404", f"parameter {', '.join(missing)} has no value; give one or tune it{hint}",
                             where=f"parameter {missing[0]}")
     poly = poly * primitive_scale(poly)
     analysed = ParametricPolynomial.from_mpoly(poly, parameter, values)
@@ -213,16 +216,27 @@ def check_z_polynomial(text: str, parameter: str | None = None, at: Mapping[str,
     if w_routh.omitted:
         warnings.append(Notice(f"w-plane Routh array not shown: {w_routh.omitted}", "routh_omitted"))
     nominal_value = values.get(parameter) if parameter else None
-    rng = z_stable_range(analysed, nominal_value, ts) if parameter else None
+    rng = _tuning_range(analysed, nominal_value, ts) if parameter else None
     nominal = _nominal(analysed, nominal_value, values) if (parameter is None or nominal_value is not None) else None
     report = DiscreteReport(text, analysed, parameter, values, ts, w, w_routh,
                             jury_table(analysed) if analysed.degree >= 1 else None, rng, nominal,
                             margins(rng, nominal_value) if rng is not None and nominal_value is not None else None,
                             warnings=warnings)
     report.decay = _radius(analysed, ts, decay, decay_mode, nominal_value)
-    if SAMPLE_PERIOD_NAME in names and parameter != SAMPLE_PERIOD_NAME:
+    if SAMPLE_PERIOD_NAME in names:
         report.max_sample_period = _max_period(poly, values, parameter, ts)
     return report
+
+
+def _tuning_range(poly: ParametricPolynomial, nominal, ts: fmpq | None) -> StableRange:
+    """The stable range of the tuning parameter; when that parameter is the sample period itself,
+    each end's frequency is its angle over that end's own period."""
+    if poly.parameter != SAMPLE_PERIOD_NAME:
+        return z_stable_range(poly, nominal, ts)
+    rng = z_stable_range(poly, nominal, None)
+    ends: list[Endpoint] = [replace(e, omega=e.angle / e.value) if e.angle is not None and 0 < e.value < math.inf else e
+            for e in rng.endpoints if isinstance(e, ZEndpoint)]
+    return replace(rng, endpoints=ends)
 
 
 def _sample_period(value, values: Mapping[str, fmpq], names) -> fmpq | None:
@@ -270,7 +284,7 @@ def _max_period(poly: fmpq_mpoly, values: Mapping[str, fmpq], parameter: str | N
                 ts: fmpq | None) -> MaxSamplePeriod | None:
     """The exact stable range in Ts at the nominal values (None without a nominal tuning value)."""
     fixed = {k: v for k, v in values.items() if k != SAMPLE_PERIOD_NAME}
-    if parameter is not None and parameter not in fixed:
+    if parameter not in (None, SAMPLE_PERIOD_NAME) and parameter not in fixed:
         return None
     in_ts = ParametricPolynomial.from_mpoly(poly, SAMPLE_PERIOD_NAME, fixed)
     if in_ts.degree < 1:
