@@ -395,3 +395,12 @@ def test_cli_sample_period_as_the_tuning_parameter(capsys):
     assert data["max_sample_period"]["exact"] == "3/2"
     status, _, err = run_cli(capsys, "--poly", "z^2 + (K*Ts - 1.5)*z + 0.5", "--variable", "z", "--param", "K")
     assert status == 2 and "E404" in err and "--sample-period" in err
+
+
+def test_large_jury_table_is_omitted_but_the_verdict_stands():
+    poly = ParametricPolynomial.from_coefficients([1, fmpq(3, 10)] + [0] * 20 + [fmpq_poly([0, 1]), fmpq(1, 10)], "K")
+    table = jury_table(poly, limit_bits=2_000)
+    assert table.omitted and table.rows == [] and table.to_dict(fmpq(0))["stable"] is None
+    # K = 0: z^22 (z + 3/10) + 1/10, numpy.roots as the reference for the w-plane verdict
+    assert schur_stable(poly.at(0), poly.degree) == bool(np.all(np.abs(np.roots([float(c) for c in poly.at(0)])) < 1))
+    assert jury_table(poly).stable_at(0) == schur_stable(poly.at(0), poly.degree)

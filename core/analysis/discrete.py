@@ -37,10 +37,11 @@ from dataclasses import dataclass, replace
 from flint import arb, ctx, fmpq, fmpq_poly, fmpz_poly
 
 from core.algebra.polynomial import ParametricPolynomial, poly_text, strip_leading_zeros, to_fmpq
-from core.analysis.routh import is_hurwitz, routh_counts
+from core.analysis.routh import entry_bits, is_hurwitz, routh_counts
 from core.analysis.stable_range import Endpoint, StableRange, stable_range
 
 __all__ = [
+    "JURY_DISPLAY_BITS",
     "CircleCounts",
     "JuryCondition",
     "JuryTable",
@@ -59,6 +60,7 @@ __all__ = [
 ]
 
 Z = "z"
+JURY_DISPLAY_BITS = 1_000_000  # a Jury table for display holds at most this many bits (about 300,000 digits)
 
 
 # -- the bilinear map ---------------------------------------------------------------------------------
@@ -201,6 +203,7 @@ class JuryTable:
     parameter: str | None
     degree: int
     lead: fmpq_poly  # the leading coefficient a_n (sign-normalised when constant)
+    omitted: str | None = None  # why the table was not built (then rows and conditions are empty)
 
     def stable_at(self, value=None) -> bool:
         """Exact verdict at a value: the leading coefficient is nonzero and every condition holds."""
@@ -215,11 +218,11 @@ class JuryTable:
         """JSON fields: ``rows`` (texts; each stage's row then its reverse), ``conditions`` (text and,
         at ``value`` or without a parameter, whether it holds) and ``stable`` (None if symbolic)."""
         name = self.parameter or "k"
-        judged = value is not None or self.parameter is None
+        judged = (value is not None or self.parameter is None) and self.omitted is None
         return {"rows": self.rows_text(),
                 "conditions": [{"condition": c.text(name), "holds": c.holds(value) if judged else None}
                                for c in self.conditions],
-                "stable": self.stable_at(value) if judged else None}
+                "stable": self.stable_at(value) if judged else None, "omitted": self.omitted}
 
 
 def _reduced(row: list, above) -> list:
@@ -233,8 +236,9 @@ def _reduced(row: list, above) -> list:
     return new
 
 
-def jury_table(poly: ParametricPolynomial) -> JuryTable:
-    """The Jury table of a polynomial in z, symbolic in its parameter.
+def jury_table(poly: ParametricPolynomial, limit_bits: int | None = None) -> JuryTable:
+    """The Jury table of a polynomial in z, symbolic in its parameter. With ``limit_bits``, a table
+    whose entries grow past that many bits is not built: no rows, and ``omitted`` says why.
 
     >>> from flint import fmpq_poly
     >>> t = jury_table(ParametricPolynomial.from_coefficients([1, fmpq_poly([-1, 1]), fmpq(1, 4)], "K"))
@@ -259,7 +263,13 @@ def jury_table(poly: ParametricPolynomial) -> JuryTable:
     conditions.append(JuryCondition(f"|a0| < |a{n}|", "dominates", lead, low[0], smaller_first=True))
     rows: list[list[fmpq_poly]] = [low, list(reversed(low))]
     stages = [low]
+    used = 0
     while len(stages[-1]) > 3:
+        used += sum(entry_bits(e) for e in stages[-1])
+        if limit_bits is not None and used > limit_bits:
+            why = (f"the Jury table of this degree-{n} polynomial passes {limit_bits:,} bits of entries by row "
+                   f"{len(rows) - 1}: not built (the verdicts and the range come from the w-plane)")
+            return JuryTable([], [], poly.parameter, n, lead, why)
         above = stages[-2][0] if len(stages) >= 3 else None  # never a0: it may be 0 in a stable loop
         current = _reduced(stages[-1], above)
         stages.append(current)

@@ -22,6 +22,7 @@ from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
 from core.algebra.expression import parse_fraction, to_mpoly
 from core.algebra.polynomial import ParametricPolynomial, primitive_scale, to_fmpq
 from core.analysis.discrete import (
+    JURY_DISPLAY_BITS,
     JuryTable,
     ZEndpoint,
     bilinear,
@@ -214,12 +215,16 @@ def check_z_polynomial(text: str, parameter: str | None = None, at: Mapping[str,
     warnings: list[str] = []
     w_routh = routh_array(w, limit_bits=DISPLAY_BITS) if w.degree >= 0 else routh_array(analysed)
     if w_routh.omitted:
-        warnings.append(Notice(f"w-plane Routh array not shown: {w_routh.omitted}", "routh_omitted"))
+        warnings.append(Notice(f"w-plane Routh array not shown: {w_routh.omitted.replace('row s^', 'row w^')}",
+                               "routh_omitted"))
+    jury = jury_table(analysed, JURY_DISPLAY_BITS) if analysed.degree >= 1 else None
+    if jury is not None and jury.omitted:
+        warnings.append(Notice(f"Jury table not shown: {jury.omitted}", "routh_omitted"))
     nominal_value = values.get(parameter) if parameter else None
     rng = _tuning_range(analysed, nominal_value, ts) if parameter else None
     nominal = _nominal(analysed, nominal_value, values) if (parameter is None or nominal_value is not None) else None
     report = DiscreteReport(text, analysed, parameter, values, ts, w, w_routh,
-                            jury_table(analysed) if analysed.degree >= 1 else None, rng, nominal,
+                            jury, rng, nominal,
                             margins(rng, nominal_value) if rng is not None and nominal_value is not None else None,
                             warnings=warnings)
     report.decay = _radius(analysed, ts, decay, decay_mode, nominal_value)

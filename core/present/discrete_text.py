@@ -68,7 +68,7 @@ def w_routh_lines(report: DiscreteReport, width: int | None = SCREEN_LINE) -> li
         note = f"   <- {special[i]}" if i in special else ""
         out.append(f"  {label.rjust(label_w)} | " + "  ".join(e.rjust(widths[j]) for j, e in enumerate(row)).rstrip() + note)
     if rd["omitted"]:
-        out.append(f"  (not shown: {rd['omitted']})")
+        out.append(f"  (not shown: {rd['omitted'].replace('row s^', 'row w^')})")
     return out
 
 
@@ -77,6 +77,8 @@ def jury_lines(report: DiscreteReport, width: int | None = SCREEN_LINE) -> list[
     jury = report.to_dict()["jury"]
     if jury is None:
         return ["  (degree 0: no table)"]
+    if jury["omitted"]:
+        return [f"  (not shown: {jury['omitted']})"]
     rows = [[e if width is None else abbreviate(e, width) for e in row] for row in jury["rows"]]
     ncols = max(len(row) for row in rows)
     widths = [max((len(row[j]) for row in rows if j < len(row)), default=1) for j in range(ncols)]
