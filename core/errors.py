@@ -73,6 +73,7 @@ CATALOGUE: dict[str, str] = {
     "E456": "decay requirement in z without a sample period",
     "E457": "option not available for a polynomial in z",
     "E458": "z in a denominator of a polynomial in z",
+    "E459": "degree in z above the analysed limit",
     # command line
     "E501": "command-line arguments invalid",
 }

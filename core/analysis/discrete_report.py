@@ -45,6 +45,7 @@ __all__ = ["SAMPLE_PERIOD_NAME", "DiscreteNominal", "DiscreteReport", "MaxSample
 
 SAMPLE_PERIOD_NAME = "Ts"
 Z = "z"
+MAX_Z_DEGREE = 200  # as for polynomials in s
 
 
 def read_z_polynomial(text: str, where: str = "polynomial") -> fmpq_mpoly:
@@ -66,6 +67,8 @@ def read_z_polynomial(text: str, where: str = "polynomial") -> fmpq_mpoly:
                               where=where)
     ctx = fmpq_mpoly_ctx.get((Z, *sorted(names - {Z})), "lex")
     poly = to_mpoly(num, ctx)
+    if poly.degrees()[0] > MAX_Z_DEGREE:
+        raise ExpressionError("E459", f"degree in z is {poly.degrees()[0]} (at most {MAX_Z_DEGREE})", where=where)
     bottom = to_mpoly(den, ctx)
     return poly * (1 / bottom.leading_coefficient()) if bottom.is_constant() else poly
 
