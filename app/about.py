@@ -13,6 +13,7 @@ from PySide6.QtCore import QPointF, QRectF, QSettings, Qt
 from PySide6.QtGui import QColor, QGuiApplication, QIcon, QPainter, QPainterPath, QPen, QPixmap
 from PySide6.QtWidgets import QMessageBox, QWidget
 
+from app.theme import meaning_colour
 from core.analysis.report import CAUTION
 
 SEEN_KEY = "caution/seen"
@@ -83,7 +84,7 @@ def _draw_icon(size: int) -> QPixmap:
     p.setRenderHint(QPainter.RenderHint.Antialiasing)
     p.scale(size / 64.0, size / 64.0)
     p.setPen(Qt.PenStyle.NoPen)
-    p.setBrush(QColor("#1f7a78"))
+    p.setBrush(meaning_colour("logo", dark=False))
     p.drawRoundedRect(QRectF(2, 2, 60, 60), 13, 13)
     white = QPen(QColor("white"), 4.2, Qt.PenStyle.SolidLine, Qt.PenCapStyle.RoundCap, Qt.PenJoinStyle.RoundJoin)
     p.setPen(white)
@@ -104,7 +105,7 @@ def _draw_icon(size: int) -> QPixmap:
     arrow.lineTo(22.5, 40)
     arrow.closeSubpath()
     p.drawPath(arrow)
-    p.setBrush(QColor("#f2b134"))                       # an amber pole mark
+    p.setBrush(meaning_colour("logo_mark", dark=False))                       # an amber pole mark
     p.drawRoundedRect(QRectF(8, 8, 7, 7), 1.5, 1.5)
     p.end()
     return pix

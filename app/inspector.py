@@ -31,7 +31,7 @@ from PySide6.QtWidgets import (
 
 from app.document.commands import EditNodeCommand, SetAnalysisCommand, push
 from app.document.editing import block_text_command
-from app.theme import figure_font
+from app.theme import error_style, figure_font, meaning_colour
 from core.algebra.expression import S, block_transfer, glued_reading, read_block, to_mpoly, typed_names
 from core.algebra.polynomial import decimal_text, mpoly_context, mpoly_text, to_fmpq
 from core.errors import LoopwrightError
@@ -39,7 +39,6 @@ from core.model.diagram import MAX_SUM_PORTS, MIN_SUM_PORTS, ROLES, Diagram
 
 KIND_TITLES = {"input": "Input", "output": "Output", "sum": "Summing junction", "branch": "Branch point",
                "block": "Block"}
-ERROR_STYLE = "color: #c62828; font-size: 8.5pt;"
 NOTE_STYLE = "color: palette(placeholder-text); font-size: 8.5pt;"
 
 
@@ -150,7 +149,7 @@ class _FieldWithError(QWidget):
         self.edit.setPlaceholderText(placeholder)
         self.edit.setFont(figure_font(10))
         self.error = QLabel()
-        self.error.setStyleSheet(ERROR_STYLE)
+        self.error.setStyleSheet(error_style())
         self.error.setWordWrap(True)
         self.error.hide()
         layout = QVBoxLayout(self)
@@ -161,10 +160,10 @@ class _FieldWithError(QWidget):
 
     def set_error(self, err: LoopwrightError | None, note: str = "") -> None:
         """Show the parse error in red, else ``note`` (new parameter names) in grey."""
-        self.error.setStyleSheet(ERROR_STYLE if err else NOTE_STYLE)
+        self.error.setStyleSheet(error_style() if err else NOTE_STYLE)
         self.error.setText(error_line(err) if err else note)
         self.error.setVisible(err is not None or bool(note))
-        self.edit.setStyleSheet("QLineEdit { border: 1px solid #c62828; }" if err else "")
+        self.edit.setStyleSheet(f"QLineEdit {{ border: 1px solid {meaning_colour('unstable').name()}; }}" if err else "")
 
     def set_text(self, text: str) -> None:
         if self.edit.text() != text:
@@ -222,7 +221,7 @@ class Inspector(QWidget):
         self.declare.setToolTip("Declare the name as a parameter and keep the text as typed")
         self.declare.hide()
         self.refusal = QLabel()
-        self.refusal.setStyleSheet(ERROR_STYLE)
+        self.refusal.setStyleSheet(error_style())
         self.refusal.setWordWrap(True)
         self.refusal.hide()
 

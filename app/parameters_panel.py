@@ -11,7 +11,7 @@ from dataclasses import replace
 from functools import lru_cache
 
 from PySide6.QtCore import Qt, QTimer, Signal
-from PySide6.QtGui import QBrush, QColor, QUndoStack
+from PySide6.QtGui import QBrush, QUndoStack
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QButtonGroup,
@@ -29,7 +29,7 @@ from PySide6.QtWidgets import (
 )
 
 from app.document.commands import SetAnalysisCommand, SetParameterCommand, SetTuningParameterCommand, push
-from app.theme import figure_font
+from app.theme import error_style, figure_font, meaning_colour
 from core.algebra.expression import expression_parameters
 from core.algebra.numbers import read_value
 from core.errors import ExpressionError, LoopwrightError
@@ -39,8 +39,6 @@ COLUMNS = ("Parameter", "Nominal", "Min", "Max", "Tolerance", "Tune")
 FIELDS = {1: "nominal", 2: "minimum", 3: "maximum"}
 TOLERANCE_COLUMN, TUNE_COLUMN = 4, 5
 DECAY_MODES = tuple((mode, w.name[:1].upper() + w.name[1:], w.unit, w.rule) for mode, w in DECAY_WORDS.items())
-MISSING_COLOUR = QColor("#c62828")
-ERROR_STYLE = "color: #c62828; font-size: 8.5pt;"
 
 
 def number_text(value: float) -> str:
@@ -114,7 +112,7 @@ class ParametersPanel(QWidget):
         self.tune_group = QButtonGroup(self)
         self.tune_group.setExclusive(True)
         self.problem = QLabel()
-        self.problem.setStyleSheet(ERROR_STYLE)
+        self.problem.setStyleSheet(error_style())
         self.problem.setWordWrap(True)
         self.problem.hide()
 
@@ -197,7 +195,7 @@ class ParametersPanel(QWidget):
         for row, name in enumerate(names):
             p = d.parameters.get(name)
             title = self.table.item(row, 0)
-            title.setForeground(QBrush(MISSING_COLOUR) if p is None else self.palette().text())
+            title.setForeground(QBrush(meaning_colour("unstable")) if p is None else self.palette().text())
             if p is None:
                 title.setText(f"{name}  — no value")
                 title.setToolTip(f"{name} is used in a block but has no value: type a nominal value")

@@ -26,6 +26,7 @@ from app.panels.common import MINUS, math_html, number, pole_number, pole_size
 from app.panels.polynomial_panel import factored
 from app.panels.range_panel import how_lost, range_intervals_html, robust_html
 from app.panels.routh_panel import entry_display, evaluate_entry, power_label
+from app.theme import MEANING_COLOURS, meaning_colour
 from core.algebra.polynomial import to_fmpq
 from core.analysis.report import CAUTION
 from core.errors import notice_kind
@@ -34,25 +35,31 @@ from core.present.report_text import distance_phrase
 
 ROLE_NAMES = {"gain": "Gain", "controller": "Controller", "actuator": "Actuator", "plant": "Plant",
               "sensor": "Sensor", "other": "Other"}
-STYLE = """
-body { font-family: 'DejaVu Sans', sans-serif; font-size: 9.5pt; color: #1b1f24; }
-h1 { font-size: 17pt; margin: 0 0 4px 0; }
-h2 { font-size: 12.5pt; margin: 16px 0 5px 0; color: #1f4f7a; border-bottom: 1px solid #c9ced6; }
-h3 { font-size: 10pt; margin: 8px 0 3px 0; }
-p { margin: 3px 0; }
-table.grid { border-collapse: collapse; margin: 4px 0; }
-table.grid th { background-color: #eef1f5; font-weight: bold; text-align: left; }
-table.grid td, table.grid th { border: 1px solid #c9ced6; padding: 3px 7px; }
-td.first { background-color: #eef4fb; }
-td.special { background-color: #fdf3dc; }
-.num { font-family: 'DejaVu Sans Mono', monospace; }
-.math { font-family: 'DejaVu Serif', serif; }
-.muted { color: #5d6470; }
-.bad { color: #c0392b; font-weight: bold; }
-.good { color: #1b7f3b; font-weight: bold; }
-.warn { color: #8a4b00; }
-table.caution { border-collapse: collapse; margin: 8px 0 6px 0; }
-table.caution td { background-color: #fff4dc; border: 2px solid #d99a1e; padding: 7px 10px; }
+
+
+def report_style() -> str:
+    """The report's CSS, in the light scheme's colours (app.theme.MEANING_COLOURS): a report is
+    read on paper or a white page whatever the window's scheme."""
+    c = {name: meaning_colour(name, dark=False).name() for name in MEANING_COLOURS}
+    return f"""
+body {{ font-family: 'DejaVu Sans', sans-serif; font-size: 9.5pt; color: {c['marker']}; }}
+h1 {{ font-size: 17pt; margin: 0 0 4px 0; }}
+h2 {{ font-size: 12.5pt; margin: 16px 0 5px 0; color: {c['heading']}; border-bottom: 1px solid {c['rule']}; }}
+h3 {{ font-size: 10pt; margin: 8px 0 3px 0; }}
+p {{ margin: 3px 0; }}
+table.grid {{ border-collapse: collapse; margin: 4px 0; }}
+table.grid th {{ background-color: {c['header']}; font-weight: bold; text-align: left; }}
+table.grid td, table.grid th {{ border: 1px solid {c['rule']}; padding: 3px 7px; }}
+td.first {{ background-color: {c['tint']}; }}
+td.special {{ background-color: {c['special']}; }}
+.num {{ font-family: 'DejaVu Sans Mono', monospace; }}
+.math {{ font-family: 'DejaVu Serif', serif; }}
+.muted {{ color: {c['muted']}; }}
+.bad {{ color: {c['unstable']}; font-weight: bold; }}
+.good {{ color: {c['good']}; font-weight: bold; }}
+.warn {{ color: {c['warning']}; }}
+table.caution {{ border-collapse: collapse; margin: 8px 0 6px 0; }}
+table.caution td {{ background-color: {c['caution']}; border: 2px solid {c['caution_rule']}; padding: 7px 10px; }}
 """
 
 
@@ -186,7 +193,7 @@ def polynomial_html(inputs: ReportInputs) -> str:
     if analysed != report.polynomial:
         rows.append(["Other parameters at nominal", f"<span class='math'>{math_html(analysed)}</span>"])
     fac = factored(report.analysed)
-    rows.append(["Factored over Q", f"<span class='math'>{math_html(fac)}</span>" if fac
+    rows.append(["Factored (rational coefficients)", f"<span class='math'>{math_html(fac)}</span>" if fac
                  else "<span class='muted'>does not factor over the rationals</span>"])
     transfer = report.transfer_function
     if transfer:
@@ -434,5 +441,5 @@ def report_html(inputs: ReportInputs) -> str:
                   step_html(inputs, step), requirements_html(inputs, step), extra_html(inputs),
                   warnings_html(inputs)]
     return ("<!DOCTYPE html><html><head><meta charset='utf-8'>"
-            f"<title>{esc(inputs.diagram.name)} — stability report</title><style>{STYLE}</style></head>"
+            f"<title>{esc(inputs.diagram.name)} — stability report</title><style>{report_style()}</style></head>"
             f"<body>{''.join(parts)}</body></html>")

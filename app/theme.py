@@ -25,6 +25,35 @@ ROLE_COLOURS = {
 }
 
 
+# Colours by meaning, for panels, plots, messages and the report (light, dark): one table.
+MEANING_COLOURS = {
+    "stable": ("#2e9e5b", "#4cc47e"), "decay": ("#1f7fb8", "#5aa9e0"), "unstable": ("#c0392b", "#ff7b6b"),
+    "rhp": ("#fbe3e0", "#4a2a2a"), "tint": ("#eef4fb", "#243040"),
+    "special": ("#fdf3dc", "#3e3520"), "marker": ("#1b1f24", "#e8eaed"), "muted": ("#5d6470", "#9aa1ab"),
+    "path": ("#9aa4b1", "#6f7886"), "pole": ("#1b1f24", "#e8eaed"), "zero": ("#4a6fa5", "#8fb4ea"),
+    "warning": ("#a35d00", "#f0b060"), "axis": ("#6b7380", "#9aa1ab"), "heading": ("#1f4f7a", "#8fb4ea"),
+    "rule": ("#c9ced6", "#3a3f47"), "header": ("#eef1f5", "#2a2e35"), "good": ("#1b7f3b", "#4cc47e"),
+    "caution": ("#fff4dc", "#3e3520"), "caution_rule": ("#d99a1e", "#d99a1e"),
+    "logo": ("#1f7a78", "#1f7a78"), "logo_mark": ("#f2b134", "#f2b134"),
+}
+
+
+def meaning_colour(name: str, dark: bool | None = None) -> QColor:
+    """The colour of a meaning (``"unstable"``, ``"decay"``...) in the light or dark scheme
+    (default: the running application's).
+
+    >>> meaning_colour("unstable", dark=False).name(), meaning_colour("unstable", dark=True).name()
+    ('#c0392b', '#ff7b6b')
+    """
+    light, night = MEANING_COLOURS[name]
+    return QColor(night if (system_is_dark() if dark is None else dark) else light)
+
+
+def error_style() -> str:
+    """Style sheet of a one-line error message under an entry field."""
+    return f"color: {meaning_colour('unstable').name()}; font-size: 8.5pt;"
+
+
 @dataclass(frozen=True)
 class Theme:
     """Every colour the canvas draws with; one instance for light, one for dark."""

@@ -12,7 +12,9 @@ PASS/MISS, headed by the machine it ran on:
    (:mod:`bench.app_row`);
 
 and, as rows ``robust`` and ``plane``, the robust range (:mod:`bench.robust_row`) and the stability
-plane of a degree-6 loop in two controller gains at 200 x 200 (:mod:`bench.plane_row`).
+plane of a degree-6 loop in two controller gains at 200 x 200 (:mod:`bench.plane_row`); as row
+``delay``, the certified stable range and delay margin of a degree-6 loop with one dead time
+(:mod:`bench.delay_row`).
 
 Options: ``--quick`` (fewer repeats, shorter caps; about a minute), ``--json-out PATH`` (every
 figure and raw time as JSON), ``--rows 1,2`` (only some rows). Inputs are invented and fixed

@@ -7,7 +7,7 @@ import os
 import sys
 import time
 
-ROWS = ("1", "2", "3", "4", "robust", "plane", "sampled")  # row 5 comes with row 3
+ROWS = ("1", "2", "3", "4", "robust", "plane", "delay", "sampled")  # row 5 comes with row 3
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -17,8 +17,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--json-out", metavar="PATH", help="also write every figure and raw time as JSON")
     parser.add_argument("--rows", default=",".join(ROWS),
                         help="comma-separated rows to run (1 stable range, 2 reduction, 3 pole paths and "
-                             "5 their floor, 4 app, robust the robust range, plane the stability plane, "
-                             "sampled the sampled-data loop); default all")
+                             "5 their floor, 4 app, robust the robust range, plane the stability plane, delay a "
+                             "loop with dead time, sampled the sampled-data loop); default all")
     return parser
 
 
@@ -32,6 +32,7 @@ def main(argv: list[str] | None = None) -> int:
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     from bench import (
         app_row,
+        delay_row,
         plane_row,
         pole_paths_row,
         reduction_row,
@@ -41,7 +42,7 @@ def main(argv: list[str] | None = None) -> int:
     )
     from bench.table import format_table, machine
     runners = {"1": stable_range_row.run, "2": reduction_row.run, "3": pole_paths_row.run, "4": app_row.run,
-               "robust": robust_row.run, "plane": plane_row.run,
+               "robust": robust_row.run, "plane": plane_row.run, "delay": delay_row.run,
                "sampled": sampled_row.run}
     info = machine()
     start = time.perf_counter()

@@ -226,6 +226,8 @@ def run(args) -> int:
     if (args.poly is None) == (args.project is None):
         raise UsageError("E501", "give either a project file or --poly TEXT", where="command line")
     axes = plane_option.read_plane_option(args.plane, args.poly is not None, exact_value) if args.plane is not None else None
+    if args.poly is not None and _has_delay(args.poly):
+        return _run_delay(args, at)
     if args.poly is not None:
         requirements = _requirements(args, Requirements())
         mode, value = decay or ("sigma", 0.0)
@@ -270,6 +272,45 @@ def _run_sampled(args, at: dict[str, object], decay) -> int:
     report = z_report(args, at, decay, exact_value)
     _emit(discrete_output(report, args.json))
     return 1 if args.fail_unstable and not _stable_enough(report) else 0
+
+
+DELAY_OPTIONS_REFUSED = ("decay", "time_to_half", "settling", "min_damping", "max_overshoot",
+                         "min_gain_margin", "tolerance", "plane")
+
+
+def _has_delay(text: str) -> bool:
+    """Whether a typed polynomial carries a delay factor (a text that cannot be read goes the
+    polynomial way, which names its error; an error in a delay factor itself is raised here)."""
+    from core.algebra.expression import parse_quasi_polynomial
+
+    try:
+        return parse_quasi_polynomial(text, where="polynomial").delayed
+    except ExpressionError as err:
+        if err.code.startswith("E44"):
+            raise
+        return False
+
+
+def _run_delay(args, at) -> int:
+    """A quasi-polynomial: the certified delay analysis (core.analysis.delay_report)."""
+    from core.analysis.delay_report import check_quasi_polynomial
+    from core.present.delay_text import delay_headline, delay_report_text
+    from core.present.report_json import json_text
+
+    for name in DELAY_OPTIONS_REFUSED:
+        if getattr(args, name) not in (None, []):
+            option = "--" + name.replace("_", "-")
+            raise UsageError("E445", f"{option} is not available for a loop with dead time", where=option)
+    report = check_quasi_polynomial(args.poly, parameter=args.param, at=at)
+    _emit(json_text({**report.to_dict(), "headline": delay_headline(report)}) if args.json
+          else delay_report_text(report))
+    return 1 if args.fail_unstable and not _delay_stable_enough(report) else 0
+
+
+def _delay_stable_enough(report) -> bool:
+    if report.nominal_stable is not None:
+        return report.nominal_stable
+    return report.stable_range is not None and bool(report.stable_range.intervals)
 
 
 def _output(report, outcome, as_json: bool, plane=None) -> str:

@@ -1,5 +1,5 @@
 """Inputs that used to take minutes: the verdict and the stable range never wait for a displayed
-symbolic array, Delta_{n-1} comes from evaluation and interpolation, the Hurwitz test from ball
+symbolic array, Delta_{n-1} comes from evaluation and interpolation (or one bivariate resultant), the Hurwitz test from ball
 arithmetic with an exact fallback. Speeds are measured in bench/ (never asserted here).
 
 References: (s + 1)^n + K has roots -1 + K^(1/n) e^(j pi (2m + 1)/n) for K > 0 (hand), so it is
@@ -16,6 +16,7 @@ import pytest
 import sympy
 from flint import fmpq, fmpq_poly
 
+import core.analysis.stable_range as stable_range_module
 from core.algebra.polynomial import ParametricPolynomial
 from core.analysis.report import check_polynomial, check_project
 from core.analysis.routh import DISPLAY_BITS, is_hurwitz, routh_array
@@ -38,8 +39,11 @@ def _hurwitz_matrix_delta(coeffs: list, n: int) -> sympy.Expr:
     return sympy.expand(m.det())
 
 
+@pytest.mark.parametrize("path", ["interpolation", "bivariate resultant"])
 @pytest.mark.parametrize("seed", range(12))
-def test_delta_by_interpolation_has_the_roots_of_the_hurwitz_determinant(seed):
+def test_delta_by_interpolation_has_the_roots_of_the_hurwitz_determinant(seed, path, monkeypatch):
+    if path == "bivariate resultant":  # the way taken when interpolation would need many points
+        monkeypatch.setattr(stable_range_module, "MAX_INTERPOLATION_POINTS", -1)
     rnd = random.Random(seed)
     n = rnd.randint(2, 7)
     coeffs = [sympy.Integer(rnd.randint(1, 4))]
@@ -135,3 +139,22 @@ def test_a_loop_of_order_above_the_limit_is_refused_before_any_work():
     with pytest.raises(AnalysisError) as err:
         check_project(nested_loops_diagram(500))
     assert err.value.code == "E410" and f"up to {MAX_LOOP_ORDER}" in err.value.message
+
+
+@pytest.mark.parametrize("n", [24, 36])
+def test_power_plus_s_range_is_right_either_side_of_its_end(n):
+    """(s + K)^n + s, once over two minutes at n = 80 (Delta_{n-1} of K-degree ~n^2/2 by one
+    bivariate resultant): the single end is checked by mpmath's roots at 80 digits, 1e-12 either
+    side of it (the rightmost pair's real part changes sign there)."""
+    report = check_polynomial(f"(s+K)^{n} + s", "K")
+    (end,) = [b for pair in report.stable_range.intervals for b in pair if b is not None]
+    near = end.narrowed(fmpq(1, 10 ** 30))
+    mid = (near.lo + near.hi) / 2
+    mpmath.mp.dps = 80
+    for side in (-1, 1):
+        v = mid + side * fmpq(1, 10 ** 12)
+        value = mpmath.mpf(int(v.p)) / int(v.q)
+        coeffs = [mpmath.binomial(n, i) * value ** i for i in range(n + 1)]
+        coeffs[n - 1] += 1
+        roots = mpmath.polyroots(coeffs, maxsteps=400, extraprec=400)
+        assert report.stable_range.contains(v) == all(r.real < 0 for r in roots)

@@ -77,3 +77,15 @@ def test_the_checker_sees_an_upward_import(tmp_path):
     finally:
         fake.unlink()
     assert "core.analysis.report" in names
+
+
+def test_colours_are_written_in_one_table():
+    """Every colour of the window and the report comes from app/theme.py (one light and one dark
+    value per meaning or role): no hex colour literal elsewhere in app/."""
+    import re
+    literal = re.compile(r"['\"]#[0-9a-fA-F]{6}['\"]|#[0-9a-fA-F]{6}\b")
+    found = [f"{path.relative_to(ROOT)}:{number}" for path in sorted((ROOT / "app").rglob("*.py"))
+             if path.name != "theme.py"
+             for number, line in enumerate(path.read_text(encoding="utf-8").splitlines(), 1)
+             if literal.search(line)]
+    assert found == []

@@ -36,8 +36,11 @@ from app.document.commands import (
     Macro,
     ModelCommand,
     RemoveParameterCommand,
+    SetAnalysisCommand,
     SetParameterCommand,
+    SetRequirementsCommand,
     SetTuningParameterCommand,
+    push,
 )
 from core.algebra.expression import read_block, typed_names
 from core.model.diagram import Diagram, Parameter
@@ -48,6 +51,30 @@ NEW_PARAMETER = {"nominal": 1.0, "minimum": 0.0, "maximum": 10.0}
 def set_nominal(diagram: Diagram, undo_stack: QUndoStack, name: str, value: float) -> None:
     """Make ``value`` the nominal of parameter ``name``: one undoable command."""
     undo_stack.push(SetParameterCommand(diagram, replace(diagram.parameters[name], nominal=float(value))))
+
+
+def set_nominals(diagram: Diagram, undo_stack: QUndoStack, values: dict[str, float], title: str) -> None:
+    """Several parameters' nominal values in one undo step (a point picked on the stability plane)."""
+    commands = [SetParameterCommand(diagram, replace(diagram.parameters[name], nominal=float(v)))
+                for name, v in values.items()]
+    push(undo_stack, Macro(title, commands))
+
+
+def edit_requirement(diagram: Diagram, undo_stack: QUndoStack, field: str, value: float | None,
+                     gain_margin_unit: str) -> None:
+    """Set one requirement (``min_damping``, ``max_overshoot``, ``min_gain_margin``; None clears
+    it): one undoable command, none when nothing changes. Raises LoopwrightError when refused."""
+    old = diagram.requirements
+    new = old.with_changes(**{field: value, "gain_margin_unit": gain_margin_unit})
+    if new != old:
+        push(undo_stack, SetRequirementsCommand(diagram, new))
+
+
+def edit_analysis(diagram: Diagram, undo_stack: QUndoStack, **changes) -> None:
+    """Change analysis settings (decay value, plane axes...): one undoable command, none when
+    nothing changes. Raises LoopwrightError when refused."""
+    if any(getattr(diagram.analysis, key) != value for key, value in changes.items()):
+        push(undo_stack, SetAnalysisCommand(diagram, **changes))
 
 
 def commit_nominals(controller, diagram: Diagram, undo_stack: QUndoStack) -> None:

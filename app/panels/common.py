@@ -15,7 +15,7 @@ from PySide6.QtCore import QEvent, QSize, Qt
 from PySide6.QtGui import QColor
 from PySide6.QtWidgets import QLabel, QSizePolicy, QWidget
 
-from app.theme import figure_font, math_font, system_is_dark
+from app.theme import figure_font, math_font, meaning_colour, system_is_dark
 from core.present import MINUS
 
 
@@ -64,16 +64,8 @@ def dark() -> bool:
 
 
 def colour(name: str) -> QColor:
-    """Panel colours by meaning, matched to the light or dark palette."""
-    light = {"stable": "#2e9e5b", "decay": "#1f7fb8", "unstable": "#c0392b", "rhp": "#fbe3e0",
-             "forbidden": "#eef3f8", "tint": "#eef4fb", "special": "#fdf3dc", "marker": "#1b1f24",
-             "muted": "#5d6470", "path": "#9aa4b1", "pole": "#1b1f24", "zero": "#4a6fa5",
-             "warning": "#a35d00", "axis": "#6b7380"}
-    night = {"stable": "#4cc47e", "decay": "#5aa9e0", "unstable": "#ff7b6b", "rhp": "#4a2a2a",
-             "forbidden": "#26303b", "tint": "#243040", "special": "#3e3520", "marker": "#e8eaed",
-             "muted": "#9aa1ab", "path": "#6f7886", "pole": "#e8eaed", "zero": "#8fb4ea",
-             "warning": "#f0b060", "axis": "#9aa1ab"}
-    return QColor((night if dark() else light)[name])
+    """Panel colours by meaning, matched to the light or dark palette (app.theme.MEANING_COLOURS)."""
+    return meaning_colour(name)
 
 
 @lru_cache(maxsize=2)

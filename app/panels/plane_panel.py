@@ -17,7 +17,7 @@ from PySide6.QtCore import Qt
 from PySide6.QtGui import QPalette
 from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
-from app.document.commands import SetAnalysisCommand, SetParameterCommand
+from app.document.editing import edit_analysis, set_nominals
 from app.panels.common import MessageLabel, colour, is_palette_change, number
 from app.theme import figure_font
 from core.errors import LoopwrightError
@@ -186,11 +186,8 @@ class PlanePanel(QWidget):
         changes = {key: name}
         if name is not None and name == other:  # the same parameter twice: swap the axes instead
             changes = {"plane_x": self.diagram.analysis.plane_y, "plane_y": self.diagram.analysis.plane_x}
-        self._push(SetAnalysisCommand(self.diagram, **changes))
-
-    def _push(self, command) -> None:
         try:
-            self.undo_stack.push(command)
+            edit_analysis(self.diagram, self.undo_stack, **changes)
         except LoopwrightError as err:
             self.message.show_message(str(err))
 
@@ -343,10 +340,9 @@ class PlanePanel(QWidget):
         if not all(p.minimum <= q.nominal <= p.maximum for p, q in zip(params, new, strict=True)):
             self._draw_nominal()  # outside the rectangle: the marker goes back
             return
-        self.undo_stack.beginMacro(f"set {plane.x} = {number(new[0].nominal)}, {plane.y} = {number(new[1].nominal)}")
+        title = f"set {plane.x} = {number(new[0].nominal)}, {plane.y} = {number(new[1].nominal)}"
         try:
-            for p in new:
-                self._push(SetParameterCommand(self.diagram, p))
-        finally:
-            self.undo_stack.endMacro()
+            set_nominals(self.diagram, self.undo_stack, {p.name: p.nominal for p in new}, title)
+        except LoopwrightError as err:
+            self.message.show_message(str(err))
 

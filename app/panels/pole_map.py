@@ -1,5 +1,5 @@
 """Pole map: poles (x) and zeros (o) at the current value, their paths over the tuning range, the
-right half plane shaded pale red, the decay line dashed with its forbidden strip, hover details,
+right half plane shaded pale red, the decay requirement as a labelled dotted line (no band), hover details,
 and a slider with a spin box for the current value.
 
 Plot items are made once; a new result or value only calls ``setData``. A slider frame costs one
@@ -151,11 +151,11 @@ class PoleMap(QWidget):
         for axis in ("bottom", "left"):
             item.getAxis(axis).enableAutoSIPrefix(False)  # 1/s and rad/s always, never m1/s or mrad/s
         self.rhp = pg.LinearRegionItem((0, 1), movable=False, pen=pg.mkPen(None))
-        self.forbidden = pg.LinearRegionItem((-1, 0), movable=False, pen=pg.mkPen(None))
-        self.decay_line = pg.InfiniteLine(0, angle=90, movable=False)
+        self.decay_line = pg.InfiniteLine(0, angle=90, movable=False, label="", labelOpts={
+            "position": 0.93, "anchors": [(1, 0.5), (1, 0.5)], "rotateAxis": (1, 0)})
         self.imag_axis = pg.InfiniteLine(0, angle=90, movable=False)
         self.real_axis = pg.InfiniteLine(0, angle=0, movable=False)
-        for it in (self.rhp, self.forbidden, self.decay_line, self.imag_axis, self.real_axis):
+        for it in (self.rhp, self.decay_line, self.imag_axis, self.real_axis):
             it.setZValue(-10)
             plot.addItem(it, ignoreBounds=True)
         self.paths = pg.PlotDataItem([], [], connect="finite")
@@ -178,8 +178,8 @@ class PoleMap(QWidget):
             plot.getAxis(axis).setPen(pg.mkPen(colour("axis")))
             plot.getAxis(axis).setTextPen(pg.mkPen(text))
         self.rhp.setBrush(pg.mkBrush(colour("rhp")))
-        self.forbidden.setBrush(pg.mkBrush(colour("forbidden")))
-        self.decay_line.setPen(pg.mkPen(colour("decay"), width=1.4, style=Qt.PenStyle.DashLine))
+        self.decay_line.setPen(pg.mkPen(colour("decay"), width=2.2, style=Qt.PenStyle.DotLine))
+        self.decay_line.label.setColor(colour("decay"))
         self.imag_axis.setPen(pg.mkPen(colour("axis"), width=1.2))
         self.real_axis.setPen(pg.mkPen(colour("axis"), width=0.8))
         self.paths.setPen(pg.mkPen(colour("path"), width=1))
@@ -227,10 +227,9 @@ class PoleMap(QWidget):
         self._mark_crossings(report)
         sigma = report.decay.sigma if report.decay is not None else None
         self.decay_line.setVisible(sigma is not None)
-        self.forbidden.setVisible(sigma is not None)
         if sigma is not None:
             self.decay_line.setValue(-sigma)
-            self.forbidden.setRegion((-sigma, 0))
+            self.decay_line.label.setFormat(f"decay limit σ = {number(sigma)} 1/s")
         if tuning is not None:
             self._range = (tuning.minimum, tuning.maximum)
             self.name_label.setText(tuning.name)

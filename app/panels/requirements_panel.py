@@ -6,6 +6,9 @@ The decay requirement is the model's own (analysis settings; its mode is chosen 
 panel). The gain margin is the factor by which the tuning parameter may *rise* before the loop
 loses stability — the stable range's rise factor; when the parameter is not a gain it is a
 parameter margin in the same sense.
+
+At the nominal value the verdicts are the analysis' own (judged on its worker with the headline);
+at any other current value they are judged on the current-value worker (:mod:`app.value_worker`).
 """
 from __future__ import annotations
 
@@ -14,9 +17,10 @@ import math
 from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import QComboBox, QGridLayout, QLabel, QLineEdit, QVBoxLayout, QWidget
 
-from app.document.commands import SetAnalysisCommand, SetRequirementsCommand, push
+from app.document.editing import edit_analysis, edit_requirement
 from app.panels.common import MINUS, MessageLabel, Readout, colour, number, number_css
 from app.theme import figure_font, label_font
+from app.value_worker import ValueWorker
 from core.analysis.requirements import Verdict, evaluate, intervals_text
 from core.errors import LoopwrightError
 from core.model.diagram import DECAY_WORDS, Diagram
@@ -162,6 +166,7 @@ class RequirementsPanel(QWidget):
         self._timer.setSingleShot(True)
         self._timer.setInterval(0)
         self._timer.timeout.connect(self._update_verdicts)
+        self._values = ValueWorker(self)
         self._fill_editors()
 
     # -- document -----------------------------------------------------------------------------------
@@ -208,24 +213,12 @@ class RequirementsPanel(QWidget):
         except ValueError:
             self._complain(f"{self.labels[key].text()} '{edit.text()}' is not a number")
             return
-        if key == "decay":
-            value = value or 0.0
-            if value != self.diagram.analysis.decay_value:
-                self._push(SetAnalysisCommand(self.diagram, decay_value=value))
-            return
-        field = {"damping": "min_damping", "overshoot": "max_overshoot", "gain margin": "min_gain_margin"}[key]
-        old = self.diagram.requirements
         try:
-            new = old.with_changes(**{field: value, "gain_margin_unit": self.gm_unit.currentData()})
-        except LoopwrightError as err:
-            self._complain(str(err))
-            return
-        if new != old:
-            self._push(SetRequirementsCommand(self.diagram, new))
-
-    def _push(self, command) -> None:
-        try:
-            push(self.undo_stack, command)
+            if key == "decay":
+                edit_analysis(self.diagram, self.undo_stack, decay_value=value or 0.0)
+            else:
+                field = {"damping": "min_damping", "overshoot": "max_overshoot", "gain margin": "min_gain_margin"}[key]
+                edit_requirement(self.diagram, self.undo_stack, field, value, self.gm_unit.currentData())
         except LoopwrightError as err:
             self._complain(str(err))
             return
@@ -254,16 +247,28 @@ class RequirementsPanel(QWidget):
         result = self._result
         td = getattr(result, "time_domain", None) if result is not None else None
         if result is None or result.report is None or td is None:
-            self.verdicts = []
-        else:
-            report = result.report
-            value = self._value if report.parameter is not None else None
-            nominal = result.tuning_range.nominal if result.tuning_range is not None and report.parameter else None
-            ready = result.display.get(OUTCOME_KEY)
-            if ready is not None and value == nominal:  # judged on the worker with the headline
-                self.verdicts = ready.verdicts
-            else:
-                self.verdicts = evaluate(td.requirements, report, reference_step(result, value), value)
+            self._values.forget()
+            self._show_verdicts(result, [], None)
+            return
+        report = result.report
+        value = self._value if report.parameter is not None else None
+        nominal = result.tuning_range.nominal if result.tuning_range is not None and report.parameter else None
+        ready = result.display.get(OUTCOME_KEY)
+        if ready is not None and value == nominal:  # judged on the worker with the headline
+            self._values.forget()
+            self._show_verdicts(result, ready.verdicts, None)
+            return
+        self._values.submit(lambda: evaluate(td.requirements, report, reference_step(result, value), value),
+                            lambda verdicts, error: self._show_verdicts(result, verdicts, error))
+
+    def _show_verdicts(self, result, verdicts: list[Verdict] | None, error: Exception | None) -> None:
+        if result is not self._result:
+            return  # a newer analysis arrived meanwhile
+        if result is not None:
+            problem = None if error is None else (str(error) if isinstance(error, LoopwrightError) else
+                                                  f"Requirements not judged at this value ({type(error).__name__}).")
+            self.error.show_message(problem or result.message)
+        self.verdicts = verdicts or []
         by_name = {v.name: v for v in self.verdicts}
         for key in ROWS:
             verdict = by_name.get(key)

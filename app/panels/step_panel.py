@@ -3,9 +3,9 @@
 requirement implies, final ± A e^(−σt) with A the step's initial deviation |y(0) − final|.
 
 The transfer functions and the responses at the nominal value come precomputed with each
-AnalysisResult (``result.time_domain``, ``result.steps``); a new current value re-simulates (a few
-milliseconds) at most once per :data:`THROTTLE_MS` while the slider moves, at its latest value, so
-no slider frame waits for a simulation it would draw over at once.
+AnalysisResult (``result.time_domain``, ``result.steps``); a new current value is simulated on the
+current-value worker (:mod:`app.value_worker`, off the GUI thread, newest request only), asked at
+most once per :data:`THROTTLE_MS` while the slider moves, and drawn when it arrives.
 """
 from __future__ import annotations
 
@@ -17,13 +17,14 @@ from PySide6.QtWidgets import QComboBox, QGridLayout, QHBoxLayout, QLabel, QVBox
 
 from app.panels.common import MessageLabel, Readout, colour, number
 from app.theme import figure_font, label_font
+from app.value_worker import ValueWorker
 from core.analysis.time_response import UNSTABLE_NOTE, StepResponse
 from core.errors import LoopwrightError
 
 THROTTLE_MS = 100
 
 READOUTS = (("overshoot", "Overshoot"), ("rise_time", "Rise time 10–90 %"),
-            ("settling_time", "Settling time 2 %"), ("peak", "Peak"),
+            ("settling_time", "Settling 2 % (simulated)"), ("peak", "Peak"),
             ("final_value", "Steady-state value"), ("steady_state_error", "Steady-state error"))
 
 
@@ -107,6 +108,7 @@ class StepPanel(QWidget):
         self._timer.setSingleShot(True)
         self._timer.setInterval(THROTTLE_MS)
         self._timer.timeout.connect(self._recompute)
+        self._values = ValueWorker(self)
 
     def _make_items(self) -> None:
         plot = self.plot
@@ -192,10 +194,22 @@ class StepPanel(QWidget):
             self._clear(td.errors[node_id])
             return
         value = self._value if result.report.parameter is not None else None
-        try:
-            step = result.step_at(node_id, value)
-        except LoopwrightError as exc:
-            self._clear(str(exc))
+        if result.step_ready(node_id, value):  # the analysis' own, at the nominal value
+            self._values.forget()
+            try:
+                self._show_step(result, result.step_at(node_id, value), None)
+            except LoopwrightError as exc:
+                self._show_step(result, None, exc)
+            return
+        self._values.submit(lambda: result.step_at(node_id, value),
+                            lambda step, error: self._show_step(result, step, error))
+
+    def _show_step(self, result, step: StepResponse | None, error: Exception | None) -> None:
+        if result is not self._result:
+            return  # a newer analysis arrived meanwhile
+        if step is None:
+            self._clear(str(error) if isinstance(error, LoopwrightError)
+                        else f"No step response at this value ({type(error).__name__}).")
             return
         self.step = step
         self.message.show_message(None)

@@ -64,6 +64,7 @@ import sympy
 from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
 
 from core.algebra.polynomial import S, mpoly_context
+from core.algebra.quasi import Delay, QuasiPolynomial
 from core.errors import ExpressionError
 
 __all__ = [
@@ -85,6 +86,7 @@ __all__ = [
     "parse_expression",
     "parse_fraction",
     "parse_polynomial",
+    "parse_quasi_polynomial",
     "read_block",
     "to_mpoly",
     "typed_names",
@@ -99,6 +101,8 @@ MAX_NESTING = 100
 MAX_TERMS = 2_000  # terms of a result
 MAX_TERM_BOUND = 50_000  # a priori bound on an expansion, checked before building it
 MAX_NAME = 64
+DELAY_FUNCTION = "exp"  # read as a delay factor by parse_quasi_polynomial only
+_DELAY_PREFIX = "_delay"  # placeholder symbols for delay factors (typed names never start with '_')
 _MAX_DIGITS = 400  # significant digits of one literal
 
 RESERVED = {
@@ -176,7 +180,7 @@ def _number_value(match: re.Match, where: str | None, column: int) -> sympy.Rati
     return value
 
 
-def _tokenize(text: str, where: str | None) -> list[_Token]:
+def _tokenize(text: str, where: str | None, delays: bool = False) -> list[_Token]:
     tokens: list[_Token] = []
     i, n = 0, len(text)
     while i < n:
@@ -189,12 +193,16 @@ def _tokenize(text: str, where: str | None) -> list[_Token]:
                                                  and text[i + 1].isdigit())):
             m = _NUMBER.match(text, i)
             assert m is not None  # a digit or '.digit' always starts a number
-            _check_number_end(text, m, where, column)
+            _check_number_end(text, m, where, column, delays)
             tokens.append(_Token("num", m.group(0), column, _number_value(m, where, column)))
             i = m.end()
         elif ch.isascii() and (ch.isalpha() or ch == "_"):
             m = _NAME.match(text, i)
             assert m is not None  # a letter or '_' always starts a name
+            if delays and m.group(0) == DELAY_FUNCTION:
+                tokens.append(_Token("exp", m.group(0), column))
+                i = m.end()
+                continue
             _check_name(m.group(0), where, column)
             tokens.append(_Token("name", m.group(0), column))
             i = m.end()
@@ -231,12 +239,14 @@ def _superscript_power(text: str, start: int, tokens: list[_Token], where: str |
     return end
 
 
-def _check_number_end(text: str, match: re.Match, where: str | None, column: int) -> None:
+def _check_number_end(text: str, match: re.Match, where: str | None, column: int, delays: bool = False) -> None:
     """E112 for a number run into a name that starts with e (``1e3e3``, ``2e``): it reads as a
-    malformed exponent, not as a product."""
+    malformed exponent, not as a product (when delays are read, ``2exp(-s)`` is a product)."""
     end = match.end()
     if end < len(text) and text[end] in "eE":
         rest = _NAME.match(text, end)
+        if delays and rest is not None and rest.group(0) == DELAY_FUNCTION:
+            return
         shown = text[match.start():rest.end() if rest else end + 1][:30]
         has_exponent = match.group(4) is not None or match.group(7) is not None
         problem = "it has two exponents (write 1e6, not 1e3e3)" if has_exponent else \
@@ -270,12 +280,14 @@ def _check_coefficients(expr: sympy.Expr, where: str | None, column: int | None)
 
 
 class _Parser:
-    def __init__(self, tokens: list[_Token], where: str | None, evaluate: bool = True):
+    def __init__(self, tokens: list[_Token], where: str | None, evaluate: bool = True,
+                 delays: dict[Delay, sympy.Symbol] | None = None):
         self.tokens = tokens
         self.pos = 0
         self.where = where
         self.depth = 0
         self.evaluate = evaluate  # False keeps typed factors apart: (s-1)/(s-1) is not merged to 1
+        self.delays = delays  # delay factors read so far, each as a placeholder symbol (None: refused)
 
     def _neg(self, expr: sympy.Expr) -> sympy.Expr:
         return -expr if self.evaluate else sympy.Mul(sympy.Integer(-1), expr, evaluate=False)
@@ -309,6 +321,9 @@ class _Parser:
         if len(entries) > MAX_DEGREE + 1:
             _fail("E106", f"a coefficient list may have at most {MAX_DEGREE + 1} entries", self.where)
         for column, entry in entries:
+            if _has_delay(entry):
+                _fail("E444", "an entry of a coefficient list cannot hold a delay factor (it depends on s)",
+                      self.where, column)
             if LAPLACE in entry.free_symbols:
                 _fail("E107", "an entry of a coefficient list cannot contain s", self.where, column)
         top = len(entries) - 1
@@ -341,12 +356,15 @@ class _Parser:
                 self._advance()
                 divisor_column = self.tok.column
                 divisor = self._factor()
+                if _has_delay(divisor):
+                    _fail("E444", "a delay factor cannot stand in a divisor: e^(+tau*s) would predict the "
+                          "future", self.where, divisor_column)
                 if _is_identically_zero(divisor, self.where, divisor_column):
                     _fail("E110", "division by zero: the divisor is identically zero",
                           self.where, divisor_column)
                 factors.append(sympy.Pow(divisor, -1, evaluate=self.evaluate))
                 after_division = True
-            elif tok.kind in ("name", "("):
+            elif tok.kind in ("name", "(", "exp"):
                 if after_division:
                     _fail("E102", f"ambiguous: '{tok.text}' follows a division; write the divisor in "
                           "parentheses, e.g. 1/(2 s), or use '*'", self.where, tok.column)
@@ -381,6 +399,8 @@ class _Parser:
         return self._neg(value) if negative else value
 
     def _power(self, base, exponent, base_column: int, column: int) -> sympy.Expr:
+        if _has_delay(exponent):
+            _fail("E444", "a delay factor cannot stand in an exponent", self.where, column)
         if exponent.free_symbols:
             names = ", ".join(sorted(str(x) for x in exponent.free_symbols))
             _fail("E104", f"an exponent must be a whole number from 0 to {MAX_EXPONENT}, "
@@ -403,6 +423,8 @@ class _Parser:
             return tok.value
         if tok.kind == "name":
             return LAPLACE if tok.text == S else sympy.Symbol(tok.text)
+        if tok.kind == "exp":
+            return self._delay_factor(tok)
         if tok.kind == "(":
             if self.depth >= MAX_NESTING:
                 _fail("E109", f"parentheses nested more than {MAX_NESTING} deep", self.where, tok.column)
@@ -416,6 +438,82 @@ class _Parser:
             self._advance()
             return inner
         _fail("E102", f"expected a number, name or '(' but {self._found(tok)}", self.where, tok.column)
+
+
+    def _delay_factor(self, exp_tok: _Token) -> sympy.Expr:
+        """``exp(-tau*s)``, ``exp(-s*tau)``, ``exp(-0.5*s)`` or ``exp(-s)`` as its placeholder symbol."""
+        if self.tok.kind != "(":
+            self._malformed(self.tok)
+        self._advance()
+        sign = self.tok
+        if sign.kind in ("+", "-"):
+            self._advance()
+        amount = self._delay_amount()
+        if self.tok.kind != ")":
+            self._malformed(self.tok)
+        self._advance()
+        if sign.kind != "-" and not amount.is_zero:
+            shown = "s" if amount == Delay.of(fmpq(1)) else f"{amount.text()}*s"
+            _fail("E440", f"exp(+{shown}) is a negative delay (a prediction): a dead time is "
+                  f"written exp(-{shown})", self.where, exp_tok.column)
+        assert self.delays is not None  # "exp" tokens are only made when delays are read
+        if amount not in self.delays:
+            self.delays[amount] = sympy.Symbol(f"{_DELAY_PREFIX}{len(self.delays)}")
+        return self.delays[amount]
+
+    def _delay_amount(self) -> Delay:
+        """The delay inside exp(- ... ): a number or one parameter, times s, in either order."""
+        first = self._advance()
+        if first.kind == "name" and first.text == S:
+            if self.tok.kind in ("*", "/"):
+                divide = self._advance().kind == "/"
+                tok = self._advance()
+                value = self._delay_value(tok)
+                if divide:
+                    return self._delay_ratio(Delay.of(fmpq(1)), value, tok)
+                if self.tok.kind == "/" and not value.parts:
+                    self._advance()
+                    tok = self._advance()
+                    return self._delay_ratio(value, self._delay_value(tok), tok)
+                return value
+            if self.tok.kind in ("name", "num") and self.tok.text != S:
+                return self._delay_value(self._advance())
+            return Delay.of(fmpq(1))
+        amount = self._delay_value(first)
+        if first.kind == "num" and self.tok.kind == "/":
+            self._advance()
+            tok = self._advance()
+            amount = self._delay_ratio(amount, self._delay_value(tok), tok)
+        if self.tok.kind == "*":
+            self._advance()
+        after = self._advance()
+        if not (after.kind == "name" and after.text == S):
+            self._malformed(after)
+        return amount
+
+    def _delay_ratio(self, amount: Delay, divisor: Delay, tok: _Token) -> Delay:
+        """A number over a number (``3/10*s``, ``s/2``)."""
+        if amount.parts or divisor.parts or divisor.constant == 0:
+            self._malformed(tok)
+        return Delay.of(amount.constant / divisor.constant)
+
+    def _delay_value(self, tok: _Token) -> Delay:
+        if tok.kind == "num":
+            value = tok.value
+            assert isinstance(value, sympy.Rational)  # every number token is exact
+            return Delay.of(fmpq(int(value.p), int(value.q)))
+        if tok.kind == "name" and tok.text != S:
+            return Delay.of(tok.text)
+        self._malformed(tok)
+        raise AssertionError  # pragma: no cover - _malformed raises
+
+    def _malformed(self, tok: _Token) -> None:
+        _fail("E441", f"malformed delay factor ({self._found(tok)}): write exp(-0.5*s) or exp(-tau*s), "
+              "a non-negative number or one parameter times s", self.where, tok.column)
+
+
+def _has_delay(expr: sympy.Expr) -> bool:
+    return any(str(x).startswith(_DELAY_PREFIX) for x in expr.free_symbols)
 
 
 def _degree_bounds(expr: sympy.Expr) -> tuple[dict, dict]:
@@ -510,16 +608,17 @@ def _evaluate(expr: sympy.Expr, ctx: fmpq_mpoly_ctx) -> tuple[fmpq_mpoly, fmpq_m
     raise ExpressionError("E107", f"not a rational expression in s and parameters: {type(expr).__name__}")
 
 
-def _parse(text: str, where: str | None, evaluate: bool = True) -> tuple[sympy.Expr, list[_Token]]:
+def _parse(text: str, where: str | None, evaluate: bool = True,
+           delays: dict[Delay, sympy.Symbol] | None = None) -> tuple[sympy.Expr, list[_Token]]:
     if not isinstance(text, str):
         raise TypeError(f"expression text must be str, not {type(text).__name__}")
     if len(text) > MAX_TEXT:
         _fail("E103", f"text too long: {len(text)} characters (at most {MAX_TEXT})", where)
-    tokens = _tokenize(text, where)
+    tokens = _tokenize(text, where, delays is not None)
     if tokens[0].kind == "end":
         _fail("E102", "the expression is empty", where)
     try:
-        expr = _Parser(tokens, where, evaluate).parse()
+        expr = _Parser(tokens, where, evaluate, delays).parse()
     except RecursionError:  # pragma: no cover - MAX_NESTING keeps well below the interpreter limit
         _fail("E109", "expression nested too deeply", where)
     for number in expr.atoms(sympy.Rational):
@@ -587,7 +686,7 @@ class TypedName:
 
 
 @lru_cache(maxsize=4096)
-def typed_names(text: str) -> tuple[TypedName, ...]:
+def typed_names(text: str, delays: bool = False) -> tuple[TypedName, ...]:
     """Each parameter name in ``text`` once, at its first column, in the order typed.
 
     Raises ExpressionError when the text cannot be tokenized.
@@ -596,13 +695,14 @@ def typed_names(text: str) -> tuple[TypedName, ...]:
     (TypedName(name='Kp', column=1), TypedName(name='Ti', column=5))
     """
     seen: dict[str, int] = {}
-    for tok in _tokenize(text, None):
+    for tok in _tokenize(text, None, delays):
         if tok.kind == "name" and tok.text != S:
             seen.setdefault(tok.text, tok.column)
     return tuple(TypedName(name, column) for name, column in seen.items())
 
 
-def check_glued_names(text: str, declared: Collection[str], where: str | None = None) -> None:
+def check_glued_names(text: str, declared: Collection[str], where: str | None = None,
+                      delays: bool = False) -> None:
     """E111 for the first name in ``text`` with s run into it (see :func:`glued_reading`) that is
     not one of the ``declared`` parameters: ``Tis`` is taken for ``Ti*s`` unless a parameter
     ``Tis`` exists.
@@ -613,7 +713,7 @@ def check_glued_names(text: str, declared: Collection[str], where: str | None = 
     core.errors.ExpressionError: E111 at node C, numerator, column 5: 'Tis' runs s into a name: did you mean Ti*s? (a parameter called Tis must be declared first)
     >>> check_glued_names("Kp (Tis + 1)", {"Kp", "Tis"})
     """
-    for typed in typed_names(text):
+    for typed in typed_names(text, delays):
         reading = glued_reading(typed.name)
         if reading is not None and typed.name not in declared:
             _fail("E111", f"'{typed.name}' runs s into a name: did you mean {reading}? "
@@ -784,3 +884,50 @@ def to_mpoly(expr: sympy.Expr, ctx: fmpq_mpoly_ctx) -> fmpq_mpoly:
     if not den.is_constant():
         raise ExpressionError("E107", f"not a polynomial in {', '.join(ctx.names())}: it has a denominator")
     return num * (1 / den.leading_coefficient())
+
+
+def parse_quasi_polynomial(text: str, where: str | None = None,
+                           declared: Collection[str] | None = None) -> QuasiPolynomial:
+    """Text that must be a quasi-polynomial: a polynomial in s and parameters whose terms may carry
+    delay factors ``exp(-0.5*s)``, ``exp(-3/10*s)``, ``exp(-tau*s)`` or ``exp(-s*tau)`` (a non-negative
+    number, a ratio of two, or one parameter, times s, negated; products and powers add their delays). Anything else under
+    exp is E441 with its column, a positive exponent E440, a delay factor in a divisor, an exponent
+    or a coefficient list E444. Without exp this reads exactly what :func:`parse_polynomial` reads.
+
+    >>> parse_quasi_polynomial("s^2 + 3*s + K*exp(-0.1*s)").text()
+    's^2 + 3*s + K*exp(-1/10*s)'
+    >>> parse_quasi_polynomial("s + exp(-L s)^2 exp(-0.5 s)").text()
+    's + exp(-1/2*s)*exp(-L*s)^2'
+    >>> parse_quasi_polynomial("s + exp(-s^2)")
+    Traceback (most recent call last):
+    ...
+    core.errors.ExpressionError: E441 at column 11: malformed delay factor (found '^'): write exp(-0.5*s) or exp(-tau*s), a non-negative number or one parameter times s
+    """
+    delays: dict[Delay, sympy.Symbol] = {}
+    expr = _parse(text, where, delays=delays)[0]
+    if declared is not None:
+        check_glued_names(text, declared, where, delays=True)
+    ctx = _context_for(expr)
+    num, den = _fraction(expr, ctx, where)
+    if den.degrees()[0] > 0:
+        _fail("E107", "not a polynomial in s: s appears in a denominator", where)
+    if den.is_constant():
+        num = num * (1 / den.leading_coefficient())
+    return _quasi_terms(num, {str(symbol): delay for delay, symbol in delays.items()})
+
+
+def _quasi_terms(num: fmpq_mpoly, placeholders: dict[str, Delay]) -> QuasiPolynomial:
+    """Group the terms of a polynomial in s, parameters and delay placeholders by their delay."""
+    names = num.context().names()
+    kept = [i for i, n in enumerate(names) if n not in placeholders]
+    ctx = mpoly_context(names[i] for i in kept[1:])
+    grouped: dict[Delay, dict[tuple[int, ...], fmpq]] = {}
+    for exps, c in num.to_dict().items():
+        delay = Delay.zero()
+        for name, e in zip(names, exps):
+            if name in placeholders and e:
+                delay = delay + placeholders[name].times(e)
+        mono = tuple(exps[i] for i in kept)
+        part = grouped.setdefault(delay, {})
+        part[mono] = part.get(mono, fmpq(0)) + c
+    return QuasiPolynomial.of({d: ctx.from_dict(t) for d, t in grouped.items()})

@@ -234,6 +234,10 @@ class AnalysisResult:
             raise KeyError(input_id)
         return step_response(self.time_domain.transfers[input_id], value)
 
+    def step_ready(self, input_id: str, value: float | None) -> bool:
+        """Whether :meth:`step_at` answers at once (the analysis' own step, at the nominal value)."""
+        return value == self._nominal_value() and (input_id in self.steps or input_id in self.step_errors)
+
     def _nominal_value(self) -> float | None:
         if self.tuning_range is None or self.report is None or self.report.parameter is None:
             return None

@@ -33,7 +33,7 @@ import math
 from dataclasses import dataclass, field
 from itertools import pairwise
 
-from flint import arb, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_poly
+from flint import arb, arb_poly, ctx, fmpq, fmpq_mpoly_ctx, fmpq_poly, fmpz_mpoly_ctx, fmpz_poly
 
 from core.algebra.polynomial import ParametricPolynomial, poly_text, to_float, to_fmpq
 from core.analysis.poles import certified_roots
@@ -90,9 +90,39 @@ class Boundary:
 
     @property
     def approx(self) -> str:
-        """Twelve significant digits, also beyond the float range (``-1.25000000000e+601``)."""
+        """Twelve significant digits, also beyond the float range (``-1.25e+601``); see ``approx_text``."""
+        return self.approx_text(12)
+
+    def approx_text(self, digits: int) -> str:
+        """The value in ``digits`` significant figures, with more where fewer would look exact but
+        are not (3 + 1e-20 reads ``3.00000000000000000001``, never ``3``), up to 48.
+
+        >>> Boundary.of_rational(fmpz_poly([0, 1]), fmpq(3) + fmpq(1, 10 ** 20)).approx_text(6)
+        '3.00000000000000000001'
+        >>> Boundary.of_rational(fmpz_poly([0, 1]), fmpq(1, 3)).approx_text(6)
+        '0.333333'
+        """
+        text = self._digits_text(digits)
+        while digits < 48 and _falsely_exact(text, digits, self.rational):
+            digits *= 2
+            text = self._digits_text(digits)
+        return text
+
+    def _digits_text(self, digits: int) -> str:
         v = self.value
-        return f"{v:.12g}" if math.isfinite(v) else self.ball.str(12, radius=False)
+        narrow = self.rational is not None or self.hi - self.lo <= abs(to_fmpq(v)) / fmpq(10) ** (digits + 2)
+        if digits <= 15 and math.isfinite(v) and v != 0 and narrow:
+            return f"{v:.{digits}g}"
+        with ctx.workprec(4 * digits + 64):
+            if self.rational is not None:
+                ball = arb(self.rational)
+            else:
+                scale = abs(self.lo) if self.lo != 0 else abs(self.hi)
+                b = self.narrowed(scale / fmpq(10) ** (digits + 3))
+                ball = arb((b.lo + b.hi) / 2, (b.hi - b.lo) / 2)
+            head, _, power = ball.str(digits, radius=False).partition("e")
+        head = head.rstrip("0").rstrip(".") if "." in head else head
+        return f"{head}e{int(power):+d}" if power else head
 
     def sign_minus(self, v: fmpq) -> int:
         """Exact sign of (value - v) for a rational v (never 0 for an irrational value)."""
@@ -124,11 +154,38 @@ class Boundary:
         if self.rational is not None:
             return str(self.rational)
         poly = poly_text([fmpq(self.factor[i]) for i in range(self.factor.degree(), -1, -1)], name)
-        return f"root of {poly} near {self.value:.{DIGITS}g}"
+        return f"root of {poly} near {self.approx_text(DIGITS)}"
+
+
+def _falsely_exact(text: str, digits: int, rational: fmpq | None) -> bool:
+    """True when ``text`` shows at least three figures fewer than ``digits`` (trailing zeros cut, as
+    an exact decimal would look), yet differs from the value (always so for an irrational one)."""
+    mantissa = text.lstrip("-").partition("e")[0].replace(".", "").lstrip("0")
+    if len(mantissa) > digits - 3:
+        return False
+    return rational is None or to_fmpq(text) != rational
+
+
+SIGN_BITS = (128, 512, 2048)  # ball precisions tried (beyond v's own bits) before exact evaluation
 
 
 def _sign_at(f: fmpz_poly, v: fmpq) -> int:
-    """Exact sign of f(v) at a rational v."""
+    """Exact sign of f(v) at a rational v: a ball evaluation decides whenever the ball excludes 0
+    (certified), else at higher precision, else exactly (a high-degree f at a many-bit v costs
+    tens of milliseconds exactly, microseconds in balls).
+
+    >>> _sign_at(fmpz_poly([-2, 0, 1]), fmpq(141421356237, 10 ** 11)), _sign_at(fmpz_poly([-4, 0, 1]), fmpq(2))
+    (-1, 0)
+    """
+    bits = int(v.p).bit_length() + int(v.q).bit_length()
+    coeffs = f.coeffs()
+    for extra in SIGN_BITS:
+        with ctx.workprec(bits + extra):
+            y = arb_poly(coeffs)(arb(v))
+        if y > 0:
+            return 1
+        if y < 0:
+            return -1
     x = f(v)
     return (x > 0) - (x < 0)
 
@@ -238,10 +295,27 @@ def hurwitz_delta(coeffs: list[fmpq_poly]) -> fmpq_poly:
     if not even or not odd:
         return fmpq_poly([])
     bound = (len(odd) - 1) * max(c.degree() for c in even) + (len(even) - 1) * max(c.degree() for c in odd)
+    scale = fmpq(lcd) ** (len(even) + len(odd) - 2)
+    if bound > MAX_INTERPOLATION_POINTS:
+        return _bivariate_resultant(even, odd) / scale
     start = _points_start(even[-1] * odd[-1], bound + 1)
     values = [fmpz_poly([c(x) for c in even]).resultant(fmpz_poly([c(x) for c in odd]))
               for x in range(start, start + bound + 1)]
-    return _interpolate_consecutive(values, start) / fmpq(lcd) ** (len(even) + len(odd) - 2)
+    return _interpolate_consecutive(values, start) / scale
+
+
+MAX_INTERPOLATION_POINTS = 300  # beyond, the differences cost O(points^2) in Python: one bivariate resultant
+
+
+def _bivariate_resultant(even: list[fmpz_poly], odd: list[fmpz_poly]) -> fmpq_poly:
+    """Res_u(E, O) of E(u, k), O(u, k) given as coefficients in k of each power of u (lowest first),
+    computed at once by flint's multivariate resultant (exact)."""
+    mctx = fmpz_mpoly_ctx.get(("u", "k"), "lex")
+
+    def lift(parts: list[fmpz_poly]):
+        return mctx.from_dict({(i, j): c[j] for i, c in enumerate(parts) for j in range(c.degree() + 1) if c[j] != 0})
+    terms = {exps[1]: c for exps, c in lift(even).resultant(lift(odd), "u").to_dict().items()}
+    return fmpq_poly([terms.get(j, 0) for j in range(max(terms, default=-1) + 1)])
 
 
 def _trimmed(coeffs: list[fmpz_poly]) -> list[fmpz_poly]:

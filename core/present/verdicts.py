@@ -267,7 +267,7 @@ def _end(boundary, unbounded: str) -> str:
         return unbounded
     if boundary.rational is not None and len(str(boundary.rational)) <= SHORT_EXACT:
         return str(boundary.rational)
-    return f"{boundary.value:.6g}" if math.isfinite(boundary.value) else boundary.approx
+    return boundary.approx_text(6)
 
 
 def requirements_phrase(outcome: RequirementsOutcome | None, parameter: str | None) -> str:

@@ -66,3 +66,28 @@ def test_opening_editing_and_selecting_a_large_loop_leaves_the_engine_off_the_gu
     assert window.files.open(path, ask=False)  # replaced by itself: a new controller, a new analysis
     analysed(window, 120_000)
     assert gui_thread_calls == []
+
+
+def test_following_the_slider_simulates_and_judges_off_the_gui_thread(window, example_path, analysed, qtbot,
+                                                                     monkeypatch):
+    import app.panels.requirements_panel as requirements_panel
+    calls: list[str] = []
+    for owner, name in ((pipeline, "step_response"), (requirements_panel, "evaluate")):
+        real = getattr(owner, name)
+
+        def spied(*args, _real=real, _name=name, **kwargs):
+            if threading.current_thread() is threading.main_thread():
+                calls.append(_name)
+            return _real(*args, **kwargs)
+        monkeypatch.setattr(owner, name, spied)
+    assert window.files.open(example_path, ask=False)
+    analysed(window)
+    window.docks["step"].raise_()
+    tuning = window.controller.result.tuning_range
+    values = [tuning.nominal * f for f in (0.5, 0.8, 1.2)]
+    for value in values:
+        window.controller.set_current_value(value)
+        qtbot.wait(30)
+    step = window.step_panel
+    qtbot.waitUntil(lambda: step.step is not None and step.step.value == values[-1], timeout=10_000)
+    assert calls == []

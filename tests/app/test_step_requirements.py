@@ -96,8 +96,8 @@ def test_disturbance_input_can_be_chosen(qtbot, panels):
         diagram.connect(a, b, port)
     settle(qtbot, controller)
     assert [step.inputs.itemData(i) for i in range(step.inputs.count())] == ["r", "d"]
-    step.select_input("d")
-    assert step.step.input_id == "d"
+    step.select_input("d")  # simulated on the current-value worker
+    qtbot.waitUntil(lambda: step.step is not None and step.step.input_id == "d", timeout=5000)
     # The PI controller's integrator rejects a constant load: final value 0 (final value theorem).
     assert step.step.metrics.final_value == 0.0
     assert step.step.metrics.steady_state_error == 0.0
