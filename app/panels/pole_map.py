@@ -45,6 +45,32 @@ def path_curve(paths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return z.real.copy(), z.imag.copy()
 
 
+MAX_ARROWS = 24  # direction marks on at most this many paths (the longest in view)
+
+
+def path_arrows(paths: np.ndarray, box: tuple[float, float, float, float]) -> list[tuple[complex, complex]]:
+    """(point, direction) of one arrow per path that moves inside ``box`` (x0, x1, y0, y1): half
+    way along its visible length, pointing the way the tuning parameter increases.
+
+    >>> t = np.linspace(0, 1, 11)
+    >>> [(complex(p), round(float(d.imag), 9)) for p, d in path_arrows(np.stack([-1 + 2j * t], axis=1), (-2, 0, -1, 3))]
+    [((-1+0.8j), 0.2)]
+    """
+    x0, x1, y0, y1 = box
+    found = []
+    for column in paths.T:
+        inside = np.isfinite(column) & (column.real >= x0) & (column.real <= x1) & (column.imag >= y0) & (column.imag <= y1)
+        steps = np.abs(np.diff(column)) * (inside[1:] & inside[:-1])
+        steps = np.where(np.isfinite(steps), steps, 0.0)
+        length = steps.sum()
+        if length <= 0.02 * max(x1 - x0, y1 - y0):
+            continue
+        i = int(np.searchsorted(np.cumsum(steps), length / 2))
+        found.append((length, column[i], column[i + 1] - column[i]))
+    found.sort(key=lambda item: -item[0])
+    return [(point, direction) for _, point, direction in found[:MAX_ARROWS]]
+
+
 def _finite_box(points: np.ndarray) -> tuple[float, float, float, float] | None:
     pts = points[np.isfinite(points)]
     if pts.size == 0:
@@ -164,10 +190,13 @@ class PoleMap(QWidget):
         self.far = pg.ScatterPlotItem(symbol="t3", size=11)  # poles outside the view, pinned to its edge
         self.crossings = pg.ScatterPlotItem(symbol="d", size=10)  # where a pair crosses the axis, at the range ends
         self.crossing_labels: list[pg.TextItem] = []
+        self.arrows: list[pg.ArrowItem] = []
         for it in (self.paths, self.crossings, self.far, self.zeros, self.poles):
             plot.addItem(it)
         self._apply_theme()
         item.getViewBox().sigXRangeChanged.connect(self._cover_right_half_plane)
+        item.getViewBox().sigRangeChanged.connect(lambda *_: self._draw_arrows())
+        item.getViewBox().sigResized.connect(lambda *_: self._draw_arrows())  # arrows are in screen angles
 
     def _apply_theme(self) -> None:
         """Colour every plot item from the current (light or dark) palette."""
@@ -225,6 +254,7 @@ class PoleMap(QWidget):
         x, y = path_curve(result.paths)
         self.paths.setData(x, y)
         self._mark_crossings(report)
+        self._draw_arrows()
         sigma = report.decay.sigma if report.decay is not None else None
         self.decay_line.setVisible(sigma is not None)
         if sigma is not None:
@@ -281,6 +311,32 @@ class PoleMap(QWidget):
             label.setPos(0.0, e.omega)
             self.plot.addItem(label, ignoreBounds=True)
             self.crossing_labels.append(label)
+
+    def _draw_arrows(self) -> None:
+        """Small arrows along the paths in view, pointing the way the tuning parameter increases."""
+        for arrow in self.arrows:
+            self.plot.removeItem(arrow)
+        self.arrows = []
+        result = self._result
+        if result is None or result.report is None or result.paths.size == 0:
+            return
+        box = self.plot.getPlotItem().getViewBox()
+        (x0, x1), (y0, y1) = box.viewRange()
+        pixel_w, pixel_h = box.viewPixelSize()
+        if not (pixel_w > 0 and pixel_h > 0):
+            return
+        pen, brush = pg.mkPen(colour("path")), pg.mkBrush(colour("path"))
+        for point, direction in path_arrows(result.paths, (x0, x1, y0, y1)):
+            angle = math.degrees(math.atan2(direction.imag / pixel_h, -direction.real / pixel_w))
+            arrow = pg.ArrowItem(pos=(point.real, point.imag), angle=angle, headLen=9, tipAngle=40, tailLen=None,
+                                 pen=pen, brush=brush)
+            arrow.setZValue(-5)
+            self.plot.addItem(arrow, ignoreBounds=True)
+            self.arrows.append(arrow)
+
+    def plotted_arrows(self) -> list[tuple[complex, float]]:
+        """(position, screen angle in degrees) of each direction arrow drawn."""
+        return [(complex(a.pos().x(), a.pos().y()), a.opts["angle"]) for a in self.arrows]
 
     def plotted_crossings(self) -> list[tuple[float, str]]:
         """(ω, label) of each marked crossing (upper half plane)."""
