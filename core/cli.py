@@ -21,7 +21,8 @@ from core.errors import ExpressionError, LoopwrightError, ModelError, UsageError
 PROGRAM = "loopwright-check"
 # the options that take a value; a value starting with '-' (``--poly -s^2-1``) is kept as the value
 VALUE_OPTIONS = ("--poly", "--param", "--at", "--decay", "--time-to-half", "--settling",
-                 "--min-damping", "--max-overshoot", "--min-gain-margin", "--tolerance", "--plane")
+                 "--min-damping", "--max-overshoot", "--min-gain-margin", "--tolerance", "--plane",
+                 "--variable", "--sample-period")
 FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--help")
 DECAY_OPTIONS = {"--decay": ("sigma", "a decay rate", "1/s"), "--time-to-half": ("half_time", "a time to half", "s"),
                  "--settling": ("settling", "a settling time", "s")}
@@ -59,11 +60,20 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--plane", metavar="X=LO..HI,Y=LO..HI",
                        help="the stability plane of two parameters (ranges optional for a project: "
                             "from its parameter table)")
+    _add_sampled_options(check)
     check.add_argument("--json", action="store_true", help="print the report as JSON")
     check.add_argument("--fail-unstable", action="store_true", help="exit 1 when the nominal loop is not stable")
     check.add_argument("--fail-requirements", action="store_true",
                        help="exit 1 when a requirement is not met (or cannot be judged)")
     return parser
+
+
+def _add_sampled_options(check: argparse.ArgumentParser) -> None:
+    """``--variable`` and ``--sample-period`` (polynomials in z)."""
+    check.add_argument("--variable", metavar="s|z", help="the variable of --poly: s (default) or z (sampled loop)")
+    check.add_argument("--sample-period", metavar="TS",
+                       help="the sample period in s (with --variable z): adds times and frequencies; the "
+                            "value of a parameter named Ts")
 
 
 def keep_dash_values(argv: Sequence[str]) -> list[str]:
@@ -211,6 +221,8 @@ def run(args) -> int:
     at = _parse_at(args.at)
     tolerances = _parse_tolerances(args.tolerance)
     decay = _decay(args)
+    if _sampled(args):
+        return _run_sampled(args, at, decay)
     if (args.poly is None) == (args.project is None):
         raise UsageError("E501", "give either a project file or --poly TEXT", where="command line")
     axes = plane_option.read_plane_option(args.plane, args.poly is not None, exact_value) if args.plane is not None else None
@@ -236,6 +248,30 @@ def run(args) -> int:
     _emit(_output(report, outcome, args.json, plane))
     return 1 if (args.fail_unstable and not _stable_enough(report)) or (
         args.fail_requirements and not _requirements_pass(outcome)) else 0
+
+
+def _sampled(args) -> bool:
+    """Whether the polynomial is typed in z (E451 for a variable other than s or z; E457 for a
+    sample period without --variable z)."""
+    from core.errors import AnalysisError
+    from core.present.discrete_option import read_variable
+
+    if read_variable(args.variable) == "z":
+        return True
+    if args.sample_period is not None:
+        raise AnalysisError("E457", "--sample-period goes with --variable z", where="--sample-period")
+    return False
+
+
+def _run_sampled(args, at: dict[str, object], decay) -> int:
+    """``--poly TEXT --variable z``: the report on a polynomial in z, printed; the exit status."""
+    from core.present.discrete_option import discrete_output, z_report
+
+    if args.project is not None:
+        raise UsageError("E501", "give either a project file or --poly TEXT", where="command line")
+    report = z_report(args, at, decay, exact_value)
+    _emit(discrete_output(report, args.json))
+    return 1 if args.fail_unstable and not _stable_enough(report) else 0
 
 
 DELAY_OPTIONS_REFUSED = ("decay", "time_to_half", "settling", "min_damping", "max_overshoot",

@@ -71,6 +71,16 @@ CATALOGUE: dict[str, str] = {
     "E444": "delay factor where only a polynomial can stand",
     "E445": "delay loop: analysis not available as asked",
     "E446": "delay loop: certified search unresolved (a root on or too near the imaginary axis)",
+    "E450": "sample period not a finite number > 0",
+    "E451": "polynomial variable not s or z",
+    "E452": "a polynomial in z contains s",
+    "E453": "plant has no zero-order-hold equivalent (improper or zero denominator)",
+    "E454": "delay not a whole number of samples in range",
+    "E455": "discrete controller invalid (not causal, zero denominator, or a constant loop)",
+    "E456": "decay requirement in z without a sample period",
+    "E457": "option not available for a polynomial in z",
+    "E458": "z in a denominator of a polynomial in z",
+    "E459": "degree in z above the analysed limit",
     # command line
     "E501": "command-line arguments invalid",
 }

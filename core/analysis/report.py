@@ -142,6 +142,7 @@ class Report:
         dom = self.dominant
         return {
             "source": self.source,
+            "domain": "s",
             "polynomial": self.polynomial,
             "analysed_polynomial": self.analysed.text(),
             "degree": self.analysed.degree,
