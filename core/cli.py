@@ -22,7 +22,7 @@ PROGRAM = "loopwright-check"
 # the options that take a value; a value starting with '-' (``--poly -s^2-1``) is kept as the value
 VALUE_OPTIONS = ("--poly", "--param", "--at", "--decay", "--time-to-half", "--settling",
                  "--min-damping", "--max-overshoot", "--min-gain-margin", "--tolerance", "--plane")
-FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--help")
+FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--frequency", "--help")
 DECAY_OPTIONS = {"--decay": ("sigma", "a decay rate", "1/s"), "--time-to-half": ("half_time", "a time to half", "s"),
                  "--settling": ("settling", "a settling time", "s")}
 
@@ -59,6 +59,9 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--plane", metavar="X=LO..HI,Y=LO..HI",
                        help="the stability plane of two parameters (ranges optional for a project: "
                             "from its parameter table)")
+    check.add_argument("--frequency", action="store_true",
+                       help="add the frequency response with the loop opened at the tuning gain (with --poly): "
+                            "gain and phase margins, crossovers, delay margin, sensitivity peak")
     check.add_argument("--json", action="store_true", help="print the report as JSON")
     check.add_argument("--fail-unstable", action="store_true", help="exit 1 when the nominal loop is not stable")
     check.add_argument("--fail-requirements", action="store_true",
@@ -225,15 +228,19 @@ def run(args) -> int:
         report.warnings += notes
         outcome = requirements_outcome(report, requirements, span=search_span(report))
         plane = plane_option.plane_of_polynomial(args.poly, axes, report.values) if axes is not None else None
+        frequency = _frequency(args, at)
     else:
         if args.param:
             raise UsageError("E501", "--param goes with --poly; a project names its tuning parameter",
                              where="--param")
+        if args.frequency:
+            raise UsageError("E468", "--frequency is available with --poly only in this version", where="--frequency")
+        frequency = None
         project, report = _check_project_with_values(args.project, at, decay, tolerances)
         requirements = _requirements(args, project.requirements)
         outcome = requirements_outcome(report, requirements, project, span=_span(project, report))
         plane = plane_option.plane_of_project(project, report, axes) if axes is not None else None
-    _emit(_output(report, outcome, args.json, plane))
+    _emit(_output(report, outcome, args.json, plane, frequency))
     return 1 if (args.fail_unstable and not _stable_enough(report)) or (
         args.fail_requirements and not _requirements_pass(outcome)) else 0
 
@@ -266,8 +273,10 @@ def _run_delay(args, at) -> int:
             option = "--" + name.replace("_", "-")
             raise UsageError("E445", f"{option} is not available for a loop with dead time", where=option)
     report = check_quasi_polynomial(args.poly, parameter=args.param, at=at)
-    _emit(json_text({**report.to_dict(), "headline": delay_headline(report)}) if args.json
-          else delay_report_text(report))
+    frequency = _frequency(args, at)
+    data = {**report.to_dict(), "headline": delay_headline(report)}
+    _emit(json_text(_with_frequency(data, frequency)) if args.json
+          else _with_frequency_text(delay_report_text(report), frequency))
     return 1 if args.fail_unstable and not _delay_stable_enough(report) else 0
 
 
@@ -277,7 +286,32 @@ def _delay_stable_enough(report) -> bool:
     return report.stable_range is not None and bool(report.stable_range.intervals)
 
 
-def _output(report, outcome, as_json: bool, plane=None) -> str:
+def _frequency(args, at):
+    """The frequency response asked for with ``--frequency`` (None without it)."""
+    if not args.frequency:
+        return None
+    from core.algebra.expression import parse_quasi_polynomial
+    from core.analysis.frequency import analyse, loop_of_quasi_polynomial
+
+    declared = set(at) | ({args.param} if args.param else set())
+    quasi = parse_quasi_polynomial(args.poly, where="polynomial", declared=declared)
+    return analyse(loop_of_quasi_polynomial(quasi, args.param, at))
+
+
+def _with_frequency(data: dict, frequency) -> dict:
+    """The report's keys with the frequency response's added where not already there."""
+    if frequency is None:
+        return data
+    return {**data, **{k: v for k, v in frequency.to_dict().items() if k not in data}}
+
+
+def _with_frequency_text(text: str, frequency) -> str:
+    from core.present.frequency_text import frequency_text
+
+    return text if frequency is None else f"{text}\n\n{frequency_text(frequency)}"
+
+
+def _output(report, outcome, as_json: bool, plane=None, frequency=None) -> str:
     from core.present.plane_text import with_plane_section
     from core.present.report_json import json_text
     from core.present.report_text import report_text
@@ -285,12 +319,12 @@ def _output(report, outcome, as_json: bool, plane=None) -> str:
 
     if not as_json:
         text = report_text(report, outcome)
-        return text if plane is None else with_plane_section(text, plane)
+        return _with_frequency_text(text if plane is None else with_plane_section(text, plane), frequency)
     data = report.to_dict()
     data["headline"] = headline(report, outcome)
     data["requirements"] = outcome.to_dict() if outcome is not None else None
     data["plane"] = plane.to_dict() if plane is not None else None
-    return json_text(data)
+    return json_text(_with_frequency(data, frequency))
 
 
 def _emit(text: str) -> None:

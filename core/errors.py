@@ -71,6 +71,13 @@ CATALOGUE: dict[str, str] = {
     "E444": "delay factor where only a polynomial can stand",
     "E445": "delay loop: analysis not available as asked",
     "E446": "delay loop: certified search unresolved (a root on or too near the imaginary axis)",
+    "E460": "frequency response: the polynomial is not affine in the tuning gain",
+    "E461": "frequency response: no tuning gain named",
+    "E462": "frequency response: a parameter has no value",
+    "E463": "frequency response: a delay outside the tuning gain's term",
+    "E464": "frequency response: loop transfer function zero, undefined or improper",
+    "E465": "frequency response: a crossover could not be resolved",
+    "E468": "frequency response: not available for a project file yet",
     # command line
     "E501": "command-line arguments invalid",
 }
