@@ -7,7 +7,7 @@ import os
 import sys
 import time
 
-ROWS = ("1", "2", "3", "4", "robust", "plane", "delay")  # row 5 comes with row 3
+ROWS = ("1", "2", "3", "4", "robust", "plane", "delay", "frequency")  # row 5 comes with row 3
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -34,6 +34,7 @@ def main(argv: list[str] | None = None) -> int:
     from bench import (
         app_row,
         delay_row,
+        frequency_row,
         plane_row,
         pole_paths_row,
         reduction_row,
@@ -42,7 +43,8 @@ def main(argv: list[str] | None = None) -> int:
     )
     from bench.table import format_table, machine
     runners = {"1": stable_range_row.run, "2": reduction_row.run, "3": pole_paths_row.run, "4": app_row.run,
-               "robust": robust_row.run, "plane": plane_row.run, "delay": delay_row.run}
+               "robust": robust_row.run, "plane": plane_row.run, "delay": delay_row.run,
+               "frequency": frequency_row.run}
     info = machine()
     start = time.perf_counter()
     rows = []

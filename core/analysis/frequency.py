@@ -40,13 +40,14 @@ from core.analysis.delay import real_zeros
 from core.analysis.routh import real_roots
 from core.errors import AnalysisError
 
-__all__ = ["FrequencyAnalysis", "GainMargin", "LoopFunction", "PhaseMargin", "SensitivityPeak",
-           "analyse", "loop_of_quasi_polynomial", "response", "MS_GUIDANCE"]
+__all__ = ["MS_GUIDANCE", "FrequencyAnalysis", "GainMargin", "LoopFunction", "PhaseMargin", "SensitivityPeak",
+           "analyse", "loop_of_quasi_polynomial", "response"]
 
 GAIN_MARGIN_LIMIT = 1000  # with a delay, phase crossovers where |L| < 1/1000 (over 60 dB) are not listed
 PREC = 128
 MS_GUIDANCE = "common practice: Ms <= 2, preferably 1.2-1.6"
 WHERE = "frequency response"
+NO_DELAY = fmpq(0)
 
 
 @dataclass(frozen=True)
@@ -56,7 +57,7 @@ class LoopFunction:
     gain: fmpq
     numerator: tuple[fmpq, ...]
     denominator: tuple[fmpq, ...]
-    delay: fmpq = fmpq(0)
+    delay: fmpq = NO_DELAY
 
     def text(self) -> str:
         from core.algebra.polynomial import poly_text
@@ -325,7 +326,7 @@ def _negative(re: fmpq_poly, w: arb, factor: fmpz_poly) -> bool:
     while True:
         with ctx.workprec(prec):
             if factor.degree() > 1:
-                w = [b for b in real_roots(factor, prec) if b.overlaps(w)][0]
+                w = next(b for b in real_roots(factor, prec) if b.overlaps(w))
             v = arb_poly_eval(re, w)
         if v < 0:
             return True
@@ -469,18 +470,25 @@ def complex_response(loop: LoopFunction, omegas: np.ndarray) -> np.ndarray:
 
 
 def unwrapped_phase(loop: LoopFunction, omegas: np.ndarray) -> np.ndarray:
-    """arg L(jw) in degrees, continuous in w > 0: the sum of the angles of jw - z over zeros, minus
-    over poles, the sign of the constant (-180 when negative) and -w tau."""
+    """arg L(jw) in degrees, continuous in w > 0 (but for a zero or pole on the axis): the sum of the
+    angles of jw - z over zeros, minus over poles, the sign of the constant (-180 when negative)
+    and -w tau."""
     w = np.asarray(omegas, dtype=float)
     s = 1j * w[:, None]
     lead = float(loop.gain * loop.numerator[-1] / loop.denominator[-1])
     total = np.zeros_like(w) + (-math.pi if lead < 0 else 0.0)
-    zeros, poles = _float_roots(loop.numerator), _float_roots(loop.denominator)
-    if zeros.size:
-        total += np.angle(s - zeros[None, :]).sum(axis=1)
-    if poles.size:
-        total -= np.angle(s - poles[None, :]).sum(axis=1)
+    total += _angles(s, _float_roots(loop.numerator)) - _angles(s, _float_roots(loop.denominator))
     return np.degrees(total - w * float(loop.delay))
+
+
+def _angles(s: np.ndarray, roots: np.ndarray) -> np.ndarray:
+    """Sum over roots z of arg(jw - z), continuous in w: as arg(z - jw) + pi for Re z > 0 (jw - z
+    then crosses the negative real axis at w = Im z)."""
+    if not roots.size:
+        return np.zeros(s.shape[0])
+    right = roots.real > 0
+    angles = np.where(right[None, :], np.angle(roots[None, :] - s) + np.pi, np.angle(s - roots[None, :]))
+    return angles.sum(axis=1)
 
 
 def frequency_grid(loop: LoopFunction, points: int = 400) -> np.ndarray:
