@@ -233,13 +233,11 @@ def run(args) -> int:
         if args.param:
             raise UsageError("E501", "--param goes with --poly; a project names its tuning parameter",
                              where="--param")
-        if args.frequency:
-            raise UsageError("E468", "--frequency is available with --poly only in this version", where="--frequency")
-        frequency = None
         project, report = _check_project_with_values(args.project, at, decay, tolerances)
         requirements = _requirements(args, project.requirements)
         outcome = requirements_outcome(report, requirements, project, span=_span(project, report))
         plane = plane_option.plane_of_project(project, report, axes) if axes is not None else None
+        frequency = _project_frequency(project, report) if args.frequency else None
     _emit(_output(report, outcome, args.json, plane, frequency))
     return 1 if (args.fail_unstable and not _stable_enough(report)) or (
         args.fail_requirements and not _requirements_pass(outcome)) else 0
@@ -296,6 +294,16 @@ def _frequency(args, at):
     declared = set(at) | ({args.param} if args.param else set())
     quasi = parse_quasi_polynomial(args.poly, where="polynomial", declared=declared)
     return analyse(loop_of_quasi_polynomial(quasi, args.param, at))
+
+
+def _project_frequency(project, report):
+    """The frequency response of a project, opened at its default wire, at the analysed values."""
+    from core.analysis.frequency import analyse, loop_of_project
+
+    loop, wire = loop_of_project(project, report.values)
+    out = analyse(loop)
+    out.opened_at = f"the wire {wire}"
+    return out
 
 
 def _with_frequency(data: dict, frequency) -> dict:

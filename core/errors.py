@@ -77,7 +77,7 @@ CATALOGUE: dict[str, str] = {
     "E463": "frequency response: a delay outside the tuning gain's term",
     "E464": "frequency response: loop transfer function zero, undefined or improper",
     "E465": "frequency response: a crossover could not be resolved",
-    "E468": "frequency response: not available for a project file yet",
+    "E466": "frequency response: no wire to open the loop at",
     # command line
     "E501": "command-line arguments invalid",
 }

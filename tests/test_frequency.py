@@ -267,10 +267,46 @@ def test_bad_input_is_a_catalogued_error(args, code, capsys):
     assert capsys.readouterr().err.startswith(f"loopwright-check: {code}")
 
 
-def test_project_frequency_is_refused_by_code(tmp_path, capsys):
-    assert main(["check", str(tmp_path / "none.loop.json"), "--frequency"]) == 2
-    err = capsys.readouterr().err
-    assert "E468" in err or "E208" in err
+GANTRY = "resources/examples/gantry_conditional.loop.json"
+
+
+def test_project_opened_at_the_outer_feedback_wire_agrees_with_its_stable_range(capsys):
+    # the gantry example is stable on two disjoint intervals of its loop gain K (L is K times a
+    # fixed rational function); source: core.analysis.report.check_project's exact stable range
+    # (Hurwitz determinants of the reduced characteristic polynomial), and numpy: 1 + L(jw) = 0 at
+    # each critical gain's phase crossover
+    from core.analysis.frequency import loop_of_project
+    from core.analysis.report import check_project
+    from core.io.project_file import load_project
+
+    project = load_project(GANTRY)
+    report = check_project(project)
+    loop, wire = loop_of_project(project, report.values)
+    assert wire == "H->e:1"
+    a = analyse(loop)
+    nominal = float(report.values["K"])
+    ends = sorted(e.value for e in report.stable_range.endpoints if e.value > 0)
+    assert sorted(nominal * m.factor for m in a.gain_margins if m.direction == "rise") == pytest.approx(ends, rel=1e-9)
+    for m in a.gain_margins:
+        value = _numpy_values(loop, np.array([m.omega]))[0]
+        assert abs(1 + value * m.critical_gain) < 1e-8
+    assert main(["check", GANTRY, "--frequency", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["opened_at"] == "the wire H->e:1" and len(data["gain_margins"]["all"]) == 3
+
+
+def test_project_without_a_feedback_wire_is_a_catalogued_error():
+    from core.analysis.frequency import loop_of_project
+    from core.io.project_file import load_project
+
+    project = load_project(GANTRY)
+    project.disconnect("H->e:1")
+    with pytest.raises(AnalysisError) as err:
+        loop_of_project(project, {"K": fmpq(1, 5)})
+    assert err.value.code == "E466"
+    with pytest.raises(AnalysisError) as err:
+        loop_of_project(load_project(GANTRY), {"K": fmpq(1, 5)}, wire_key="nowhere")
+    assert err.value.code == "E466"
 
 
 @pytest.mark.parametrize("text, code", [("s^2 + s*exp(-1/10*s) + K", "E463"),

@@ -41,7 +41,7 @@ from core.analysis.routh import real_roots
 from core.errors import AnalysisError
 
 __all__ = ["MS_GUIDANCE", "FrequencyAnalysis", "GainMargin", "LoopFunction", "PhaseMargin", "SensitivityPeak",
-           "analyse", "loop_of_quasi_polynomial", "response"]
+           "analyse", "loop_of_project", "loop_of_quasi_polynomial", "response"]
 
 GAIN_MARGIN_LIMIT = 1000  # with a delay, phase crossovers where |L| < 1/1000 (over 60 dB) are not listed
 PREC = 128
@@ -120,6 +120,7 @@ class FrequencyAnalysis:
     delay_margin: float | None
     sensitivity_peak: SensitivityPeak
     notes: list[str] = field(default_factory=list)
+    opened_at: str = "the tuning gain"
 
     @property
     def rise_factor(self) -> float | None:
@@ -134,6 +135,7 @@ class FrequencyAnalysis:
         method = "exact roots" if self.loop.delay == 0 else "exact gain crossovers, certified phase crossovers"
         return {
             "loop_function": self.loop.text(),
+            "opened_at": self.opened_at,
             "gain_margins": {"rise_factor": self.rise_factor, "fall_factor": self.fall_factor,
                              "all": [m.to_dict() for m in self.gain_margins]},
             "phase_margins": [m.to_dict() for m in self.phase_margins],
@@ -179,6 +181,32 @@ def loop_of_quasi_polynomial(q: QuasiPolynomial, parameter: str | None, values: 
     if not num:
         raise AnalysisError("E460", f"the polynomial does not depend on '{parameter[:40]}'", where=WHERE)
     return checked_loop(LoopFunction(fmpq(gain), tuple(num), tuple(den), tau))
+
+
+def loop_of_project(diagram, values: Mapping[str, fmpq], wire_key: str | None = None) -> tuple[LoopFunction, str]:
+    """L at the parameters' values, the loop opened at a wire (default: the feedback wire into the
+    outermost summing junction; core.graph.opening), and the wire's key. E462 for a missing value,
+    E466 for no wire to open at, E464 for a zero, undefined or improper L."""
+    from core.graph.opening import opened_loop
+
+    wire, num, den = opened_loop(diagram, wire_key)
+    loop = LoopFunction(fmpq(1), tuple(_in_s(num, values)), tuple(_in_s(den, values)))
+    return checked_loop(loop), wire.key
+
+
+def _in_s(poly, values: Mapping[str, fmpq]) -> list[fmpq]:
+    """Coefficients in s (lowest first) at the parameters' values."""
+    names = poly.context().names()
+    out: dict[int, fmpq] = {}
+    for exps, c in poly.to_dict().items():
+        value = fmpq(c)
+        for name, e in zip(names[1:], exps[1:]):
+            if e:
+                if name not in values:
+                    raise AnalysisError("E462", f"the parameter '{name[:40]}' has no value", where=WHERE)
+                value *= fmpq(values[name]) ** e
+        out[exps[0]] = out.get(exps[0], fmpq(0)) + value
+    return [out.get(i, fmpq(0)) for i in range(max(out, default=-1) + 1)]
 
 
 def checked_loop(loop: LoopFunction) -> LoopFunction:

@@ -10,7 +10,7 @@ __all__ = ["frequency_text"]
 
 def frequency_text(a: FrequencyAnalysis) -> str:
     """Margins, crossovers and the sensitivity peak, one per line."""
-    lines = ["Frequency response", f"  loop opened at the tuning gain: L(s) = {a.loop.text()}"]
+    lines = ["Frequency response", f"  loop opened at {a.opened_at}: L(s) = {a.loop.text()}"]
     for m in a.gain_margins:
         where = "w -> infinity" if math.isinf(m.omega) else f"w = {m.omega:.6g} rad/s"
         lines.append(f"  gain margin ({m.direction}): factor {m.factor:.6g} ({m.db:.3g} dB) at {where}")
