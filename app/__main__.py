@@ -3,4 +3,5 @@ import sys
 
 from app.main import main
 
-sys.exit(main())
+if __name__ == "__main__":  # analysis worker processes import this module too: they must not start a window
+    sys.exit(main())

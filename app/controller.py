@@ -2,7 +2,9 @@
 
 Every model change restarts a short single-shot timer and marks the shown result out of date at
 once (``staleChanged``); when the timer fires, the diagram is copied (as its project dictionary, on
-the GUI thread) and analysed on a worker thread with :func:`core.analysis.pipeline.analyse_snapshot`.
+the GUI thread) and analysed with :func:`core.analysis.pipeline.analyse_snapshot` in a worker process
+forked from a warmed-up fork server (:class:`_ProcessJob`; on a worker thread, :class:`_Job`,
+until that server is ready or where processes cannot be made).
 Each request carries a generation number; an analysis of an older generation still running is
 cancelled, and a result whose generation is no longer the newest is dropped. :meth:`cancel` stops
 the running analysis at the user's request. Errors never escape: a
@@ -18,8 +20,11 @@ through one undoable command. The controller itself never edits the model.
 from __future__ import annotations
 
 import ctypes
+import functools
 import itertools
 import math
+import multiprocessing
+import pickle
 import threading
 import time
 import traceback
@@ -29,6 +34,8 @@ from collections.abc import Callable
 import shiboken6
 from PySide6.QtCore import QCoreApplication, QElapsedTimer, QEventLoop, QObject, QTimer, Signal
 
+from core.algebra.expression import s_degree_bound
+from core.algebra.pickling import register as register_pickling
 from core.analysis.pipeline import AnalysisResult, analyse_snapshot
 from core.io.project_file import project_to_dict
 from core.model.diagram import Diagram
@@ -82,6 +89,149 @@ class _Job:
             pass
 
 
+ANALYSIS_IN_PROCESS = True  # analyses run in a worker process once one is ready (see _ProcessJob)
+THREAD_BELOW_S = 0.15  # after an analysis this quick, the next runs on a thread (a process adds ~70 ms)...
+HEAVY_ORDER = 24  # ...unless the blocks' orders add up to this many: then always in a process
+
+
+def loop_order_bound(diagram: Diagram) -> int:
+    """The blocks' orders in s added up, read from their texts without expanding them (a bound on
+    the loop's order: what decides whether an analysis can be long).
+
+    >>> from core.model.diagram import Node
+    >>> d = Diagram(); _ = d.add_node(Node("G", "block", num="K", den="(s+1)^30*(s+2)"))
+    >>> loop_order_bound(d)
+    31
+    """
+    return sum(max(_text_order(n.num), _text_order(n.den)) for n in diagram.nodes.values() if n.kind == "block")
+
+
+@functools.lru_cache(maxsize=4096)
+def _text_order(text: str) -> int:
+    return s_degree_bound(text)
+PRELOAD = ["core.algebra.pickling", "core.analysis.pipeline", "core.analysis.robust", "core.analysis.plane",
+           "core.graph.reduction", "core.io.project_file", "scipy.linalg", "app.panels", "app.controller",
+           "app.process_warmup"]
+
+
+def _analyse_in_child(conn, project: dict, generation: int, prepare) -> None:
+    """The worker process' whole life: analyse one project, send the pickled result, end."""
+    register_pickling()
+    try:
+        result = analyse_snapshot(project, generation)
+        if prepare is not None:
+            try:
+                prepare(result)
+            except Exception:  # only the ready-made texts are lost: the panels make them
+                traceback.print_exc()
+        data = pickle.dumps(result, protocol=pickle.HIGHEST_PROTOCOL)
+    except Exception as exc:
+        data = pickle.dumps(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
+    conn.send_bytes(data)
+    conn.close()
+
+
+class _Processes:
+    """The process factory: a fork server that has imported the engine once, so each analysis
+    starts in a few milliseconds. Made ready by a background thread at the first controller (the
+    first analyses run on a thread meanwhile); ``ready`` stays False where processes cannot be made."""
+
+    def __init__(self) -> None:
+        self.ready = False
+        self.context = None
+        threading.Thread(target=self._warm_up, name="loopwright-process-warm-up", daemon=True).start()
+
+    def _warm_up(self) -> None:
+        try:
+            context = multiprocessing.get_context("forkserver")
+            context.set_forkserver_preload(PRELOAD)
+            probe = context.Process(target=_noop, daemon=True)
+            probe.start()
+            probe.join(60)
+            if probe.exitcode == 0:
+                self.context, self.ready = context, True
+        except Exception:  # no process support here: analyses stay on threads
+            traceback.print_exc()
+
+
+def _noop() -> None:
+    """A process that only proves processes can be started."""
+
+
+_PROCESSES: _Processes | None = None
+
+
+def _processes() -> _Processes:
+    global _PROCESSES
+    if _PROCESSES is None:
+        _PROCESSES = _Processes()
+    return _PROCESSES
+
+
+def wait_for_processes(timeout_s: float = 60.0) -> bool:
+    """Wait until analyses can run in worker processes (benchmarks and tests); False on timeout
+    or where processes cannot be made."""
+    processes, deadline = _processes(), time.monotonic() + timeout_s
+    while not processes.ready and time.monotonic() < deadline:
+        time.sleep(0.02)
+    return processes.ready
+
+
+class _ProcessJob:
+    """One analysis in its own worker process (the interface of :class:`_Job`). A thread waits for
+    the pickled result and delivers it through the relay; :meth:`cancel` kills the process at once,
+    whatever it is computing (python-flint holds the interpreter lock in long calls, so a thread
+    could neither be stopped there nor leave the window responsive)."""
+
+    def __init__(self, token: int, project: dict, generation: int, prepare, context):
+        self.token, self.project, self.generation, self.prepare = token, project, generation, prepare
+        self._context = context
+        self._lock = threading.Lock()
+        self._running = True
+        self._process = None
+        self._receive = None
+        self.thread = threading.Thread(target=self._wait, name="loopwright-analysis-result", daemon=True)
+
+    def start(self) -> None:
+        receive, send = self._context.Pipe(duplex=False)
+        self._process = self._context.Process(target=_analyse_in_child, daemon=True,
+                                              args=(send, self.project, self.generation, self.prepare))
+        self._process.start()
+        send.close()
+        self._receive = receive
+        self.thread.start()
+
+    def cancel(self) -> None:
+        with self._lock:
+            if self._running:
+                self._running = False
+                if self._process is not None and self._process.is_alive():
+                    self._process.kill()
+
+    def alive(self) -> bool:
+        return self.thread.is_alive()
+
+    def _wait(self) -> None:
+        assert self._receive is not None and self._process is not None
+        try:
+            data = self._receive.recv_bytes()
+        except (EOFError, OSError):
+            data = None  # killed (cancelled), or the process died
+        finally:
+            self._receive.close()
+        self._process.join()
+        with self._lock:
+            if not self._running:
+                return
+            self._running = False
+        if data is None:
+            result = AnalysisResult(self.generation, internal_error="the analysis process ended without a result "
+                                                                     f"(exit status {self._process.exitcode})")
+        else:
+            result = pickle.loads(data)
+        _relay().finished.emit(self.token, result)
+
+
 class _Relay(QObject):
     """One per process, never deleted, living on the GUI thread. Workers emit through it (queued to
     the GUI thread) and it hands the result to the controller that asked, if that one still exists.
@@ -132,7 +282,11 @@ class AnalysisController(QObject):
         self._prepare = prepare
         self._diagram = diagram
         self._generation = 0
-        self._job: _Job | None = None
+        self._job: _Job | _ProcessJob | None = None
+        self._started = time.perf_counter()
+        self._last_seconds: float | None = None  # how long the last delivered analysis took
+        self._panels: list[weakref.WeakMethod] = []
+        self._unshown: list[weakref.WeakMethod] = []
         self._shown_generation = 0
         self._busy = False
         self._result: AnalysisResult | None = None
@@ -228,8 +382,15 @@ class AnalysisController(QObject):
         except Exception as exc:
             self._on_finished(AnalysisResult(generation, internal_error=f"{type(exc).__name__}: {exc}"))
             return
-        self._job = _Job(self._token, project, generation, self._prepare)
+        processes = _processes() if ANALYSIS_IN_PROCESS else None
+        light = (self._last_seconds is not None and self._last_seconds < THREAD_BELOW_S
+                 and loop_order_bound(self._diagram) < HEAVY_ORDER)
+        if processes is not None and processes.ready and not light:
+            self._job = _ProcessJob(self._token, project, generation, self._prepare, processes.context)
+        else:
+            self._job = _Job(self._token, project, generation, self._prepare)
         self._job.start()
+        self._started = time.perf_counter()
 
     def _on_finished(self, result: AnalysisResult) -> None:
         if self._job is not None and self._job.generation == result.generation:
@@ -237,8 +398,29 @@ class AnalysisController(QObject):
         if self._disposed or result.generation != self._generation:
             return  # stale: the newest generation is on the timer or already running
         self._result = result
+        self._last_seconds = time.perf_counter() - self._started
         self._shown_generation = result.generation
         self._adopt_tuning(result)
+        self._unshown = list(self._panels)
+        self._show_next(result)
+
+    def add_panel(self, show: Callable[[AnalysisResult], None]) -> None:
+        """Call ``show(result)`` (a widget's bound method) with every new result, one panel per
+        event-loop pass, before ``resultReady``: a large result's display never holds the GUI
+        thread for all panels at once. ``busy`` lasts until the last panel has shown it."""
+        self._panels.append(weakref.WeakMethod(show))
+
+    def _show_next(self, result: AnalysisResult) -> None:
+        if self._disposed or self._result is not result:
+            return  # a newer result took over
+        while self._unshown:
+            show = self._unshown.pop(0)()
+            if show is None or not shiboken6.isValid(show.__self__):
+                continue
+            show(result)
+            if self._unshown:
+                QTimer.singleShot(0, self, lambda: self._show_next(result))
+                return
         self.resultReady.emit(result)
         self.staleChanged.emit(False)
         if not self._timer.isActive():

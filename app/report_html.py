@@ -193,7 +193,7 @@ def polynomial_html(inputs: ReportInputs) -> str:
     if analysed != report.polynomial:
         rows.append(["Other parameters at nominal", f"<span class='math'>{math_html(analysed)}</span>"])
     fac = factored(report.analysed)
-    rows.append(["Factored over Q", f"<span class='math'>{math_html(fac)}</span>" if fac
+    rows.append(["Factored (rational coefficients)", f"<span class='math'>{math_html(fac)}</span>" if fac
                  else "<span class='muted'>does not factor over the rationals</span>"])
     transfer = report.transfer_function
     if transfer:

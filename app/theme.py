@@ -28,7 +28,7 @@ ROLE_COLOURS = {
 # Colours by meaning, for panels, plots, messages and the report (light, dark): one table.
 MEANING_COLOURS = {
     "stable": ("#2e9e5b", "#4cc47e"), "decay": ("#1f7fb8", "#5aa9e0"), "unstable": ("#c0392b", "#ff7b6b"),
-    "rhp": ("#fbe3e0", "#4a2a2a"), "forbidden": ("#eef3f8", "#26303b"), "tint": ("#eef4fb", "#243040"),
+    "rhp": ("#fbe3e0", "#4a2a2a"), "tint": ("#eef4fb", "#243040"),
     "special": ("#fdf3dc", "#3e3520"), "marker": ("#1b1f24", "#e8eaed"), "muted": ("#5d6470", "#9aa1ab"),
     "path": ("#9aa4b1", "#6f7886"), "pole": ("#1b1f24", "#e8eaed"), "zero": ("#4a6fa5", "#8fb4ea"),
     "warning": ("#a35d00", "#f0b060"), "axis": ("#6b7380", "#9aa1ab"), "heading": ("#1f4f7a", "#8fb4ea"),

@@ -15,10 +15,12 @@ from PySide6.QtCore import QSettings, Qt, QTimer
 from PySide6.QtGui import QAction, QCloseEvent, QKeySequence, QUndoStack
 from PySide6.QtWidgets import (
     QDockWidget,
+    QFrame,
     QInputDialog,
     QLabel,
     QMainWindow,
     QProgressBar,
+    QScrollArea,
     QStyle,
     QTabWidget,
     QToolButton,
@@ -61,6 +63,18 @@ def shipped_examples() -> list[tuple[str, Path]]:
             continue
         found.append((name if isinstance(name, str) and name else path.name, path))
     return sorted(found, key=lambda item: item[0].lower())
+
+
+def scrolling(widget: QWidget) -> QScrollArea:
+    """``widget`` in a frameless vertical scroll area: shown at its own size, scrolled when the
+    dock is shorter (a palette of fixed-height buttons is never squeezed until labels are cut)."""
+    area = QScrollArea()
+    area.setWidget(widget)
+    area.setWidgetResizable(True)
+    area.setFrameShape(QFrame.Shape.NoFrame)
+    area.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+    area.setMinimumWidth(widget.sizeHint().width() + area.verticalScrollBar().sizeHint().width())
+    return area
 
 
 class MainWindow(QMainWindow):
@@ -138,7 +152,7 @@ class MainWindow(QMainWindow):
         self.setTabPosition(Qt.DockWidgetArea.AllDockWidgetAreas, QTabWidget.TabPosition.North)
         left, right, bottom = (Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.RightDockWidgetArea,
                                Qt.DockWidgetArea.BottomDockWidgetArea)
-        self._dock("palette", "Palette", self.palette_panel, left)
+        self._dock("palette", "Palette", scrolling(self.palette_panel), left)  # never squeezed on a short screen
         inspector = self._dock("inspector", "Inspector", self.inspector, right)
         poles = self._dock("poles", PoleMap.TITLE, self.pole_map, right)
         self.splitDockWidget(inspector, poles, Qt.Orientation.Vertical)

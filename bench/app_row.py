@@ -159,7 +159,7 @@ def gui_gap(window, den: str, num: str, timeout_s: float = 120.0) -> tuple[float
 
 
 def run(quick: bool) -> list[Row]:
-    from app.controller import DEBOUNCE_MS
+    from app.controller import DEBOUNCE_MS, wait_for_processes
     from app.headless import settle
     with tempfile.TemporaryDirectory(prefix="loopwright-bench-") as tmp:
         scratch = Path(tmp)
@@ -168,6 +168,7 @@ def run(quick: bool) -> list[Row]:
         window = open_window(project)
         if not settle(window, 60_000):
             raise RuntimeError("the first analysis did not finish")
+        wait_for_processes()  # from here on every analysis runs in a worker process, as in use
         nodes = len(window.diagram.nodes)
         received, painted, worker = edit_latencies(window, 8 if quick else 25)
         frames = slider_frames(window, 30 if quick else 120)

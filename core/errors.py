@@ -94,6 +94,10 @@ class LoopwrightError(Exception):
         self.message = message
         self.where = where
 
+    def __reduce__(self):
+        """Pickled as its code, message and place (an analysis' error crosses processes)."""
+        return (type(self), (self.code, self.message, self.where))
+
     def __str__(self) -> str:
         """One line: control and bidirectional-override characters (from hostile files) escaped."""
         place = f" at {self.where}" if self.where else ""

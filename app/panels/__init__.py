@@ -84,7 +84,7 @@ def attach(panel, controller) -> None:
     """Show the controller's results and current value in ``panel`` (the value only while the panel
     can be seen, see :class:`FollowWhenShown`); a pole map's slider drives the controller's current
     value (live while dragging, committed on release)."""
-    controller.resultReady.connect(panel.show_result)
+    controller.add_panel(panel.show_result)  # one panel per event-loop pass
     controller.currentValueChanged.connect(FollowWhenShown.of(panel, controller).follow)
     if controller.result is not None:
         panel.show_result(controller.result)

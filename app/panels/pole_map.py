@@ -1,5 +1,5 @@
 """Pole map: poles (x) and zeros (o) at the current value, their paths over the tuning range, the
-right half plane shaded pale red, the decay line dashed with its forbidden strip, hover details,
+right half plane shaded pale red, the decay requirement as a labelled dotted line (no band), hover details,
 and a slider with a spin box for the current value.
 
 Plot items are made once; a new result or value only calls ``setData``. A slider frame costs one
@@ -43,6 +43,32 @@ def path_curve(paths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     cols = [np.append(paths[:, j], np.nan) for j in range(paths.shape[1])]
     z = np.concatenate(cols)
     return z.real.copy(), z.imag.copy()
+
+
+MAX_ARROWS = 24  # direction marks on at most this many paths (the longest in view)
+
+
+def path_arrows(paths: np.ndarray, box: tuple[float, float, float, float]) -> list[tuple[complex, complex]]:
+    """(point, direction) of one arrow per path that moves inside ``box`` (x0, x1, y0, y1): half
+    way along its visible length, pointing the way the tuning parameter increases.
+
+    >>> t = np.linspace(0, 1, 11)
+    >>> [(complex(p), round(float(d.imag), 9)) for p, d in path_arrows(np.stack([-1 + 2j * t], axis=1), (-2, 0, -1, 3))]
+    [((-1+0.8j), 0.2)]
+    """
+    x0, x1, y0, y1 = box
+    found = []
+    for column in paths.T:
+        inside = np.isfinite(column) & (column.real >= x0) & (column.real <= x1) & (column.imag >= y0) & (column.imag <= y1)
+        steps = np.abs(np.diff(column)) * (inside[1:] & inside[:-1])
+        steps = np.where(np.isfinite(steps), steps, 0.0)
+        length = steps.sum()
+        if length <= 0.02 * max(x1 - x0, y1 - y0):
+            continue
+        i = int(np.searchsorted(np.cumsum(steps), length / 2))
+        found.append((length, column[i], column[i + 1] - column[i]))
+    found.sort(key=lambda item: -item[0])
+    return [(point, direction) for _, point, direction in found[:MAX_ARROWS]]
 
 
 def _finite_box(points: np.ndarray) -> tuple[float, float, float, float] | None:
@@ -151,11 +177,11 @@ class PoleMap(QWidget):
         for axis in ("bottom", "left"):
             item.getAxis(axis).enableAutoSIPrefix(False)  # 1/s and rad/s always, never m1/s or mrad/s
         self.rhp = pg.LinearRegionItem((0, 1), movable=False, pen=pg.mkPen(None))
-        self.forbidden = pg.LinearRegionItem((-1, 0), movable=False, pen=pg.mkPen(None))
-        self.decay_line = pg.InfiniteLine(0, angle=90, movable=False)
+        self.decay_line = pg.InfiniteLine(0, angle=90, movable=False, label="", labelOpts={
+            "position": 0.93, "anchors": [(1, 0.5), (1, 0.5)], "rotateAxis": (1, 0)})
         self.imag_axis = pg.InfiniteLine(0, angle=90, movable=False)
         self.real_axis = pg.InfiniteLine(0, angle=0, movable=False)
-        for it in (self.rhp, self.forbidden, self.decay_line, self.imag_axis, self.real_axis):
+        for it in (self.rhp, self.decay_line, self.imag_axis, self.real_axis):
             it.setZValue(-10)
             plot.addItem(it, ignoreBounds=True)
         self.paths = pg.PlotDataItem([], [], connect="finite")
@@ -164,10 +190,13 @@ class PoleMap(QWidget):
         self.far = pg.ScatterPlotItem(symbol="t3", size=11)  # poles outside the view, pinned to its edge
         self.crossings = pg.ScatterPlotItem(symbol="d", size=10)  # where a pair crosses the axis, at the range ends
         self.crossing_labels: list[pg.TextItem] = []
+        self.arrows: list[pg.ArrowItem] = []
         for it in (self.paths, self.crossings, self.far, self.zeros, self.poles):
             plot.addItem(it)
         self._apply_theme()
         item.getViewBox().sigXRangeChanged.connect(self._cover_right_half_plane)
+        item.getViewBox().sigRangeChanged.connect(self._view_changed)
+        item.getViewBox().sigResized.connect(self._view_changed)  # arrows are drawn in screen angles
 
     def _apply_theme(self) -> None:
         """Colour every plot item from the current (light or dark) palette."""
@@ -178,8 +207,8 @@ class PoleMap(QWidget):
             plot.getAxis(axis).setPen(pg.mkPen(colour("axis")))
             plot.getAxis(axis).setTextPen(pg.mkPen(text))
         self.rhp.setBrush(pg.mkBrush(colour("rhp")))
-        self.forbidden.setBrush(pg.mkBrush(colour("forbidden")))
-        self.decay_line.setPen(pg.mkPen(colour("decay"), width=1.4, style=Qt.PenStyle.DashLine))
+        self.decay_line.setPen(pg.mkPen(colour("decay"), width=2.2, style=Qt.PenStyle.DotLine))
+        self.decay_line.label.setColor(colour("decay"))
         self.imag_axis.setPen(pg.mkPen(colour("axis"), width=1.2))
         self.real_axis.setPen(pg.mkPen(colour("axis"), width=0.8))
         self.paths.setPen(pg.mkPen(colour("path"), width=1))
@@ -225,12 +254,12 @@ class PoleMap(QWidget):
         x, y = path_curve(result.paths)
         self.paths.setData(x, y)
         self._mark_crossings(report)
+        self._draw_arrows()
         sigma = report.decay.sigma if report.decay is not None else None
         self.decay_line.setVisible(sigma is not None)
-        self.forbidden.setVisible(sigma is not None)
         if sigma is not None:
             self.decay_line.setValue(-sigma)
-            self.forbidden.setRegion((-sigma, 0))
+            self.decay_line.label.setFormat(f"decay limit σ = {number(sigma)} 1/s")
         if tuning is not None:
             self._range = (tuning.minimum, tuning.maximum)
             self.name_label.setText(tuning.name)
@@ -282,6 +311,35 @@ class PoleMap(QWidget):
             label.setPos(0.0, e.omega)
             self.plot.addItem(label, ignoreBounds=True)
             self.crossing_labels.append(label)
+
+    def _view_changed(self, *_args) -> None:
+        self._draw_arrows()
+
+    def _draw_arrows(self) -> None:
+        """Small arrows along the paths in view, pointing the way the tuning parameter increases."""
+        for arrow in self.arrows:
+            self.plot.removeItem(arrow)
+        self.arrows = []
+        result = self._result
+        if result is None or result.report is None or result.paths.size == 0:
+            return
+        box = self.plot.getPlotItem().getViewBox()
+        (x0, x1), (y0, y1) = box.viewRange()
+        pixel_w, pixel_h = box.viewPixelSize()
+        if not (pixel_w > 0 and pixel_h > 0):
+            return
+        pen, brush = pg.mkPen(colour("path")), pg.mkBrush(colour("path"))
+        for point, direction in path_arrows(result.paths, (x0, x1, y0, y1)):
+            angle = math.degrees(math.atan2(direction.imag / pixel_h, -direction.real / pixel_w))
+            arrow = pg.ArrowItem(pos=(point.real, point.imag), angle=angle, headLen=9, tipAngle=40, tailLen=None,
+                                 pen=pen, brush=brush)
+            arrow.setZValue(-5)
+            self.plot.addItem(arrow, ignoreBounds=True)
+            self.arrows.append(arrow)
+
+    def plotted_arrows(self) -> list[tuple[complex, float]]:
+        """(position, screen angle in degrees) of each direction arrow drawn."""
+        return [(complex(a.pos().x(), a.pos().y()), a.opts["angle"]) for a in self.arrows]
 
     def plotted_crossings(self) -> list[tuple[float, str]]:
         """(ω, label) of each marked crossing (upper half plane)."""

@@ -178,7 +178,7 @@ def polynomial_html(result) -> str:
     if analysed != report.polynomial:
         parts.append(_section("With other parameters at nominal", _line(math_html(analysed))))
     fac = factored(report.analysed)
-    parts.append(_section("Factored over Q", _line(math_html(fac)) if fac else
+    parts.append(_section("Factored (rational coefficients)", _line(math_html(fac)) if fac else
                           _line("does not factor over the rationals", "muted")))
     transfer = report.transfer_function
     if transfer:

@@ -24,7 +24,7 @@ from core.errors import LoopwrightError
 THROTTLE_MS = 100
 
 READOUTS = (("overshoot", "Overshoot"), ("rise_time", "Rise time 10–90 %"),
-            ("settling_time", "Settling time 2 %"), ("peak", "Peak"),
+            ("settling_time", "Settling 2 % (simulated)"), ("peak", "Peak"),
             ("final_value", "Steady-state value"), ("steady_state_error", "Steady-state error"))
 
 

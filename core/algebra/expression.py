@@ -65,7 +65,7 @@ from flint import fmpq, fmpq_mpoly, fmpq_mpoly_ctx
 
 from core.algebra.polynomial import S, mpoly_context
 from core.algebra.quasi import Delay, QuasiPolynomial
-from core.errors import ExpressionError
+from core.errors import ExpressionError, LoopwrightError
 
 __all__ = [
     "LAPLACE",
@@ -547,6 +547,20 @@ def _degree_bounds(expr: sympy.Expr) -> tuple[dict, dict]:
             n, d, k = d, n, -k
         return {x: k * v for x, v in n.items()}, {x: k * v for x, v in d.items()}
     raise ExpressionError("E107", f"not a rational expression in s and parameters: {type(expr).__name__}")
+
+
+def s_degree_bound(text: str) -> int:
+    """An upper bound on the degree in s of a typed expression, read without expanding it (cheap
+    at any power); 0 for text that cannot be read (its error is reported by the analysis).
+
+    >>> s_degree_bound("(s+1)^150 * (2*s + K)"), s_degree_bound("K"), s_degree_bound("s^")
+    (151, 0, 0)
+    """
+    try:
+        expr, _ = _parse(text, None, evaluate=False)
+        return max(part.get(LAPLACE, 0) for part in _degree_bounds(expr))
+    except LoopwrightError:
+        return 0
 
 
 def _add_degrees(a: dict, b: dict) -> dict:

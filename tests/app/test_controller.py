@@ -35,6 +35,12 @@ def unity_loop(num: str = "K", den: str = "s^3 + 3s^2 + 2s", nominal: float = 2.
     return d
 
 
+@pytest.fixture(autouse=True)
+def analyses_on_threads(monkeypatch):
+    """These tests replace the analysis in this process (monkeypatch), so it must run here, on a thread."""
+    monkeypatch.setattr(controller_module, "ANALYSIS_IN_PROCESS", False)
+
+
 @pytest.fixture
 def counted(monkeypatch):
     """Count the analyses the worker runs (the real analysis still runs)."""

@@ -28,7 +28,10 @@ def heavy_project(tmp_path, example_path):
 
 @pytest.fixture
 def gui_thread_calls(monkeypatch):
-    """Names of spied functions called on the main (GUI) thread."""
+    """Names of spied functions called on the main (GUI) thread. The analysis runs on a thread here
+    (in a worker process nothing of it can reach the GUI thread; the thread path is the one to check)."""
+    import app.controller as controller_module
+    monkeypatch.setattr(controller_module, "ANALYSIS_IN_PROCESS", False)
     calls: list[str] = []
 
     def spy(owner, name):

@@ -319,6 +319,26 @@ def test_pole_map_marks_where_the_pair_crosses_the_axis(loop):
     assert abs(omega - 2 ** 0.5) < 1e-9 and text == "K = 6"
 
 
+def test_pole_map_arrows_point_the_way_the_parameter_increases(loop, qtbot):
+    # Reference: numpy roots of s^3 + 3s^2 + 2s + K at two nearby values of K; each arrow's screen
+    # direction must match how the nearest root moves from the first to the second.
+    _d, _ctl, panels = loop
+    pole_map = panels["map"]
+    pole_map.resize(500, 500)
+    pole_map.show()
+    qtbot.waitUntil(lambda: bool(pole_map.plotted_arrows()), timeout=5000)
+    values = pole_map._result.path_values
+    for point, angle in pole_map.plotted_arrows():
+        column = np.argmin(np.abs(pole_map._result.paths - point).min(axis=0))
+        row = int(np.nanargmin(np.abs(pole_map._result.paths[:, column] - point)))
+        k0, k1 = values[row], values[min(row + 1, len(values) - 1)]
+        before, after = sorted_roots(np.roots(third_order(k0))), sorted_roots(np.roots(third_order(k1)))
+        start = before[np.argmin(np.abs(before - point))]
+        moved = after[np.argmin(np.abs(after - start))] - start
+        screen = complex(-np.cos(np.radians(angle)), np.sin(np.radians(angle)))  # y up, as in the data
+        assert moved.real * screen.real >= 0 and moved.imag * screen.imag >= -1e-12, (point, angle, moved)
+
+
 def test_pole_map_zooms_to_the_dominant_poles_and_names_the_far_ones(qtbot):
     # K / ((s+500)(s+2)(s+3)): at K = 1 the poles are near -500, -3 and -2 (numpy reference below);
     # the view keeps the slow pair and the crossing, the pole near -500 is pinned to the edge and named.

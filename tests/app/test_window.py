@@ -194,3 +194,15 @@ def test_headline_states_stability_and_requirements_like_the_command_line(window
     param = project.parameters[report.parameter]
     assert text == headline(report, requirements_outcome(report, project.requirements, project,
                                                          span=(param.minimum, param.maximum)))
+
+
+@pytest.mark.parametrize("size", [(1366, 768), (1920, 1080)])
+def test_palette_entries_keep_their_full_height_on_small_screens(window, example_path, analysed, qtbot, size):
+    """Palette labels were cut at 1366 x 768 (buttons squeezed below their size hint); now the palette
+    scrolls instead. Reference: Qt's own size hint of each button (text under icon)."""
+    assert window.files.open(example_path, ask=False)
+    analysed(window)
+    window.resize(*size)
+    qtbot.wait(50)
+    for button in window.palette_panel.buttons.values():
+        assert button.height() >= button.sizeHint().height(), button.text()

@@ -194,10 +194,12 @@ def test_hostile_clipboard_paste_changes_nothing(window, make_loop, payload):
 
 
 def test_analysis_bug_is_shown_not_raised(window, make_loop, analysed, monkeypatch):
+    import app.controller as controller_module
     import core.analysis.pipeline as pipeline
 
     def broken(_diagram):
         raise ZeroDivisionError("a bug of ours")
+    monkeypatch.setattr(controller_module, "ANALYSIS_IN_PROCESS", False)  # the replacement lives in this process
     monkeypatch.setattr(pipeline, "check_project", broken)
     window.set_document(make_loop())
     analysed(window)
