@@ -7,7 +7,7 @@ import os
 import sys
 import time
 
-ROWS = ("1", "2", "3", "4", "robust", "plane", "delay", "sampled")  # row 5 comes with row 3
+ROWS = ("1", "2", "3", "4", "robust", "plane", "delay", "sampled", "frequency")  # row 5 comes with row 3
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -18,7 +18,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--rows", default=",".join(ROWS),
                         help="comma-separated rows to run (1 stable range, 2 reduction, 3 pole paths and "
                              "5 their floor, 4 app, robust the robust range, plane the stability plane, delay a "
-                             "loop with dead time, sampled the sampled-data loop); default all")
+                             "loop with dead time, sampled the sampled-data loop, frequency the frequency "
+                             "response); default all")
     return parser
 
 
@@ -33,6 +34,7 @@ def main(argv: list[str] | None = None) -> int:
     from bench import (
         app_row,
         delay_row,
+        frequency_row,
         plane_row,
         pole_paths_row,
         reduction_row,
@@ -43,7 +45,7 @@ def main(argv: list[str] | None = None) -> int:
     from bench.table import format_table, machine
     runners = {"1": stable_range_row.run, "2": reduction_row.run, "3": pole_paths_row.run, "4": app_row.run,
                "robust": robust_row.run, "plane": plane_row.run, "delay": delay_row.run,
-               "sampled": sampled_row.run}
+               "sampled": sampled_row.run, "frequency": frequency_row.run}
     info = machine()
     start = time.perf_counter()
     rows = []

@@ -23,7 +23,7 @@ PROGRAM = "loopwright-check"
 VALUE_OPTIONS = ("--poly", "--param", "--at", "--decay", "--time-to-half", "--settling",
                  "--min-damping", "--max-overshoot", "--min-gain-margin", "--tolerance", "--plane",
                  "--variable", "--sample-period")
-FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--help")
+FLAG_OPTIONS = ("--json", "--fail-unstable", "--fail-requirements", "--frequency", "--help")
 DECAY_OPTIONS = {"--decay": ("sigma", "a decay rate", "1/s"), "--time-to-half": ("half_time", "a time to half", "s"),
                  "--settling": ("settling", "a settling time", "s")}
 
@@ -61,6 +61,9 @@ def build_parser() -> argparse.ArgumentParser:
                        help="the stability plane of two parameters (ranges optional for a project: "
                             "from its parameter table)")
     _add_sampled_options(check)
+    check.add_argument("--frequency", action="store_true",
+                       help="add the frequency response with the loop opened at the tuning gain (with --poly): "
+                            "gain and phase margins, crossovers, delay margin, sensitivity peak")
     check.add_argument("--json", action="store_true", help="print the report as JSON")
     check.add_argument("--fail-unstable", action="store_true", help="exit 1 when the nominal loop is not stable")
     check.add_argument("--fail-requirements", action="store_true",
@@ -237,6 +240,7 @@ def run(args) -> int:
         report.warnings += notes
         outcome = requirements_outcome(report, requirements, span=search_span(report))
         plane = plane_option.plane_of_polynomial(args.poly, axes, report.values) if axes is not None else None
+        frequency = _frequency(args, at)
     else:
         if args.param:
             raise UsageError("E501", "--param goes with --poly; a project names its tuning parameter",
@@ -245,7 +249,8 @@ def run(args) -> int:
         requirements = _requirements(args, project.requirements)
         outcome = requirements_outcome(report, requirements, project, span=_span(project, report))
         plane = plane_option.plane_of_project(project, report, axes) if axes is not None else None
-    _emit(_output(report, outcome, args.json, plane))
+        frequency = _project_frequency(project, report) if args.frequency else None
+    _emit(_output(report, outcome, args.json, plane, frequency))
     return 1 if (args.fail_unstable and not _stable_enough(report)) or (
         args.fail_requirements and not _requirements_pass(outcome)) else 0
 
@@ -302,8 +307,10 @@ def _run_delay(args, at) -> int:
             option = "--" + name.replace("_", "-")
             raise UsageError("E445", f"{option} is not available for a loop with dead time", where=option)
     report = check_quasi_polynomial(args.poly, parameter=args.param, at=at)
-    _emit(json_text({**report.to_dict(), "headline": delay_headline(report)}) if args.json
-          else delay_report_text(report))
+    frequency = _frequency(args, at)
+    data = {**report.to_dict(), "headline": delay_headline(report)}
+    _emit(json_text(_with_frequency(data, frequency)) if args.json
+          else _with_frequency_text(delay_report_text(report), frequency))
     return 1 if args.fail_unstable and not _delay_stable_enough(report) else 0
 
 
@@ -313,7 +320,45 @@ def _delay_stable_enough(report) -> bool:
     return report.stable_range is not None and bool(report.stable_range.intervals)
 
 
-def _output(report, outcome, as_json: bool, plane=None) -> str:
+def _frequency(args, at):
+    """The frequency response asked for with ``--frequency`` (None without it)."""
+    if not args.frequency:
+        return None
+    from core.algebra.expression import parse_quasi_polynomial
+    from core.analysis.frequency import analyse, loop_of_quasi_polynomial
+
+    declared = set(at) | ({args.param} if args.param else set())
+    quasi = parse_quasi_polynomial(args.poly, where="polynomial", declared=declared)
+    return analyse(loop_of_quasi_polynomial(quasi, args.param, at))
+
+
+def _project_frequency(project, report):
+    """The frequency response of a project, opened at its default wire, at the analysed values."""
+    from core.analysis.frequency import analyse, loop_of_project
+
+    loop, wire = loop_of_project(project, report.values)
+    out = analyse(loop)
+    out.opened_at = f"the wire {wire}"
+    return out
+
+
+def _with_frequency(data: dict, frequency) -> dict:
+    """The report's keys with the frequency response's added where not already there."""
+    if frequency is None:
+        return data
+    return {**data, **{k: v for k, v in frequency.to_dict().items() if k not in data}}
+
+
+def _with_frequency_text(text: str, frequency) -> str:
+    from core.present.frequency_text import frequency_text
+
+    if frequency is None:
+        return text
+    body, mark, caution = text.rpartition("\nCaution: ")  # the caution stays last
+    return f"{body}\n\n{frequency_text(frequency)}\n{mark}{caution}" if mark else f"{text}\n\n{frequency_text(frequency)}"
+
+
+def _output(report, outcome, as_json: bool, plane=None, frequency=None) -> str:
     from core.present.plane_text import with_plane_section
     from core.present.report_json import json_text
     from core.present.report_text import report_text
@@ -321,12 +366,12 @@ def _output(report, outcome, as_json: bool, plane=None) -> str:
 
     if not as_json:
         text = report_text(report, outcome)
-        return text if plane is None else with_plane_section(text, plane)
+        return _with_frequency_text(text if plane is None else with_plane_section(text, plane), frequency)
     data = report.to_dict()
     data["headline"] = headline(report, outcome)
     data["requirements"] = outcome.to_dict() if outcome is not None else None
     data["plane"] = plane.to_dict() if plane is not None else None
-    return json_text(data)
+    return json_text(_with_frequency(data, frequency))
 
 
 def _emit(text: str) -> None:

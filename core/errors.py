@@ -81,6 +81,13 @@ CATALOGUE: dict[str, str] = {
     "E457": "option not available for a polynomial in z",
     "E458": "z in a denominator of a polynomial in z",
     "E459": "degree in z above the analysed limit",
+    "E460": "frequency response: the polynomial is not affine in the tuning gain",
+    "E461": "frequency response: no tuning gain named",
+    "E462": "frequency response: a parameter has no value",
+    "E463": "frequency response: a delay outside the tuning gain's term",
+    "E464": "frequency response: loop transfer function zero, undefined or improper",
+    "E465": "frequency response: a crossover could not be resolved",
+    "E466": "frequency response: no wire to open the loop at",
     # command line
     "E501": "command-line arguments invalid",
 }

@@ -14,7 +14,16 @@ import pytest
 import sympy
 from flint import fmpq
 
-from bench import baseline, generators, pole_paths_row, reduction_row, stable_range_row, table, timing
+from bench import (
+    baseline,
+    frequency_row,
+    generators,
+    pole_paths_row,
+    reduction_row,
+    stable_range_row,
+    table,
+    timing,
+)
 from core.analysis.poles import pole_paths
 from core.graph.reduction import reduce_diagram
 
@@ -130,3 +139,14 @@ def test_whole_report_call_gives_nominal_poles():
     report = stable_range_row.whole_report(8)()
     assert report.nominal is not None and len(report.nominal.poles) > 0
     assert report.values == {"K": fmpq(1)}
+
+
+def test_frequency_row_response_has_the_asked_points():
+    # source: numpy.polyval of the same plant at the grid's first point
+    loop = frequency_row.degree_six_loop()
+    curves = frequency_row.timed_response()()
+    assert len(curves["omega"]) == frequency_row.POINTS
+    w = curves["omega"][0]
+    expected = np.polyval([float(c) for c in reversed(loop.numerator)], 1j * w) / np.polyval(
+        [float(c) for c in reversed(loop.denominator)], 1j * w)
+    assert abs(curves["magnitude"][0] - abs(expected)) <= 1e-12 * abs(expected)

@@ -22,7 +22,7 @@ from core.present.report_json import json_text
 
 __all__ = ["NOT_FOR_Z", "discrete_output", "read_sample_period", "read_variable", "z_report"]
 
-NOT_FOR_Z = ("plane", "tolerance", "min_damping", "max_overshoot", "min_gain_margin")
+NOT_FOR_Z = ("plane", "tolerance", "min_damping", "max_overshoot", "min_gain_margin", "frequency")
 
 
 def read_variable(text: str | None) -> str:
@@ -50,7 +50,7 @@ def z_report(args, at: dict, decay: tuple[str, float] | None, read_value: Callab
     E450 for a bad sample period)."""
     if args.poly is None:
         raise AnalysisError("E457", "--variable z goes with --poly (a polynomial typed in z)", where="--variable")
-    used = [name for name in NOT_FOR_Z if getattr(args, name, None) not in (None, [])]
+    used = [name for name in NOT_FOR_Z if getattr(args, name, None) not in (None, [], False)]
     if used:
         raise AnalysisError("E457", f"--{used[0].replace('_', '-')} is not available for a polynomial in z",
                             where=f"--{used[0].replace('_', '-')}")
