@@ -346,6 +346,7 @@ def test_cli_fail_unstable_reads_the_z_verdict(capsys):
     (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--decay", "1"], "E456"),
     (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--plane", "K=0..1,T=0..1"], "E457"),
     (["--poly", "s^2 + K", "--param", "K", "--sample-period", "0.1"], "E457"),
+    (["--poly", "z^2 + K", "--variable", "z", "--param", "K", "--frequency"], "E457"),
     (["--poly", "(z + 1)^150 * (z - 1)^100", "--variable", "z"], "E459"),
 ])
 def test_cli_bad_sampled_input_is_a_coded_error(capsys, argv, code):
