@@ -29,10 +29,14 @@ def delay_headline(report: DelayReport) -> str:
 
     >>> from core.analysis.delay_report import check_quasi_polynomial
     >>> delay_headline(check_quasi_polynomial("s + 1 + K*exp(-s)", "K", {"K": "1/2"}))  # |K| < 1
-    'STABLE at K = 1/2 (certified); delay margin unbounded'
+    'STABLE at K = 1/2 (certified); delay margin unbounded; no requirements set'
     >>> delay_headline(check_quasi_polynomial("s + 1 + K*exp(-s)", "K", {"K": "2"}))  # 2pi/(3 sqrt 3) - 1
-    'STABLE at K = 2 (certified); delay margin 0.209199576156 s'
+    'STABLE at K = 2 (certified); delay margin 0.209199576156 s; no requirements set'
     """
+    return _verdict(report) + "; no requirements set"  # requirement options are refused for delay loops (E445)
+
+
+def _verdict(report: DelayReport) -> str:
     d = report.to_dict()
     rng = d["stable_range"]
     ranged = ""

@@ -5,7 +5,7 @@ the radius requirement and the largest sample period.
 >>> from core.analysis.discrete_report import check_z_polynomial
 >>> text = discrete_text(check_z_polynomial("z^2 - z + K", "K"))
 >>> print("\\n".join(text.splitlines()[:2]))
-Verdict: stable for K in (0, 1); no nominal value
+Verdict: stable for K in (0, 1); no nominal value; no requirements set
 Characteristic polynomial in z: z^2 - z + K
 """
 from __future__ import annotations
@@ -26,19 +26,32 @@ def _interval(iv) -> str:
 
 
 def discrete_headline(report: DiscreteReport) -> str:
-    """One line: the verdict at the nominal values, or the stable range without them."""
+    """One line: the verdict at the nominal values, or the stable range without them, and the
+    decay (radius) requirement's verdict."""
     d = report.to_dict()
     nominal = d["nominal"]
     if nominal is not None:
         at = ", ".join(f"{k} = {v}" for k, v in sorted(nominal["exact_values"].items()))
         state = "STABLE" if nominal["stable"] else "UNSTABLE" if nominal["outside"] else "NOT STABLE"
-        return f"{state}{' at ' + at if at else ''} (every root inside the unit circle)" if nominal["stable"] else \
+        line = f"{state}{' at ' + at if at else ''} (every root inside the unit circle)" if nominal["stable"] else \
             f"{state}{' at ' + at if at else ''} ({nominal['outside']} outside, {nominal['on']} on the unit circle)"
+        return line + _requirement_phrase(d.get("decay"))
     rng = d["stable_range"]
     if not rng["intervals"]:
-        return f"stable for no value of {d['parameter']}"
+        return f"stable for no value of {d['parameter']}" + _requirement_phrase(d.get("decay"))
     return f"stable for {d['parameter']} in " + " U ".join(_interval(iv) for iv in rng["approx_intervals"]) + \
-        "; no nominal value"
+        "; no nominal value" + _requirement_phrase(d.get("decay"))
+
+
+def _requirement_phrase(decay: dict | None) -> str:
+    """``; no requirements set`` / ``; decay requirement met (|z| < 0.904837)`` / ``..., but ... NOT met``."""
+    if not decay or not decay.get("radius"):
+        return "; no requirements set"
+    bound = f"|z| < {decay['radius']:.6g}"
+    ok = decay.get("nominal_ok")
+    if ok is None:
+        return f"; decay requirement ({bound}) judged as a range only"
+    return f"; decay requirement met ({bound})" if ok else f", but decay requirement NOT met ({bound})"
 
 
 def endpoint_phrase(e: dict) -> str:
