@@ -182,3 +182,19 @@ def test_coefficients_near_the_limits_never_give_inf_nan_or_an_error(terms):
     text = report_text(report, None)
     assert "inf" not in text.replace("+inf", "").replace("-inf", "") and "nan" not in text
     json.loads(json_text(report.to_dict()))
+
+
+def test_range_ends_beyond_the_float_range_are_written_from_their_exact_value():
+    """A hostile project's parameter near 1e400 once reached exit 70 while its range end was written
+    (a float infinity turned into a rational). Reference: the end 1e400 * 3/7 (by hand) and the
+    irrational sqrt(2) * 1e400 (mpmath at 30 digits)."""
+    import mpmath
+    from flint import fmpz_poly
+
+    from core.analysis.stable_range import Boundary, real_values
+    rational = Boundary.of_rational(fmpz_poly([0, 1]), fmpq(3, 7) * fmpq(10) ** 400)
+    assert rational.approx_text(6) == "4.28571e+399" and rational.approx == "4.28571428571e+399"
+    mpmath.mp.dps = 30
+    (negative, positive) = real_values(fmpq_poly([-2 * 10 ** 800, 0, 1]))
+    expected = mpmath.nstr(mpmath.sqrt(2) * mpmath.mpf(10) ** 400, 6)
+    assert positive.approx_text(6) == expected and negative.approx_text(6) == "-" + expected

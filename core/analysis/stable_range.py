@@ -110,8 +110,9 @@ class Boundary:
 
     def _digits_text(self, digits: int) -> str:
         v = self.value
-        narrow = self.rational is not None or self.hi - self.lo <= abs(to_fmpq(v)) / fmpq(10) ** (digits + 2)
-        if digits <= 15 and math.isfinite(v) and v != 0 and narrow:
+        finite = math.isfinite(v)  # a value beyond the float range is written from its ball below
+        narrow = finite and (self.rational is not None or self.hi - self.lo <= abs(to_fmpq(v)) / fmpq(10) ** (digits + 2))
+        if digits <= 15 and v != 0 and narrow:
             return f"{v:.{digits}g}"
         with ctx.workprec(4 * digits + 64):
             if self.rational is not None:
